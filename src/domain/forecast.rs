@@ -1,0 +1,208 @@
+//! Every cell as of a given time: what is left of its anodes, what its cathodes
+//! hold, when each is due, and what in its data deserves a second look.
+
+use serde::Serialize;
+
+use super::anode::{AnodeLoad, body_thickness_mm};
+use super::cathode::Cathodes;
+use super::charge::{Curve, OpenSpan, Time, cell_charge, cell_time_reaching};
+use super::electrochem::specific_energy_kwh_per_kg;
+use super::layout::{AnodeKind, CellParams};
+
+/// A structured data warning: a code a script can match, a sentence a person can read.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Warning {
+    pub code: &'static str,
+    pub message: String,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub cell: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub circuit: Option<String>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub from: Option<Time>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub to: Option<Time>,
+}
+
+/// What the forecast needs to know of one cell as of `as_of`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CellInput {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    pub params: CellParams,
+    /// The running anode load: set time, count, mean mass at set.
+    pub load: Option<(Time, u32, f64)>,
+    /// When the running crop began.
+    pub crop_started: Option<Time>,
+    /// Cut-outs known at `as_of` (one still open at `as_of` has no end).
+    pub cutouts: Vec<OpenSpan>,
+    pub last_crop_efficiency: Option<f64>,
+    pub last_voltage: Option<(Time, f64)>,
+    /// Shorts found since the running crop began (count, last time).
+    pub shorts: Option<(u32, Time)>,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AnodeForecast {
+    pub set_at: Time,
+    pub count: u32,
+    pub initial_kg: f64,
+    pub remaining_kg: f64,
+    pub remaining_fraction: f64,
+    pub pull_due: Option<Time>,
+    pub thickness_mm: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CathodeForecast {
+    pub started_at: Time,
+    pub mass_kg: f64,
+    pub inner_mass_kg: f64,
+    pub charge_ah: f64,
+    pub harvest_due: Option<Time>,
+}
+
+/// One cell's forecast.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CellForecast {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    pub in_circuit: bool,
+    pub anode_kind: AnodeKind,
+    pub anode: Option<AnodeForecast>,
+    pub cathode: Option<CathodeForecast>,
+    pub cathode_efficiency: f64,
+    pub last_crop_efficiency: Option<f64>,
+    /// Charge since the anode set (since the crop began for inert cells), including `estimated_ah`.
+    pub charge_ah: f64,
+    /// The part of `charge_ah` estimated after the circuit's last reading.
+    pub estimated_ah: f64,
+    pub energy_kwh_per_t: Option<f64>,
+    pub shorts: Option<u32>,
+    pub warnings: Vec<Warning>,
+}
+
+/// Forecasts one cell on its circuit's curve.
+pub fn forecast_cell(input: &CellInput, curve: &impl Curve, as_of: Time) -> CellForecast {
+    let p = &input.params;
+    let in_circuit = !input.cutouts.iter().any(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of));
+    let mut warnings = Vec::new();
+    let mut warn = |code, message: String| {
+        warnings.push(Warning { code, message, cell: Some(input.cell.clone()), circuit: None, from: None, to: None });
+    };
+    let eta_c = p.cathode_efficiency;
+    let mut charge = None;
+    let anode = input.load.map(|(set_at, count, initial_kg)| {
+        let q = cell_charge(curve, &input.cutouts, set_at, as_of);
+        charge = Some(q);
+        let load = AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
+        if p.anode_kind == AnodeKind::Inert {
+            return AnodeForecast { set_at, count, initial_kg, remaining_kg: initial_kg, remaining_fraction: 1.0, pull_due: None, thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2) };
+        }
+        let remaining_kg = load.remaining_kg(q.total());
+        let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
+        let pull_due = load.charge_to_fraction_ah(p.scrap_target).and_then(|target| cell_time_reaching(curve, &input.cutouts, set_at, target));
+        AnodeForecast { set_at, count, initial_kg, remaining_kg, remaining_fraction: load.remaining_fraction(q.total()), pull_due, thickness_mm }
+    });
+    if let Some(a) = &anode {
+        if p.anode_kind == AnodeKind::Soluble && a.thickness_mm < p.thin_anode_mm {
+            warn("thin_anode", format!("anodes about {:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs", a.thickness_mm, p.thin_anode_mm));
+        }
+    }
+    let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
+    let cathode = input.crop_started.map(|started_at| {
+        let q = cell_charge(curve, &input.cutouts, started_at, as_of);
+        if p.anode_kind == AnodeKind::Inert || charge.is_none() {
+            charge = Some(q);
+        }
+        let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg));
+        CathodeForecast { started_at, mass_kg: cathodes.mean_kg(q.total()), inner_mass_kg: cathodes.inner_kg(q.total()), charge_ah: q.total(), harvest_due: due }
+    });
+    if let Some(eff) = input.last_crop_efficiency {
+        if eff < p.low_efficiency_below {
+            warn("low_efficiency", format!("last crop plated at {:.1} % current efficiency, under {:.0} %: look for shorts or bad contacts", eff * 100.0, p.low_efficiency_below * 100.0));
+        }
+    }
+    if let Some((t, v)) = input.last_voltage {
+        if v < p.voltage_min || v > p.voltage_max {
+            let why = if p.anode_kind == AnodeKind::Inert && v < p.voltage_min {
+                format!("below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading", p.voltage_min)
+            } else {
+                format!("outside the plausible {}–{} V", p.voltage_min, p.voltage_max)
+            };
+            warnings.push(Warning { code: "voltage_range", message: format!("cell voltage {v} V {why}"), cell: Some(input.cell.clone()), circuit: None, from: Some(t), to: None });
+        }
+    }
+    let charge = charge.unwrap_or_default();
+    CellForecast {
+        cell: input.cell.clone(),
+        circuit: input.circuit.clone(),
+        section: input.section.clone(),
+        in_circuit,
+        anode_kind: p.anode_kind,
+        anode,
+        cathode,
+        cathode_efficiency: eta_c,
+        last_crop_efficiency: input.last_crop_efficiency,
+        charge_ah: charge.total(),
+        estimated_ah: charge.estimated,
+        energy_kwh_per_t: input.last_voltage.map(|(_, v)| specific_energy_kwh_per_kg(v, eta_c) * 1000.0),
+        shorts: input.shorts.map(|(n, _)| n),
+        warnings,
+    }
+}
+
+/// The whole plant's forecast.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Forecast {
+    pub schema: u32,
+    pub as_of: Time,
+    pub cells: Vec<CellForecast>,
+    pub warnings: Vec<Warning>,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::domain::charge::{MemoryCurve, RawReading};
+    use chrono::{Duration, TimeZone, Utc};
+
+    fn t0() -> Time {
+        Utc.with_ymd_and_hms(2026, 3, 1, 0, 0, 0).unwrap()
+    }
+
+    /// DOMAIN.md plant check (derived): 50 × 380 kg anodes, 51 cathodes, 30 kA, η_c 0.96.
+    #[test]
+    fn plant_check_due_times() {
+        let readings: Vec<RawReading> = (0..=24).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 30_000.0 }).collect();
+        let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(24));
+        let input = CellInput {
+            cell: "A01".into(),
+            circuit: "C1".into(),
+            section: "A".into(),
+            params: CellParams::default(),
+            load: Some((t0(), 50, 380.0)),
+            crop_started: Some(t0()),
+            cutouts: vec![],
+            last_crop_efficiency: Some(0.85),
+            last_voltage: Some((t0(), 0.30)),
+            shorts: None,
+        };
+        let f = forecast_cell(&input, &curve, t0() + Duration::hours(24));
+        let c = f.cathode.as_ref().unwrap();
+        // 179.25 h to a 120 kg mean (DOMAIN.md, derived)
+        let h = (c.harvest_due.unwrap() - t0()).num_seconds() as f64 / 3600.0;
+        assert!((h - 179.25).abs() < 0.01, "{h}");
+        // 15 % scrap after 451.8 h (DOMAIN.md, derived)
+        let h = (f.anode.as_ref().unwrap().pull_due.unwrap() - t0()).num_seconds() as f64 / 3600.0;
+        assert!((h - 451.8).abs() < 0.05, "{h}");
+        // 819 kg/day of copper over 51 cathodes (DOMAIN.md, derived)
+        assert!((c.mass_kg * 51.0 - 819.0).abs() < 0.5);
+        // 0.30 V at 96 % → 263.6 kWh/t (DOMAIN.md, derived)
+        assert!((f.energy_kwh_per_t.unwrap() - 263.6).abs() < 0.05);
+        assert!(f.warnings.iter().any(|w| w.code == "low_efficiency"));
+        assert!(f.in_circuit);
+    }
+}

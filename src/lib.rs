@@ -1,0 +1,5 @@
+//! tankbook: the shift book of a copper electrorefinery tankhouse. Layers, one
+//! direction: `domain` ← `store` ← `plant` ← `cli` (and the screens).
+#![forbid(unsafe_code)]
+
+pub mod domain;
