@@ -3,3 +3,6 @@
 #![forbid(unsafe_code)]
 
 pub mod domain;
+pub mod store;
+pub mod plant;
+pub mod cli;

@@ -1,3 +1,5 @@
-fn main() {
-    println!("Hello, world!");
+//! tankbook's entry point: all the work is in the library.
+
+fn main() -> std::process::ExitCode {
+    tankbook::cli::main()
 }

@@ -316,10 +316,12 @@ impl Cum {
 /// [`MemoryCurve`] (readings in memory) and the store's, which looks the two
 /// readings around an instant up in the database instead of loading them all.
 pub trait Curve {
+    /// What a look-up can fail with (nothing, for a curve in memory).
+    type Error;
     /// Cumulative charge at `t`.
-    fn cum_at(&self, t: Time) -> Cum;
+    fn cum_at(&self, t: Time) -> Result<Cum, Self::Error>;
     /// Earliest instant at which the cumulative total reaches `total`.
-    fn time_at(&self, total: f64) -> Option<Time>;
+    fn time_at(&self, total: f64) -> Result<Option<Time>, Self::Error>;
 }
 
 /// What lies around an instant on a circuit's reading record.
@@ -380,7 +382,7 @@ impl MemoryCurve {
         };
         if let Some(p) = last {
             let a = p.t - MEAN_WINDOW;
-            let cum_a = curve.cum_at(a).measured;
+            let cum_a = curve.around_cum(a).measured;
             let mean = mean_in_service_amps(a.max(curve.points[0].t), cum_a, p.t, p.cum_ah, &outages);
             curve.projection = Projection::new(last, mean, setpoints, outages);
         }
@@ -397,14 +399,21 @@ impl MemoryCurve {
     }
 }
 
-impl Curve for MemoryCurve {
-    fn cum_at(&self, t: Time) -> Cum {
+impl MemoryCurve {
+    fn around_cum(&self, t: Time) -> Cum {
         cum_from(self.around(t), t, &self.outages, &self.projection)
     }
-    fn time_at(&self, total: f64) -> Option<Time> {
+}
+
+impl Curve for MemoryCurve {
+    type Error = std::convert::Infallible;
+    fn cum_at(&self, t: Time) -> Result<Cum, Self::Error> {
+        Ok(self.around_cum(t))
+    }
+    fn time_at(&self, total: f64) -> Result<Option<Time>, Self::Error> {
         let i = self.points.partition_point(|p| p.cum_ah < total);
         let hit = self.points.get(i).map(|p| (i.checked_sub(1).map(|j| self.points[j]), *p));
-        time_from(hit, self.points.last().copied(), total, &self.outages, &self.projection)
+        Ok(time_from(hit, self.points.last().copied(), total, &self.outages, &self.projection))
     }
 }
 
@@ -420,36 +429,38 @@ pub fn in_circuit(a: Time, b: Option<Time>, cutouts: &[OpenSpan]) -> Vec<(Time, 
 }
 
 /// Charge through a cell over `[a, b]`: the circuit's charge less its cut-outs.
-pub fn cell_charge(curve: &impl Curve, cutouts: &[OpenSpan], a: Time, b: Time) -> Cum {
+pub fn cell_charge<C: Curve>(curve: &C, cutouts: &[OpenSpan], a: Time, b: Time) -> Result<Cum, C::Error> {
+    let mut acc = Cum::default();
     if b <= a {
-        return Cum::default();
+        return Ok(acc);
     }
-    in_circuit(a, Some(b), cutouts).into_iter().fold(Cum::default(), |acc, (x, y)| {
+    for (x, y) in in_circuit(a, Some(b), cutouts) {
         let y = y.unwrap_or(b);
-        acc.plus(curve.cum_at(y).minus(curve.cum_at(x)))
-    })
+        acc = acc.plus(curve.cum_at(y)?.minus(curve.cum_at(x)?));
+    }
+    Ok(acc)
 }
 
 /// Earliest instant at which the cell's charge since `a` reaches `target_ah`
 /// (in the past if it already has); `None` if not within the projection horizon
 /// or the cell is cut out for good.
-pub fn cell_time_reaching(curve: &impl Curve, cutouts: &[OpenSpan], a: Time, target_ah: f64) -> Option<Time> {
+pub fn cell_time_reaching<C: Curve>(curve: &C, cutouts: &[OpenSpan], a: Time, target_ah: f64) -> Result<Option<Time>, C::Error> {
     if target_ah <= 0.0 {
-        return Some(a);
+        return Ok(Some(a));
     }
     let mut acc = 0.0;
     for (x, y) in in_circuit(a, None, cutouts) {
-        let cx = curve.cum_at(x).total();
+        let cx = curve.cum_at(x)?.total();
         let got = match y {
-            Some(y) => curve.cum_at(y).total() - cx,
+            Some(y) => curve.cum_at(y)?.total() - cx,
             None => f64::INFINITY,
         };
         if acc + got >= target_ah {
-            return curve.time_at(cx + (target_ah - acc)).map(|t| t.max(x));
+            return Ok(curve.time_at(cx + (target_ah - acc))?.map(|t| t.max(x)));
         }
         acc += got;
     }
-    None
+    Ok(None)
 }
 
 #[cfg(test)]
@@ -475,10 +486,10 @@ mod tests {
     fn trapezoid_over_irregular_intervals() {
         // 0 h 100 A, 1 h 200 A, 3.5 h 200 A, 4 h 0 A: by hand 150 + 500 + 50 = 700 A·h.
         let c = MemoryCurve::build(&[r(0.0, 100.0), r(1.0, 200.0), r(3.5, 200.0), r(4.0, 0.0)], &[], &[], t(4.0));
-        assert!(close(c.cum_at(t(4.0)).measured, 700.0));
+        assert!(close(c.around_cum(t(4.0)).measured, 700.0));
         // half-way along the first segment the current is 150 A: 0.5·(100+150)/2
-        assert!(close(c.cum_at(t(0.5)).measured, 62.5));
-        assert_eq!(c.cum_at(t(4.0)).estimated, 0.0);
+        assert!(close(c.around_cum(t(0.5)).measured, 62.5));
+        assert_eq!(c.around_cum(t(4.0)).estimated, 0.0);
     }
 
     #[test]
@@ -486,7 +497,7 @@ mod tests {
         // 1000 A flat from 0 to 10 h, outage 2–5 h with a stray 800 A reading at 3 h.
         let rs = [r(0.0, 1000.0), r(3.0, 800.0), r(10.0, 1000.0)];
         let c = MemoryCurve::build(&rs, &[span(2.0, 5.0)], &[], t(10.0));
-        assert!(close(c.cum_at(t(10.0)).measured, 7000.0));
+        assert!(close(c.around_cum(t(10.0)).measured, 7000.0));
         let acc = accumulate(None, &rs, &[span(2.0, 5.0)]);
         assert!(!acc[1].valid);
         assert!(acc[2].gap_before, "5–10 h is a 5 h gap not covered by the outage");
@@ -496,7 +507,7 @@ mod tests {
     fn overlapping_outages_count_once() {
         let rs = [r(0.0, 1000.0), r(10.0, 1000.0)];
         let c = MemoryCurve::build(&rs, &[span(2.0, 5.0), span(4.0, 6.0), span(5.5, 5.8)], &[], t(10.0));
-        assert!(close(c.cum_at(t(10.0)).measured, 6000.0));
+        assert!(close(c.around_cum(t(10.0)).measured, 6000.0));
     }
 
     #[test]
@@ -509,10 +520,10 @@ mod tests {
             OpenSpan { from: t(20.0), to: None },
         ];
         // in circuit 0–2 and 5–20: 17 h at 1000 A
-        assert!(close(cell_charge(&c, &cuts, t(0.0), t(24.0)).total(), 17_000.0));
+        assert!(close(cell_charge(&c, &cuts, t(0.0), t(24.0)).unwrap().total(), 17_000.0));
         // an open cut-out stops the cell for good: never reaches 18 000 A·h
-        assert_eq!(cell_time_reaching(&c, &cuts, t(0.0), 18_000.0), None);
-        assert_eq!(cell_time_reaching(&c, &cuts, t(0.0), 3_000.0), Some(t(6.0)));
+        assert_eq!(cell_time_reaching(&c, &cuts, t(0.0), 18_000.0).unwrap(), None);
+        assert_eq!(cell_time_reaching(&c, &cuts, t(0.0), 3_000.0).unwrap(), Some(t(6.0)));
     }
 
     #[test]
@@ -521,7 +532,7 @@ mod tests {
         let mut rs: Vec<RawReading> = (0..=10).map(|h| r(h as f64, 1000.0)).collect();
         rs.push(r(12.0, 5000.0));
         let c = MemoryCurve::build(&rs, &[], &[], t(11.5));
-        let at = c.cum_at(t(11.5));
+        let at = c.around_cum(t(11.5));
         assert!(close(at.measured, 10_000.0));
         // the estimate uses the 24 h mean (1000 A), not an interpolation towards 5000 A
         assert!(close(at.estimated, 1_500.0));
@@ -533,17 +544,17 @@ mod tests {
         let sp = [(t(5.0), 9999.0), (t(12.0), 2000.0)];
         let c = MemoryCurve::build(&rs, &[], &sp, t(14.0));
         // 10–12 h at the mean (1000 A; the 5 h setpoint is before the last reading), 12–14 h at 2000 A
-        assert!(close(c.cum_at(t(14.0)).estimated, 2000.0 + 4000.0));
+        assert!(close(c.around_cum(t(14.0)).estimated, 2000.0 + 4000.0));
         // 10 000 A·h measured + 2000 by 12 h, then 3000 more at 2000 A → 13.5 h
-        assert_eq!(c.time_at(15_000.0), Some(t(13.5)));
+        assert_eq!(c.time_at(15_000.0).unwrap(), Some(t(13.5)));
     }
 
     #[test]
     fn future_outage_pauses_the_estimate() {
         let rs: Vec<RawReading> = (0..=10).map(|h| r(h as f64, 1000.0)).collect();
         let c = MemoryCurve::build(&rs, &[span(11.0, 13.0)], &[], t(10.0));
-        assert!(close(c.cum_at(t(14.0)).estimated, 2000.0));
-        assert_eq!(c.time_at(12_000.0), Some(t(14.0)));
+        assert!(close(c.around_cum(t(14.0)).estimated, 2000.0));
+        assert_eq!(c.time_at(12_000.0).unwrap(), Some(t(14.0)));
     }
 
     #[test]
@@ -558,7 +569,7 @@ mod tests {
     fn time_at_inverts_inside_a_segment() {
         let c = MemoryCurve::build(&[r(0.0, 0.0), r(2.0, 200.0)], &[], &[], t(2.0));
         // a(t) = 100 t, cum = 50 t² → 50 A·h at 1 h
-        let got = c.time_at(50.0).unwrap();
+        let got = c.time_at(50.0).unwrap().unwrap();
         assert!((got - t(1.0)).num_milliseconds().abs() <= 1);
     }
 
@@ -574,7 +585,7 @@ mod tests {
             let c = MemoryCurve::build(&rs, &outs, &[], t(h * 0.8));
             let mut p = probes.clone();
             p.sort_by(f64::total_cmp);
-            let vals: Vec<f64> = p.iter().map(|x| c.cum_at(t(*x)).total()).collect();
+            let vals: Vec<f64> = p.iter().map(|x| c.around_cum(t(*x)).total()).collect();
             for w in vals.windows(2) {
                 prop_assert!(w[1] >= w[0] - 1e-9, "{vals:?}");
             }
@@ -587,8 +598,8 @@ mod tests {
             let rs: Vec<RawReading> = amps.iter().enumerate().map(|(i, x)| r(i as f64 * 1.5, *x)).collect();
             let c = MemoryCurve::build(&rs, &[], &[], t(25.0));
             let cs: Vec<OpenSpan> = cuts.iter().map(|(f, l)| OpenSpan { from: t(*f), to: Some(t(f + l)) }).collect();
-            let with = cell_charge(&c, &cs, t(a), t(a + len)).total();
-            let without = cell_charge(&c, &[], t(a), t(a + len)).total();
+            let with = cell_charge(&c, &cs, t(a), t(a + len)).unwrap().total();
+            let without = cell_charge(&c, &[], t(a), t(a + len)).unwrap().total();
             prop_assert!(with <= without + 1e-9);
             prop_assert!(with >= -1e-9);
         }

@@ -85,7 +85,7 @@ pub struct CellForecast {
 }
 
 /// Forecasts one cell on its circuit's curve.
-pub fn forecast_cell(input: &CellInput, curve: &impl Curve, as_of: Time) -> CellForecast {
+pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Result<CellForecast, C::Error> {
     let p = &input.params;
     let in_circuit = !input.cutouts.iter().any(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of));
     let mut warnings = Vec::new();
@@ -94,32 +94,38 @@ pub fn forecast_cell(input: &CellInput, curve: &impl Curve, as_of: Time) -> Cell
     };
     let eta_c = p.cathode_efficiency;
     let mut charge = None;
-    let anode = input.load.map(|(set_at, count, initial_kg)| {
-        let q = cell_charge(curve, &input.cutouts, set_at, as_of);
+    let mut anode = None;
+    if let Some((set_at, count, initial_kg)) = input.load {
+        let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
         charge = Some(q);
         let load = AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
-        if p.anode_kind == AnodeKind::Inert {
-            return AnodeForecast { set_at, count, initial_kg, remaining_kg: initial_kg, remaining_fraction: 1.0, pull_due: None, thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2) };
-        }
-        let remaining_kg = load.remaining_kg(q.total());
-        let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
-        let pull_due = load.charge_to_fraction_ah(p.scrap_target).and_then(|target| cell_time_reaching(curve, &input.cutouts, set_at, target));
-        AnodeForecast { set_at, count, initial_kg, remaining_kg, remaining_fraction: load.remaining_fraction(q.total()), pull_due, thickness_mm }
-    });
+        anode = Some(if p.anode_kind == AnodeKind::Inert {
+            AnodeForecast { set_at, count, initial_kg, remaining_kg: initial_kg, remaining_fraction: 1.0, pull_due: None, thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2) }
+        } else {
+            let remaining_kg = load.remaining_kg(q.total());
+            let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
+            let pull_due = match load.charge_to_fraction_ah(p.scrap_target) {
+                Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
+                None => None,
+            };
+            AnodeForecast { set_at, count, initial_kg, remaining_kg, remaining_fraction: load.remaining_fraction(q.total()), pull_due, thickness_mm }
+        });
+    }
     if let Some(a) = &anode {
         if p.anode_kind == AnodeKind::Soluble && a.thickness_mm < p.thin_anode_mm {
             warn("thin_anode", format!("anodes about {:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs", a.thickness_mm, p.thin_anode_mm));
         }
     }
     let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
-    let cathode = input.crop_started.map(|started_at| {
-        let q = cell_charge(curve, &input.cutouts, started_at, as_of);
+    let mut cathode = None;
+    if let Some(started_at) = input.crop_started {
+        let q = cell_charge(curve, &input.cutouts, started_at, as_of)?;
         if p.anode_kind == AnodeKind::Inert || charge.is_none() {
             charge = Some(q);
         }
-        let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg));
-        CathodeForecast { started_at, mass_kg: cathodes.mean_kg(q.total()), inner_mass_kg: cathodes.inner_kg(q.total()), charge_ah: q.total(), harvest_due: due }
-    });
+        let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg))?;
+        cathode = Some(CathodeForecast { started_at, mass_kg: cathodes.mean_kg(q.total()), inner_mass_kg: cathodes.inner_kg(q.total()), charge_ah: q.total(), harvest_due: due });
+    }
     if let Some(eff) = input.last_crop_efficiency {
         if eff < p.low_efficiency_below {
             warn("low_efficiency", format!("last crop plated at {:.1} % current efficiency, under {:.0} %: look for shorts or bad contacts", eff * 100.0, p.low_efficiency_below * 100.0));
@@ -136,7 +142,7 @@ pub fn forecast_cell(input: &CellInput, curve: &impl Curve, as_of: Time) -> Cell
         }
     }
     let charge = charge.unwrap_or_default();
-    CellForecast {
+    Ok(CellForecast {
         cell: input.cell.clone(),
         circuit: input.circuit.clone(),
         section: input.section.clone(),
@@ -151,7 +157,7 @@ pub fn forecast_cell(input: &CellInput, curve: &impl Curve, as_of: Time) -> Cell
         energy_kwh_per_t: input.last_voltage.map(|(_, v)| specific_energy_kwh_per_kg(v, eta_c) * 1000.0),
         shorts: input.shorts.map(|(n, _)| n),
         warnings,
-    }
+    })
 }
 
 /// The whole plant's forecast.
@@ -190,7 +196,7 @@ mod tests {
             last_voltage: Some((t0(), 0.30)),
             shorts: None,
         };
-        let f = forecast_cell(&input, &curve, t0() + Duration::hours(24));
+        let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
         let c = f.cathode.as_ref().unwrap();
         // 179.25 h to a 120 kg mean (DOMAIN.md, derived)
         let h = (c.harvest_due.unwrap() - t0()).num_seconds() as f64 / 3600.0;

@@ -1,0 +1,198 @@
+//! The command line, as clap parses it: the scripting contract of DESIGN.md.
+
+use clap::{Args, Parser, Subcommand};
+use std::path::PathBuf;
+
+#[derive(Debug, Parser)]
+#[command(name = "tankbook", version, about = "The shift book of a copper electrorefinery tankhouse: cells, anodes, crops, current, forecasts.")]
+pub struct Cli {
+    /// Plant database file (default: the platform data folder's tankbook/plant.db)
+    #[arg(long, global = true, env = "TANKBOOK_DB")]
+    pub db: Option<PathBuf>,
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Define or update circuits, sections, cells and parameters
+    #[command(subcommand)]
+    Layout(LayoutCmd),
+    /// Import rectifier current readings
+    #[command(subcommand)]
+    Import(ImportCmd),
+    /// Record a shift-log entry
+    #[command(subcommand)]
+    Log(LogCmd),
+    /// Undo an entry (the newest if no id is given); the undo is itself recorded
+    Undo(UndoArgs),
+    /// List recent entries, newest first
+    Events(EventsArgs),
+    /// Every cell's anodes, crop and due times as of a time
+    Forecast(ForecastArgs),
+    /// Check the database's integrity
+    Check(CheckArgs),
+    /// Copy the database safely while it is in use
+    Backup(BackupArgs),
+}
+
+#[derive(Debug, Subcommand)]
+pub enum LayoutCmd {
+    /// Load a layout file (TOML); changed parameters apply from now on
+    Load { file: PathBuf },
+}
+
+#[derive(Debug, Subcommand)]
+pub enum ImportCmd {
+    /// Import a CSV with header time,circuit,amps (amps: net mean current of the interval)
+    Current { file: PathBuf },
+}
+
+/// Options every log entry takes.
+#[derive(Debug, Args)]
+pub struct Who {
+    /// Initials of the foreman logging the entry
+    #[arg(long, env = "TANKBOOK_BY")]
+    pub by: String,
+    /// Record an entry the program questions
+    #[arg(long)]
+    pub force: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum LogCmd {
+    /// A new anode load (mean mass per anode)
+    Anodes {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        at: String,
+        #[arg(long)]
+        count: u32,
+        #[arg(long = "mean-kg")]
+        mean_kg: f64,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// The crop pulled and weighed (total for the cell); the next crop starts at once
+    Harvest {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        at: String,
+        #[arg(long = "total-kg")]
+        total_kg: f64,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// Anodes pulled and scrap weighed (total for the cell); ends the anode load
+    Scrap {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        at: String,
+        #[arg(long = "total-kg")]
+        total_kg: f64,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// Cell out of circuit; without --to it stays out until closed by a later entry with the same --from and a --to
+    Cutout {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        from: String,
+        #[arg(long)]
+        to: Option<String>,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// Circuit down (past, or planned ahead)
+    Outage {
+        #[arg(long)]
+        circuit: String,
+        #[arg(long)]
+        from: String,
+        #[arg(long)]
+        to: String,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// Shorts found (and cleared) in a cell
+    Shorts {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        at: String,
+        #[arg(long)]
+        count: u32,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// Planned circuit current from a time on
+    Setpoint {
+        #[arg(long)]
+        circuit: String,
+        #[arg(long)]
+        from: String,
+        #[arg(long)]
+        amps: f64,
+        #[command(flatten)]
+        who: Who,
+    },
+    /// A cell voltage reading
+    Voltage {
+        #[arg(long)]
+        cell: String,
+        #[arg(long)]
+        at: String,
+        #[arg(long)]
+        volts: f64,
+        #[command(flatten)]
+        who: Who,
+    },
+}
+
+#[derive(Debug, Args)]
+pub struct UndoArgs {
+    /// Entry id (see `tankbook events`); default: the newest entry not yet undone
+    pub event: Option<i64>,
+    /// Initials of the foreman undoing it
+    #[arg(long, env = "TANKBOOK_BY")]
+    pub by: String,
+}
+
+#[derive(Debug, Args)]
+pub struct EventsArgs {
+    #[arg(long)]
+    pub cell: Option<String>,
+    #[arg(long, default_value_t = 20)]
+    pub limit: usize,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ForecastArgs {
+    /// As of this time (default: now)
+    #[arg(long)]
+    pub at: Option<String>,
+    /// Only this cell
+    #[arg(long)]
+    pub cell: Option<String>,
+    /// JSON output (schema 1)
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct BackupArgs {
+    /// Destination file (must not exist yet)
+    pub dest: PathBuf,
+}

@@ -1,0 +1,198 @@
+//! The one API the faces call: open a plant, load its layout, import current,
+//! record an entry or undo one, forecast, check, back up. No terminal, no printing.
+//!
+//! Each write is one store transaction: checks run inside it, so a rejected or
+//! questioned entry, or a failed import, leaves the database as it was.
+
+mod forecast;
+mod import;
+mod record;
+
+use chrono::{DateTime, Utc};
+use std::path::{Path, PathBuf};
+
+pub use import::ImportSummary;
+pub use record::Recorded;
+
+use crate::domain::charge::{Time, cell_charge};
+use crate::domain::electrochem::measured_efficiency;
+use crate::domain::history::{Contradiction, replay};
+use crate::domain::layout;
+use crate::store::{CellRow, CropFigures, Db, LayoutSummary, PlantInfo, Store, StoreCurve, StoreError};
+
+/// Why a plant operation did not happen.
+#[derive(Debug, thiserror::Error)]
+pub enum PlantError {
+    #[error(transparent)]
+    Store(#[from] StoreError),
+    #[error("no plant layout is loaded yet: run `tankbook layout load FILE.toml`, or `tankbook demo` for the demo plant")]
+    NoLayout,
+    #[error("{file}: {source}")]
+    Layout { file: String, source: layout::LayoutError },
+    #[error("{file} line {line}, field {field}: {message}")]
+    Input { file: String, line: u64, field: String, message: String },
+    #[error("{field}: {message}")]
+    Rejected { field: String, message: String },
+    #[error("this entry needs a second look: {}. Check it, then repeat with --force to record it anyway", .0.join("; "))]
+    Questioned(Vec<String>),
+    #[error("cannot read {0}: {1}")]
+    Read(PathBuf, std::io::Error),
+}
+
+impl PlantError {
+    fn rejected(field: &str, message: impl Into<String>) -> Self {
+        PlantError::Rejected { field: field.to_string(), message: message.into() }
+    }
+}
+
+pub type Result<T, E = PlantError> = std::result::Result<T, E>;
+
+/// Who records and when: the foreman's initials, whether a questioned entry is
+/// accepted anyway, and the clock reading the entry is stamped with.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Opts {
+    pub by: String,
+    pub force: bool,
+    pub now: Time,
+}
+
+/// An open plant database.
+pub struct Plant {
+    store: Store,
+}
+
+/// What `check` found.
+#[derive(Debug, Clone, PartialEq, Default, serde::Serialize)]
+pub struct CheckReport {
+    pub problems: Vec<String>,
+    pub cells: usize,
+    pub events: i64,
+    pub readings: i64,
+}
+
+pub(crate) fn far_future() -> Time {
+    DateTime::<Utc>::MAX_UTC
+}
+
+impl Plant {
+    pub fn open(path: &Path) -> Result<Plant> {
+        Ok(Plant { store: Store::open(path)? })
+    }
+
+    pub fn path(&self) -> &Path {
+        self.store.path()
+    }
+
+    /// The plant header, or [`PlantError::NoLayout`].
+    pub fn info(&self) -> Result<PlantInfo> {
+        self.store.db().plant_info()?.ok_or(PlantError::NoLayout)
+    }
+
+    /// Whether a layout has been loaded.
+    pub fn has_layout(&self) -> Result<bool> {
+        Ok(self.store.db().plant_info()?.is_some())
+    }
+
+    /// Parses a time as a foreman types it (RFC 3339 or local `YYYY-MM-DD HH:MM`).
+    pub fn parse_time(&self, field: &str, s: &str) -> Result<Time> {
+        let zone = self.info()?.days.zone;
+        zone.parse_time(s).map_err(|e| PlantError::rejected(field, e.to_string()))
+    }
+
+    /// Shows an instant on the plant's wall clock.
+    pub fn show_time(&self, t: Time) -> String {
+        match self.info() {
+            Ok(i) => i.days.zone.show(t),
+            Err(_) => t.format("%Y-%m-%d %H:%MZ").to_string(),
+        }
+    }
+
+    pub fn cells(&self) -> Result<Vec<CellRow>> {
+        Ok(self.store.db().cells()?)
+    }
+
+    /// Defines or updates the plant from a layout file's text.
+    pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
+        let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
+        self.store.write(|db| Ok(db.apply_layout(&parsed, text, source, now)?))
+    }
+
+    /// Reads a layout file and loads it.
+    pub fn load_layout_file(&mut self, path: &Path, now: Time) -> Result<LayoutSummary> {
+        let text = std::fs::read_to_string(path).map_err(|e| PlantError::Read(path.to_path_buf(), e))?;
+        self.load_layout(&text, &path.display().to_string(), now)
+    }
+
+    /// Integrity: SQLite's checks, charge that never decreases, and derived
+    /// records that match a fresh replay of the event log.
+    pub fn check(&mut self) -> Result<CheckReport> {
+        let db = self.store.db();
+        let mut r = CheckReport { problems: db.sqlite_problems()?, ..Default::default() };
+        let falls = db.charge_decreases()?;
+        if falls > 0 {
+            r.problems.push(format!("{falls} readings where the cumulative charge goes down"));
+        }
+        r.cells = db.cells()?.len();
+        r.events = db.event_count()?;
+        r.readings = db.reading_count()?;
+        let mismatches = self.store.preview(|db| -> Result<Vec<String>> {
+            let mut bad = Vec::new();
+            for cell in db.cells_with_events()? {
+                let before = db.stored_history_digest(&cell)?;
+                match rebuild_cell(db, &cell) {
+                    Ok(()) if db.stored_history_digest(&cell)? != before => bad.push(format!("cell {cell}: stored records differ from the event log")),
+                    Ok(()) => {}
+                    Err(e) => bad.push(format!("cell {cell}: {e}")),
+                }
+            }
+            Ok(bad)
+        })?;
+        r.problems.extend(mismatches);
+        Ok(r)
+    }
+
+    /// Copies the database to `dest` with SQLite's online backup and checks the copy.
+    pub fn backup(&self, dest: &Path) -> Result<()> {
+        Ok(self.store.backup(dest)?)
+    }
+
+    /// Every row of the database as text (for tests that prove nothing changed).
+    pub fn dump(&self) -> Result<String> {
+        Ok(self.store.db().dump()?)
+    }
+}
+
+/// Replays a cell's events into its derived records, with each closed crop's
+/// charge and measured efficiency.
+pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+    let events = db.cell_events(cell)?;
+    let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
+    let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
+    let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
+    let cuts: Vec<_> = h.cutouts.iter().map(|c| c.span).collect();
+    let mut figures = Vec::with_capacity(h.crops.len());
+    for c in &h.crops {
+        figures.push(match (c.ended_at, c.harvest_kg) {
+            (Some(end), Some(kg)) => {
+                let q = cell_charge(&curve, &cuts, c.started_at, end)?;
+                Some(CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) })
+            }
+            _ => None,
+        });
+    }
+    db.write_history(cell, &h, &figures)?;
+    Ok(())
+}
+
+/// After readings or outages change from `from` on, the crops that ended since
+/// then have a different charge: recompute their figures.
+pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
+    let curve = StoreCurve::new(db, circuit_id, far_future())?;
+    for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
+        let cuts = db.cutouts(&cell, far_future())?;
+        let q = cell_charge(&curve, &cuts, start, end)?;
+        db.set_crop_figures(&cell, start, CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) })?;
+    }
+    Ok(())
+}

@@ -1,0 +1,269 @@
+//! The append-only event log (entries and their voids) and the per-cell
+//! records derived from it by replay: anode loads, crops, cut-outs.
+
+use rusqlite::{OptionalExtension, params};
+
+use super::{Db, Result, secs, time};
+use crate::domain::charge::{OpenSpan, Time};
+use crate::domain::history::{CellHistory, Event, EventKind};
+
+/// An event to append.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NewEvent {
+    pub kind: EventKind,
+    pub cell: Option<String>,
+    pub circuit_id: Option<i64>,
+    pub at: Time,
+    pub end: Option<Time>,
+    pub count: Option<u32>,
+    pub kg: Option<f64>,
+    pub amps: Option<f64>,
+    pub volts: Option<f64>,
+    pub by: String,
+    pub forced: bool,
+    pub recorded_at: Time,
+    pub voids: Option<i64>,
+}
+
+/// A closed crop's charge and measured efficiency, stored with it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CropFigures {
+    pub charge_ah: f64,
+    pub estimated_ah: f64,
+    pub efficiency: Option<f64>,
+}
+
+const EVENT_COLS: &str = "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
+     EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)";
+
+fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Event> {
+    let kind: String = r.get(1)?;
+    Ok(Event {
+        id: r.get(0)?,
+        kind: EventKind::from_name(&kind).unwrap_or(EventKind::Void),
+        cell: r.get(2)?,
+        circuit: r.get(3)?,
+        at: time(r.get(4)?),
+        end: r.get::<_, Option<i64>>(5)?.map(time),
+        count: r.get(6)?,
+        kg: r.get(7)?,
+        amps: r.get(8)?,
+        volts: r.get(9)?,
+        by: r.get(10)?,
+        forced: r.get(11)?,
+        recorded_at: time(r.get(12)?),
+        voids: r.get(13)?,
+        voided: r.get(14)?,
+    })
+}
+
+impl Db<'_> {
+    /// Appends an event; returns its id.
+    pub fn append_event(&self, e: &NewEvent) -> Result<i64> {
+        let mut st = self.c.prepare_cached(
+            "INSERT INTO event(kind, cell_id, circuit_id, at, end_at, count, kg, amps, volts, logged_by, forced, recorded_at, voids)
+             VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13)",
+        )?;
+        st.execute(params![
+            e.kind.name(),
+            e.cell,
+            e.circuit_id,
+            secs(e.at),
+            e.end.map(secs),
+            e.count,
+            e.kg,
+            e.amps,
+            e.volts,
+            e.by,
+            e.forced,
+            secs(e.recorded_at),
+            e.voids
+        ])?;
+        Ok(self.c.last_insert_rowid())
+    }
+
+    pub fn event(&self, id: i64) -> Result<Option<Event>> {
+        let sql = format!("SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id WHERE e.id = ?1");
+        Ok(self.c.prepare_cached(&sql)?.query_row([id], event).optional()?)
+    }
+
+    /// The newest events first (voids included), optionally of one cell.
+    pub fn recent_events(&self, cell: Option<&str>, limit: usize) -> Result<Vec<Event>> {
+        let sql = format!(
+            "SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id
+             WHERE (?1 IS NULL OR e.cell_id = ?1 OR e.voids IN (SELECT id FROM event WHERE cell_id = ?1)) ORDER BY e.id DESC LIMIT ?2"
+        );
+        let mut st = self.c.prepare_cached(&sql)?;
+        let v = st.query_map(params![cell, limit as i64], event)?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Every event of a cell, in entry order.
+    pub fn cell_events(&self, cell: &str) -> Result<Vec<Event>> {
+        let sql = format!("SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id WHERE e.cell_id = ?1 ORDER BY e.id");
+        let mut st = self.c.prepare_cached(&sql)?;
+        let v = st.query_map([cell], event)?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Replaces a cell's derived records with those its replayed history implies.
+    pub fn write_history(&self, cell: &str, h: &CellHistory, crops: &[Option<CropFigures>]) -> Result<()> {
+        self.c.execute("DELETE FROM anode_load WHERE cell_id = ?1", [cell])?;
+        self.c.execute("DELETE FROM crop WHERE cell_id = ?1", [cell])?;
+        self.c.execute("DELETE FROM cutout WHERE cell_id = ?1", [cell])?;
+        let mut st = self.c.prepare_cached("INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)")?;
+        for l in &h.loads {
+            st.execute(params![l.set_event, cell, secs(l.set_at), l.count, l.mean_kg, l.ended_at.map(secs), l.scrap_kg])?;
+        }
+        let mut st = self.c.prepare_cached(
+            "INSERT INTO crop(cell_id, started_at, ended_at, harvest_event, harvest_kg, charge_ah, efficiency, estimated_ah) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
+        )?;
+        for (i, c) in h.crops.iter().enumerate() {
+            let f = crops.get(i).copied().flatten();
+            st.execute(params![
+                cell,
+                secs(c.started_at),
+                c.ended_at.map(secs),
+                c.harvest_event,
+                c.harvest_kg,
+                f.map(|f| f.charge_ah),
+                f.and_then(|f| f.efficiency),
+                f.map(|f| f.estimated_ah)
+            ])?;
+        }
+        let mut st = self.c.prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
+        for c in &h.cutouts {
+            st.execute(params![c.event, cell, secs(c.span.from), c.span.to.map(secs)])?;
+        }
+        Ok(())
+    }
+
+    /// Closed crops on a circuit that ended at or after `t` (their charge changes with a back-fill).
+    pub fn crops_ended_since(&self, circuit_id: i64, t: Time) -> Result<Vec<(String, Time, Time, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT crop.cell_id, crop.started_at, crop.ended_at, crop.harvest_kg FROM crop
+             JOIN cell ON cell.id = crop.cell_id JOIN section ON section.id = cell.section_id
+             WHERE section.circuit_id = ?1 AND crop.ended_at >= ?2 AND crop.harvest_kg IS NOT NULL",
+        )?;
+        let v = st.query_map(params![circuit_id, secs(t)], |r| Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    pub fn set_crop_figures(&self, cell: &str, started_at: Time, f: CropFigures) -> Result<()> {
+        self.c.execute(
+            "UPDATE crop SET charge_ah = ?3, estimated_ah = ?4, efficiency = ?5 WHERE cell_id = ?1 AND started_at = ?2",
+            params![cell, secs(started_at), f.charge_ah, f.estimated_ah, f.efficiency],
+        )?;
+        Ok(())
+    }
+
+    /// The cell's cut-outs known at `as_of` (one closed after `as_of` counts as still open).
+    pub fn cutouts(&self, cell: &str, as_of: Time) -> Result<Vec<OpenSpan>> {
+        let mut st = self.c.prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
+        let v = st.query_map(params![cell, secs(as_of)], |r| {
+            let to: Option<i64> = r.get(1)?;
+            Ok(OpenSpan { from: time(r.get(0)?), to: to.filter(|&x| x <= secs(as_of)).map(time) })
+        })?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// The anode load in the cell at `as_of`: (set event, set time, count, mean kg).
+    pub fn load_at(&self, cell: &str, as_of: Time) -> Result<Option<(i64, Time, u32, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT set_event, set_at, count, mean_kg FROM anode_load WHERE cell_id = ?1 AND set_at <= ?2
+             AND (ended_at IS NULL OR ended_at > ?2) ORDER BY set_at DESC LIMIT 1",
+        )?;
+        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))).optional()?)
+    }
+
+    /// When the crop growing at `as_of` began.
+    pub fn crop_at(&self, cell: &str, as_of: Time) -> Result<Option<Time>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT started_at FROM crop WHERE cell_id = ?1 AND started_at <= ?2 AND (ended_at IS NULL OR ended_at > ?2) ORDER BY started_at DESC LIMIT 1",
+        )?;
+        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok(time(r.get(0)?))).optional()?)
+    }
+
+    /// Measured efficiencies of the cell's crops harvested by `as_of`, oldest first: (harvest time, efficiency, kg).
+    pub fn crop_efficiencies(&self, cell: &str, as_of: Time) -> Result<Vec<(Time, f64, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT ended_at, efficiency, harvest_kg FROM crop WHERE cell_id = ?1 AND ended_at <= ?2 AND efficiency IS NOT NULL ORDER BY ended_at",
+        )?;
+        let v = st.query_map(params![cell, secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// The last crop efficiency measured by `as_of`.
+    pub fn last_crop_efficiency(&self, cell: &str, as_of: Time) -> Result<Option<f64>> {
+        let mut st = self.c.prepare_cached("SELECT efficiency FROM crop WHERE cell_id = ?1 AND ended_at <= ?2 AND efficiency IS NOT NULL ORDER BY ended_at DESC LIMIT 1")?;
+        Ok(st.query_row(params![cell, secs(as_of)], |r| r.get(0)).optional()?)
+    }
+
+    /// The latest live reading of a cell-level kind by `as_of`: (time, count, volts).
+    fn latest_cell_event(&self, cell: &str, kind: EventKind, as_of: Time) -> Result<Option<(Time, Option<u32>, Option<f64>)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT at, count, volts FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at <= ?3
+             AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at DESC, id DESC LIMIT 1",
+        )?;
+        Ok(st.query_row(params![cell, kind.name(), secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))).optional()?)
+    }
+
+    pub fn last_voltage(&self, cell: &str, as_of: Time) -> Result<Option<(Time, f64)>> {
+        Ok(self.latest_cell_event(cell, EventKind::Voltage, as_of)?.and_then(|(t, _, v)| v.map(|v| (t, v))))
+    }
+
+    /// Shorts found in `[since, as_of]`: total count and the last time.
+    pub fn shorts_since(&self, cell: &str, since: Time, as_of: Time) -> Result<Option<(u32, Time)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT sum(count), max(at) FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at >= ?3 AND at <= ?4
+             AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
+        )?;
+        let (n, t): (Option<u32>, Option<i64>) = st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| Ok((r.get(0)?, r.get(1)?)))?;
+        Ok(n.zip(t.map(time)))
+    }
+
+    /// Every anode load of a cell, oldest first.
+    pub fn loads(&self, cell: &str) -> Result<Vec<(Time, u32, f64, Option<Time>, Option<f64>)>> {
+        let mut st = self.c.prepare_cached("SELECT set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at")?;
+        let v = st.query_map([cell], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?, r.get::<_, Option<i64>>(3)?.map(time), r.get(4)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Cells whose derived records disagree with a fresh replay are found by the
+    /// plant; this lists the cells that have any events at all.
+    pub fn cells_with_events(&self) -> Result<Vec<String>> {
+        let mut st = self.c.prepare("SELECT DISTINCT cell_id FROM event WHERE cell_id IS NOT NULL ORDER BY cell_id")?;
+        let v = st.query_map([], |r| r.get(0))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// The derived records as stored, for comparing with a fresh replay.
+    pub fn stored_history_digest(&self, cell: &str) -> Result<String> {
+        let mut out = String::new();
+        for sql in [
+            "SELECT set_event, set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at",
+            "SELECT started_at, ended_at, harvest_event, harvest_kg FROM crop WHERE cell_id = ?1 ORDER BY started_at",
+            "SELECT event, from_at, to_at FROM cutout WHERE cell_id = ?1 ORDER BY from_at, event",
+        ] {
+            let mut st = self.c.prepare_cached(sql)?;
+            let n = st.column_count();
+            let mut rows = st.query([cell])?;
+            while let Some(r) = rows.next()? {
+                let cols: Vec<String> = (0..n).map(|i| r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default()).collect();
+                out.push_str(&cols.join("|"));
+                out.push('\n');
+            }
+            out.push_str("--\n");
+        }
+        Ok(out)
+    }
+
+    /// Whether an event has already been voided.
+    pub fn is_voided(&self, id: i64) -> Result<bool> {
+        Ok(self.c.query_row("SELECT EXISTS (SELECT 1 FROM event WHERE voids = ?1)", [id], |r| r.get(0))?)
+    }
+
+    pub fn event_count(&self) -> Result<i64> {
+        Ok(self.c.query_row("SELECT count(*) FROM event", [], |r| r.get(0))?)
+    }
+}

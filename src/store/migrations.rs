@@ -1,0 +1,83 @@
+//! Numbered schema migrations under SQLite's `user_version`: each is a `.sql`
+//! file that is never edited once shipped, only followed by a new one.
+
+use rusqlite::{Connection, TransactionBehavior};
+
+use super::Result;
+
+/// The migrations in order; `user_version` counts how many have run.
+pub const MIGRATIONS: &[(&str, &str)] = &[
+    ("001_initial", include_str!("migrations/001_initial.sql")),
+    ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
+];
+
+/// How many migrations the database has had.
+pub fn schema_version(c: &Connection) -> Result<i64> {
+    Ok(c.query_row("PRAGMA user_version", [], |r| r.get(0))?)
+}
+
+/// Runs the migrations after the database's version, up to `upto`, each in its own transaction.
+pub fn migrate(c: &mut Connection, upto: usize) -> Result<()> {
+    let from = schema_version(c)?.max(0) as usize;
+    for (i, (_, sql)) in MIGRATIONS.iter().enumerate().take(upto).skip(from) {
+        let tx = c.transaction_with_behavior(TransactionBehavior::Immediate)?;
+        tx.execute_batch(sql)?;
+        tx.pragma_update(None, "user_version", (i + 1) as i64)?;
+        tx.commit()?;
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_migration_applies_to_an_empty_database() {
+        let mut c = Connection::open_in_memory().unwrap();
+        migrate(&mut c, MIGRATIONS.len()).unwrap();
+        assert_eq!(schema_version(&c).unwrap(), MIGRATIONS.len() as i64);
+        let ok: String = c.query_row("PRAGMA integrity_check", [], |r| r.get(0)).unwrap();
+        assert_eq!(ok, "ok");
+        // running again is a no-op
+        migrate(&mut c, MIGRATIONS.len()).unwrap();
+    }
+
+    #[test]
+    fn a_first_migration_database_upgrades_and_keeps_its_rows() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("old.db");
+        {
+            let mut c = Connection::open(&path).unwrap();
+            migrate(&mut c, 1).unwrap();
+            c.execute_batch(
+                "INSERT INTO circuit(id, name, max_amps, position) VALUES (1, 'C1', 40000, 0);
+                 INSERT INTO reading VALUES (1, 1000, 30000, 0, 1, 0), (1, 4600, 30000, 30000, 1, 0);
+                 INSERT INTO section VALUES (1, 1, 'A', 0);
+                 INSERT INTO cell VALUES ('A01', 1, 0, 1);
+                 INSERT INTO crop(cell_id, started_at) VALUES ('A01', 1000);",
+            )
+            .unwrap();
+        }
+        let store = crate::store::Store::open(&path).unwrap();
+        let c = store.db().c;
+        assert_eq!(schema_version(c).unwrap(), MIGRATIONS.len() as i64);
+        let n: i64 = c.query_row("SELECT count(*) FROM reading", [], |r| r.get(0)).unwrap();
+        assert_eq!(n, 2);
+        let est: Option<f64> = c.query_row("SELECT estimated_ah FROM crop", [], |r| r.get(0)).unwrap();
+        assert_eq!(est, None);
+        let idx: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap();
+        assert_eq!(idx, 1);
+    }
+
+    #[test]
+    fn a_newer_database_is_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("new.db");
+        {
+            let c = Connection::open(&path).unwrap();
+            c.pragma_update(None, "user_version", 99).unwrap();
+        }
+        assert!(matches!(crate::store::Store::open(&path), Err(crate::store::StoreError::TooNew(..))));
+    }
+}

@@ -1,0 +1,223 @@
+//! Rectifier readings with their cumulative charge, and the store's [`Curve`]:
+//! the two readings around an instant are looked up, never the whole history.
+
+use rusqlite::{OptionalExtension, params};
+
+use super::{Db, Result, StoreError, secs, time};
+use crate::domain::charge::{
+    Around, Cum, Curve, MEAN_WINDOW, Point, Projection, RawReading, Span, Time, accumulate, cum_from, mean_in_service_amps, time_from, union,
+};
+use crate::domain::history::EventKind;
+
+fn point(r: &rusqlite::Row<'_>) -> rusqlite::Result<Point> {
+    Ok(Point { t: time(r.get(0)?), amps: r.get(1)?, cum_ah: r.get(2)? })
+}
+
+impl Db<'_> {
+    /// The stored current at this circuit and instant, if any.
+    pub fn reading_at(&self, circuit_id: i64, t: Time) -> Result<Option<f64>> {
+        let mut st = self.c.prepare_cached("SELECT amps FROM reading WHERE circuit_id = ?1 AND t = ?2")?;
+        Ok(st.query_row(params![circuit_id, secs(t)], |r| r.get(0)).optional()?)
+    }
+
+    /// Adds new readings (the caller has skipped duplicates and rejected
+    /// conflicts) and recomputes the cumulative charge from the earliest of them.
+    pub fn add_readings(&self, circuit_id: i64, rows: &[RawReading]) -> Result<()> {
+        let Some(first) = rows.iter().map(|r| r.t).min() else { return Ok(()) };
+        let mut st = self.c.prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
+        for r in rows {
+            st.execute(params![circuit_id, secs(r.t), r.amps])?;
+        }
+        self.recompute_charge(circuit_id, first)
+    }
+
+    /// Recomputes the stored cumulative charge of every reading at or after `from`
+    /// (after a back-fill or a newly logged outage), continuing from the last valid reading before it.
+    pub fn recompute_charge(&self, circuit_id: i64, from: Time) -> Result<()> {
+        let outages = self.outages(circuit_id)?;
+        let prev = self
+            .c
+            .prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?
+            .query_row(params![circuit_id, secs(from)], point)
+            .optional()?;
+        let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
+        let later: Vec<RawReading> = st
+            .query_map(params![circuit_id, secs(from)], |r| Ok(RawReading { t: time(r.get(0)?), amps: r.get(1)? }))?
+            .collect::<rusqlite::Result<_>>()?;
+        let mut up = self.c.prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
+        for a in accumulate(prev, &later, &outages) {
+            up.execute(params![circuit_id, secs(a.t), a.cum_ah, a.valid, a.gap_before])?;
+        }
+        Ok(())
+    }
+
+    /// The circuit's live outages, merged.
+    pub fn outages(&self, circuit_id: i64) -> Result<Vec<Span>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT at, end_at FROM event e WHERE circuit_id = ?1 AND kind = ?2 AND end_at IS NOT NULL
+             AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
+        )?;
+        let spans: Vec<Span> = st
+            .query_map(params![circuit_id, EventKind::Outage.name()], |r| Ok(Span { from: time(r.get(0)?), to: time(r.get(1)?) }))?
+            .collect::<rusqlite::Result<_>>()?;
+        Ok(union(spans))
+    }
+
+    /// The circuit's live setpoints, by time.
+    pub fn setpoints(&self, circuit_id: i64) -> Result<Vec<(Time, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT at, amps FROM event e WHERE circuit_id = ?1 AND kind = ?2
+             AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at, id",
+        )?;
+        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    fn last_valid(&self, circuit_id: i64, until: Time) -> Result<Option<Point>> {
+        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t <= ?2 ORDER BY t DESC LIMIT 1")?;
+        Ok(st.query_row(params![circuit_id, secs(until)], point).optional()?)
+    }
+
+    fn first_valid_after(&self, circuit_id: i64, t: Time, until: Time) -> Result<Option<Point>> {
+        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t > ?2 AND t <= ?3 ORDER BY t LIMIT 1")?;
+        Ok(st.query_row(params![circuit_id, secs(t), secs(until)], point).optional()?)
+    }
+
+    fn first_reaching(&self, circuit_id: i64, cum: f64, until: Time) -> Result<Option<Point>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND cum_ah >= ?2 AND t <= ?3 ORDER BY cum_ah, t LIMIT 1",
+        )?;
+        Ok(st.query_row(params![circuit_id, cum, secs(until)], point).optional()?)
+    }
+
+    fn valid_before(&self, circuit_id: i64, t: Time) -> Result<Option<Point>> {
+        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?;
+        Ok(st.query_row(params![circuit_id, secs(t)], point).optional()?)
+    }
+
+    /// Stretches between readings longer than the gap limit and not covered by
+    /// an outage, ending after `since` and by `until`.
+    pub fn reading_gaps(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<Span>> {
+        let mut st = self.c.prepare_cached("SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t")?;
+        let ends: Vec<Time> = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?.collect::<rusqlite::Result<_>>()?;
+        let mut v = Vec::new();
+        for end in ends {
+            if let Some(p) = self.valid_before(circuit_id, end)? {
+                v.push(Span { from: p.t, to: end });
+            }
+        }
+        Ok(v)
+    }
+
+    /// Readings inside an outage that showed current, after `since`.
+    pub fn live_readings_in_outages(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<(Time, f64)>> {
+        let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND valid = 0 AND amps > 0 AND t > ?2 AND t <= ?3 ORDER BY t")?;
+        let v = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Valid readings of a circuit in `[from, to]` (for charts), thinned to at most `max` points.
+    pub fn readings_between(&self, circuit_id: i64, from: Time, to: Time, max: usize) -> Result<Vec<Point>> {
+        let n: i64 = self.c.query_row(
+            "SELECT count(*) FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t BETWEEN ?2 AND ?3",
+            params![circuit_id, secs(from), secs(to)],
+            |r| r.get(0),
+        )?;
+        let step = (n as usize).div_ceil(max.max(1)).max(1) as i64;
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps, cum_ah FROM (SELECT t, amps, cum_ah, row_number() OVER (ORDER BY t) AS k FROM reading
+             WHERE circuit_id = ?1 AND valid = 1 AND t BETWEEN ?2 AND ?3) WHERE k % ?4 = 0 OR k = 1 ORDER BY t",
+        )?;
+        let v = st.query_map(params![circuit_id, secs(from), secs(to), step], point)?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Readings whose cumulative charge goes down (there must be none).
+    pub fn charge_decreases(&self) -> Result<i64> {
+        Ok(self.c.query_row(
+            "SELECT count(*) FROM (SELECT cum_ah, lag(cum_ah) OVER (PARTITION BY circuit_id ORDER BY t) AS prev FROM reading WHERE valid = 1)
+             WHERE cum_ah < prev - 1e-6",
+            [],
+            |r| r.get(0),
+        )?)
+    }
+
+    pub fn reading_count(&self) -> Result<i64> {
+        Ok(self.c.query_row("SELECT count(*) FROM reading", [], |r| r.get(0))?)
+    }
+
+    pub fn record_import(&self, source: &str, at: Time, added: usize, skipped: usize) -> Result<()> {
+        self.c.execute("INSERT INTO import_batch(imported_at, source, added, skipped) VALUES (?1, ?2, ?3, ?4)", params![secs(at), source, added as i64, skipped as i64])?;
+        Ok(())
+    }
+}
+
+/// A circuit's charge curve as of `as_of`, answered from the database.
+pub struct StoreCurve<'c> {
+    db: Db<'c>,
+    circuit_id: i64,
+    as_of: Time,
+    last: Option<Point>,
+    outages: Vec<Span>,
+    projection: Projection,
+}
+
+impl<'c> StoreCurve<'c> {
+    pub fn new(db: Db<'c>, circuit_id: i64, as_of: Time) -> Result<Self> {
+        let outages = db.outages(circuit_id)?;
+        let setpoints = db.setpoints(circuit_id)?;
+        let last = db.last_valid(circuit_id, as_of)?;
+        let mut curve = StoreCurve {
+            db,
+            circuit_id,
+            as_of,
+            last,
+            projection: Projection::new(last, None, &setpoints, outages.clone()),
+            outages,
+        };
+        if let Some(p) = last {
+            let a = p.t - MEAN_WINDOW;
+            let first = db.first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?.map_or(a, |f| f.t);
+            let a = a.max(first);
+            let cum_a = curve.cum_at(a)?.measured;
+            let mean = mean_in_service_amps(a, cum_a, p.t, p.cum_ah, &curve.outages);
+            curve.projection = Projection::new(last, mean, &setpoints, curve.outages.clone());
+        }
+        Ok(curve)
+    }
+
+    /// The last valid reading the curve uses.
+    pub fn last_reading(&self) -> Option<Point> {
+        self.last
+    }
+
+    pub fn projection(&self) -> &Projection {
+        &self.projection
+    }
+
+    fn around(&self, t: Time) -> Result<Around> {
+        let Some(last) = self.last else { return Ok(Around::BeforeFirst) };
+        if t >= last.t {
+            return Ok(Around::AfterLast(last));
+        }
+        let Some(p0) = self.db.last_valid(self.circuit_id, t)? else { return Ok(Around::BeforeFirst) };
+        match self.db.first_valid_after(self.circuit_id, p0.t, self.as_of)? {
+            Some(p1) => Ok(Around::Between(p0, p1)),
+            None => Ok(Around::AfterLast(p0)),
+        }
+    }
+}
+
+impl Curve for StoreCurve<'_> {
+    type Error = StoreError;
+    fn cum_at(&self, t: Time) -> Result<Cum> {
+        Ok(cum_from(self.around(t)?, t, &self.outages, &self.projection))
+    }
+    fn time_at(&self, total: f64) -> Result<Option<Time>> {
+        let hit = match self.db.first_reaching(self.circuit_id, total, self.as_of)? {
+            Some(p) => Some((self.db.valid_before(self.circuit_id, p.t)?, p)),
+            None => None,
+        };
+        Ok(time_from(hit, self.last, total, &self.outages, &self.projection))
+    }
+}
