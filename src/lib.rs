@@ -2,7 +2,7 @@
 //! direction: `domain` ← `store` ← `plant` ← `cli` (and the screens).
 #![forbid(unsafe_code)]
 
-pub mod domain;
-pub mod store;
-pub mod plant;
 pub mod cli;
+pub mod domain;
+pub mod plant;
+pub mod store;

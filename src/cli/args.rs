@@ -4,7 +4,11 @@ use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
 #[derive(Debug, Parser)]
-#[command(name = "tankbook", version, about = "The shift book of a copper electrorefinery tankhouse: cells, anodes, crops, current, forecasts.")]
+#[command(
+    name = "tankbook",
+    version,
+    about = "The shift book of a copper electrorefinery tankhouse: cells, anodes, crops, current, forecasts."
+)]
 pub struct Cli {
     /// Plant database file (default: the platform data folder's tankbook/plant.db)
     #[arg(long, global = true, env = "TANKBOOK_DB")]
@@ -69,7 +73,7 @@ pub enum LogCmd {
         at: String,
         #[arg(long)]
         count: u32,
-        #[arg(long = "mean-kg")]
+        #[arg(long = "mean-kg", allow_negative_numbers = true)]
         mean_kg: f64,
         #[command(flatten)]
         who: Who,
@@ -80,7 +84,7 @@ pub enum LogCmd {
         cell: String,
         #[arg(long)]
         at: String,
-        #[arg(long = "total-kg")]
+        #[arg(long = "total-kg", allow_negative_numbers = true)]
         total_kg: f64,
         #[command(flatten)]
         who: Who,
@@ -91,7 +95,7 @@ pub enum LogCmd {
         cell: String,
         #[arg(long)]
         at: String,
-        #[arg(long = "total-kg")]
+        #[arg(long = "total-kg", allow_negative_numbers = true)]
         total_kg: f64,
         #[command(flatten)]
         who: Who,
@@ -135,7 +139,7 @@ pub enum LogCmd {
         circuit: String,
         #[arg(long)]
         from: String,
-        #[arg(long)]
+        #[arg(long, allow_negative_numbers = true)]
         amps: f64,
         #[command(flatten)]
         who: Who,
@@ -146,7 +150,7 @@ pub enum LogCmd {
         cell: String,
         #[arg(long)]
         at: String,
-        #[arg(long)]
+        #[arg(long, allow_negative_numbers = true)]
         volts: f64,
         #[command(flatten)]
         who: Who,

@@ -168,20 +168,34 @@ pub fn accumulate(prev: Option<Point>, readings: &[RawReading], outages: &[Span]
         .map(|r| {
             if strictly_inside(r.t, outages) {
                 let cum_ah = last.map_or(0.0, |p| p.cum_ah);
-                return Accumulated { t: r.t, amps: r.amps, cum_ah, valid: false, gap_before: false };
+                return Accumulated {
+                    t: r.t,
+                    amps: r.amps,
+                    cum_ah,
+                    valid: false,
+                    gap_before: false,
+                };
             }
-            let here = Point { t: r.t, amps: r.amps, cum_ah: 0.0 };
+            let here = Point {
+                t: r.t,
+                amps: r.amps,
+                cum_ah: 0.0,
+            };
             let (cum_ah, gap_before) = match last {
                 None => (0.0, false),
                 Some(p) => {
-                    let gap = uncovered(p.t, r.t, outages)
-                        .iter()
-                        .any(|s| s.to - s.from > GAP_WARNING);
+                    let gap = uncovered(p.t, r.t, outages).iter().any(|s| s.to - s.from > GAP_WARNING);
                     (p.cum_ah + segment_ah(&p, &here, outages, p.t, r.t), gap)
                 }
             };
             last = Some(Point { cum_ah, ..here });
-            Accumulated { t: r.t, amps: r.amps, cum_ah, valid: true, gap_before }
+            Accumulated {
+                t: r.t,
+                amps: r.amps,
+                cum_ah,
+                valid: true,
+                gap_before,
+            }
         })
         .collect()
 }
@@ -210,18 +224,19 @@ impl Projection {
     /// Builds the projection from the last valid reading (if any), the mean
     /// over [`MEAN_WINDOW`] before it, and all known setpoints.
     pub fn new(last: Option<Point>, recent_mean: Option<f64>, setpoints: &[(Time, f64)], outages: Vec<Span>) -> Self {
-        let mut sp: Vec<(Time, f64)> = setpoints
-            .iter()
-            .copied()
-            .filter(|(t, _)| last.is_none_or(|p| *t > p.t))
-            .collect();
+        let mut sp: Vec<(Time, f64)> = setpoints.iter().copied().filter(|(t, _)| last.is_none_or(|p| *t > p.t)).collect();
         sp.sort_by_key(|(t, _)| *t);
         let start = last.map(|p| p.t).or_else(|| sp.first().map(|(t, _)| *t));
         let base_amps = match last {
             Some(p) => recent_mean.unwrap_or(p.amps),
             None => 0.0,
         };
-        Projection { start, base_amps, setpoints: sp, outages }
+        Projection {
+            start,
+            base_amps,
+            setpoints: sp,
+            outages,
+        }
     }
 
     fn rate_at(&self, t: Time) -> f64 {
@@ -305,10 +320,16 @@ impl Cum {
         self.measured + self.estimated
     }
     fn minus(self, o: Cum) -> Cum {
-        Cum { measured: self.measured - o.measured, estimated: self.estimated - o.estimated }
+        Cum {
+            measured: self.measured - o.measured,
+            estimated: self.estimated - o.estimated,
+        }
     }
     fn plus(self, o: Cum) -> Cum {
-        Cum { measured: self.measured + o.measured, estimated: self.estimated + o.estimated }
+        Cum {
+            measured: self.measured + o.measured,
+            estimated: self.estimated + o.estimated,
+        }
     }
 }
 
@@ -338,15 +359,30 @@ pub enum Around {
 /// Cumulative charge at `t` given what lies around it.
 pub fn cum_from(around: Around, t: Time, outages: &[Span], proj: &Projection) -> Cum {
     match around {
-        Around::BeforeFirst => Cum { measured: 0.0, estimated: proj.ah_between(proj.start.unwrap_or(t), t) },
-        Around::Between(p0, p1) => Cum { measured: p0.cum_ah + segment_ah(&p0, &p1, outages, p0.t, t), estimated: 0.0 },
-        Around::AfterLast(p) => Cum { measured: p.cum_ah, estimated: proj.ah_between(p.t, t) },
+        Around::BeforeFirst => Cum {
+            measured: 0.0,
+            estimated: proj.ah_between(proj.start.unwrap_or(t), t),
+        },
+        Around::Between(p0, p1) => Cum {
+            measured: p0.cum_ah + segment_ah(&p0, &p1, outages, p0.t, t),
+            estimated: 0.0,
+        },
+        Around::AfterLast(p) => Cum {
+            measured: p.cum_ah,
+            estimated: proj.ah_between(p.t, t),
+        },
     }
 }
 
 /// Earliest instant at which the cumulative total reaches `total`, given the
 /// first valid reading whose cumulative charge reaches it (`hit`) and its predecessor.
-pub fn time_from(hit: Option<(Option<Point>, Point)>, last: Option<Point>, total: f64, outages: &[Span], proj: &Projection) -> Option<Time> {
+pub fn time_from(
+    hit: Option<(Option<Point>, Point)>,
+    last: Option<Point>,
+    total: f64,
+    outages: &[Span],
+    proj: &Projection,
+) -> Option<Time> {
     match (hit, last) {
         (Some((None, p)), _) => Some(p.t),
         (Some((Some(p0), p1)), _) => Some(segment_time_reaching(&p0, &p1, outages, total - p0.cum_ah)),
@@ -372,7 +408,11 @@ impl MemoryCurve {
         let points: Vec<Point> = accumulate(None, &rs, &outages)
             .into_iter()
             .filter(|a| a.valid)
-            .map(|a| Point { t: a.t, amps: a.amps, cum_ah: a.cum_ah })
+            .map(|a| Point {
+                t: a.t,
+                amps: a.amps,
+                cum_ah: a.cum_ah,
+            })
             .collect();
         let last = points.last().copied();
         let mut curve = MemoryCurve {
@@ -421,7 +461,10 @@ impl Curve for MemoryCurve {
 /// circuit, given its cut-outs (an open cut-out runs for ever).
 pub fn in_circuit(a: Time, b: Option<Time>, cutouts: &[OpenSpan]) -> Vec<(Time, Option<Time>)> {
     let far = DateTime::<Utc>::MAX_UTC;
-    let off = union(cutouts.iter().map(|c| Span { from: c.from, to: c.to.unwrap_or(far) }));
+    let off = union(cutouts.iter().map(|c| Span {
+        from: c.from,
+        to: c.to.unwrap_or(far),
+    }));
     uncovered(a, b.unwrap_or(far), &off)
         .into_iter()
         .map(|s| (s.from, (s.to != far).then_some(s.to)))
@@ -515,8 +558,14 @@ mod tests {
         let rs: Vec<RawReading> = (0..=24).map(|h| r(h as f64, 1000.0)).collect();
         let c = MemoryCurve::build(&rs, &[], &[], t(24.0));
         let cuts = [
-            OpenSpan { from: t(2.0), to: Some(t(4.0)) },
-            OpenSpan { from: t(3.0), to: Some(t(5.0)) },
+            OpenSpan {
+                from: t(2.0),
+                to: Some(t(4.0)),
+            },
+            OpenSpan {
+                from: t(3.0),
+                to: Some(t(5.0)),
+            },
             OpenSpan { from: t(20.0), to: None },
         ];
         // in circuit 0–2 and 5–20: 17 h at 1000 A

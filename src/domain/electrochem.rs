@@ -21,8 +21,7 @@ pub const E0_COPPER_V: f64 = 0.34;
 pub const E0_OXYGEN_V: f64 = 1.23;
 
 /// Electrochemical equivalent of copper, g/(A·h): 3600·M/(zF).
-pub const ECE_G_PER_AH: f64 =
-    3600.0 * COPPER_MOLAR_MASS_G_PER_MOL / (COPPER_ELECTRONS * FARADAY_C_PER_MOL);
+pub const ECE_G_PER_AH: f64 = 3600.0 * COPPER_MOLAR_MASS_G_PER_MOL / (COPPER_ELECTRONS * FARADAY_C_PER_MOL);
 
 /// Electrochemical equivalent of copper, kg/(A·h).
 pub const ECE_KG_PER_AH: f64 = ECE_G_PER_AH / 1000.0;

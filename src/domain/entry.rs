@@ -107,14 +107,27 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
     match entry {
         Entry::Anodes { count, mean_kg, .. } => {
             if *count == 0 || *count > p.anodes_per_cell * 2 {
-                return reject("--count", format!("{count} anodes: the cell holds {} (1 to {} accepted)", p.anodes_per_cell, p.anodes_per_cell * 2));
+                return reject(
+                    "--count",
+                    format!(
+                        "{count} anodes: the cell holds {} (1 to {} accepted)",
+                        p.anodes_per_cell,
+                        p.anodes_per_cell * 2
+                    ),
+                );
             }
             let (lo, hi) = ANODE_KG_LIMITS;
             if !(mean_kg.is_finite() && *mean_kg >= lo && *mean_kg <= hi) {
                 return reject("--mean-kg", format!("{mean_kg} kg per anode is out of range: {lo}–{hi} kg"));
             }
             if p.anode_kind == AnodeKind::Soluble && p.scrap_lower * mean_kg <= p.lug_kg {
-                return reject("--mean-kg", format!("{mean_kg} kg anodes would reach scrap_lower ({}) below the {} kg of lugs that never dissolve", p.scrap_lower, p.lug_kg));
+                return reject(
+                    "--mean-kg",
+                    format!(
+                        "{mean_kg} kg anodes would reach scrap_lower ({}) below the {} kg of lugs that never dissolve",
+                        p.scrap_lower, p.lug_kg
+                    ),
+                );
             }
             if *count != p.anodes_per_cell {
                 q.push(format!("{count} anodes where the layout says {} per cell", p.anodes_per_cell));
@@ -127,12 +140,21 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
         Entry::Harvest { total_kg, .. } => {
             let max = f64::from(p.cathodes_per_cell) * HARVEST_KG_PER_CATHODE_MAX;
             if !(total_kg.is_finite() && *total_kg > 0.0 && *total_kg <= max) {
-                return reject("--total-kg", format!("{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg", p.cathodes_per_cell));
+                return reject(
+                    "--total-kg",
+                    format!(
+                        "{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg",
+                        p.cathodes_per_cell
+                    ),
+                );
             }
             if let Some(eff) = cx.crop_charge_ah.and_then(|q| measured_efficiency(*total_kg, q)) {
                 let (lo, hi) = HARVEST_EFFICIENCY_PLAUSIBLE;
                 if eff > hi {
-                    q.push(format!("{total_kg} kg is heavier than the charge allows: it implies {:.1} % current efficiency", eff * 100.0));
+                    q.push(format!(
+                        "{total_kg} kg is heavier than the charge allows: it implies {:.1} % current efficiency",
+                        eff * 100.0
+                    ));
                 } else if eff < lo {
                     q.push(format!("{total_kg} kg implies only {:.1} % current efficiency", eff * 100.0));
                 }
@@ -144,29 +166,45 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             };
             let max = f64::from(count) * mean;
             if !(total_kg.is_finite() && *total_kg > 0.0 && *total_kg <= max) {
-                return reject("--total-kg", format!("{total_kg} kg is out of range: more than 0 and at most {max} kg, what was set ({count} × {mean} kg)"));
+                return reject(
+                    "--total-kg",
+                    format!("{total_kg} kg is out of range: more than 0 and at most {max} kg, what was set ({count} × {mean} kg)"),
+                );
             }
             let lugs = f64::from(count) * p.lug_kg;
             if *total_kg < lugs {
-                q.push(format!("{total_kg} kg is less than the lugs alone ({lugs} kg): anodes dropped in the cell?"));
+                q.push(format!(
+                    "{total_kg} kg is less than the lugs alone ({lugs} kg): anodes dropped in the cell?"
+                ));
             }
             if let Some(pred) = cx.predicted_fraction {
                 let got = total_kg / max;
                 if (got - pred).abs() > SCRAP_FRACTION_TOLERANCE {
-                    q.push(format!("scrap is {:.1} % of set mass; the charge predicts {:.1} %", got * 100.0, pred * 100.0));
+                    q.push(format!(
+                        "scrap is {:.1} % of set mass; the charge predicts {:.1} %",
+                        got * 100.0,
+                        pred * 100.0
+                    ));
                 }
             }
         }
         Entry::Cutout { from, to, .. } => {
-            if let Some(to) = to {
-                if to <= from {
-                    return reject("--to", "the cut-out ends before it starts".to_string());
-                }
+            if let Some(to) = to
+                && to <= from
+            {
+                return reject("--to", "the cut-out ends before it starts".to_string());
             }
         }
         Entry::Shorts { count, .. } => {
             if *count > p.cathodes_per_cell * 2 {
-                return reject("--count", format!("{count} shorts: at most {} in a cell of {} cathodes", p.cathodes_per_cell * 2, p.cathodes_per_cell));
+                return reject(
+                    "--count",
+                    format!(
+                        "{count} shorts: at most {} in a cell of {} cathodes",
+                        p.cathodes_per_cell * 2,
+                        p.cathodes_per_cell
+                    ),
+                );
             }
         }
         Entry::Voltage { volts, .. } => {
@@ -186,9 +224,10 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
 pub fn check_circuit_entry(entry: &Entry, max_amps: f64) -> Result<Vec<String>, Rejection> {
     match entry {
         Entry::Outage { from, to, .. } if to <= from => reject("--to", "the outage ends before it starts".to_string()),
-        Entry::Setpoint { amps, .. } if !(amps.is_finite() && *amps >= 0.0 && *amps <= max_amps) => {
-            reject("--amps", format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"))
-        }
+        Entry::Setpoint { amps, .. } if !(amps.is_finite() && *amps >= 0.0 && *amps <= max_amps) => reject(
+            "--amps",
+            format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"),
+        ),
         _ => Ok(Vec::new()),
     }
 }
@@ -206,20 +245,47 @@ mod tests {
     fn harvest_heavier_than_the_charge_is_questioned() {
         let p = CellParams::default();
         // 100 000 A·h plates 118.5 kg at 100 % (ECE 1.18549 g/(A·h), CODATA/IUPAC)
-        let cx = CellContext { params: &p, crop_charge_ah: Some(100_000.0), load: None, predicted_fraction: None };
-        let heavy = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 130.0 };
+        let cx = CellContext {
+            params: &p,
+            crop_charge_ah: Some(100_000.0),
+            load: None,
+            predicted_fraction: None,
+        };
+        let heavy = Entry::Harvest {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 130.0,
+        };
         assert_eq!(check_cell_entry(&heavy, &cx).unwrap().len(), 1);
-        let fine = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 114.0 };
+        let fine = Entry::Harvest {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 114.0,
+        };
         assert!(check_cell_entry(&fine, &cx).unwrap().is_empty());
-        let absurd = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 1e9 };
+        let absurd = Entry::Harvest {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 1e9,
+        };
         assert!(check_cell_entry(&absurd, &cx).unwrap_err().message.contains("at most 15300"));
     }
 
     #[test]
     fn anode_mass_range_is_stated() {
         let p = CellParams::default();
-        let cx = CellContext { params: &p, crop_charge_ah: None, load: None, predicted_fraction: None };
-        let e = Entry::Anodes { cell: "A01".into(), at: at(), count: 50, mean_kg: 38.0 };
+        let cx = CellContext {
+            params: &p,
+            crop_charge_ah: None,
+            load: None,
+            predicted_fraction: None,
+        };
+        let e = Entry::Anodes {
+            cell: "A01".into(),
+            at: at(),
+            count: 50,
+            mean_kg: 38.0,
+        };
         let r = check_cell_entry(&e, &cx).unwrap_err();
         assert_eq!(r.field, "--mean-kg");
         assert!(r.message.contains("100–600"), "{r}");
@@ -228,12 +294,29 @@ mod tests {
     #[test]
     fn scrap_is_checked_against_the_load() {
         let p = CellParams::default();
-        let cx = CellContext { params: &p, crop_charge_ah: None, load: Some((50, 380.0)), predicted_fraction: Some(0.15) };
-        let ok = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.15 * 50.0 * 380.0 };
+        let cx = CellContext {
+            params: &p,
+            crop_charge_ah: None,
+            load: Some((50, 380.0)),
+            predicted_fraction: Some(0.15),
+        };
+        let ok = Entry::Scrap {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 0.15 * 50.0 * 380.0,
+        };
         assert!(check_cell_entry(&ok, &cx).unwrap().is_empty());
-        let odd = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.40 * 50.0 * 380.0 };
+        let odd = Entry::Scrap {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 0.40 * 50.0 * 380.0,
+        };
         assert_eq!(check_cell_entry(&odd, &cx).unwrap().len(), 1);
-        let too_much = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 20_000.0 };
+        let too_much = Entry::Scrap {
+            cell: "A01".into(),
+            at: at(),
+            total_kg: 20_000.0,
+        };
         assert!(check_cell_entry(&too_much, &cx).is_err());
     }
 }

@@ -90,7 +90,14 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     let in_circuit = !input.cutouts.iter().any(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of));
     let mut warnings = Vec::new();
     let mut warn = |code, message: String| {
-        warnings.push(Warning { code, message, cell: Some(input.cell.clone()), circuit: None, from: None, to: None });
+        warnings.push(Warning {
+            code,
+            message,
+            cell: Some(input.cell.clone()),
+            circuit: None,
+            from: None,
+            to: None,
+        });
     };
     let eta_c = p.cathode_efficiency;
     let mut charge = None;
@@ -98,9 +105,23 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     if let Some((set_at, count, initial_kg)) = input.load {
         let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
         charge = Some(q);
-        let load = AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
+        let load = AnodeLoad {
+            initial_kg,
+            count,
+            efficiency: p.anode_efficiency,
+            copper_fraction: p.anode_copper_fraction,
+            lug_kg: p.lug_kg,
+        };
         anode = Some(if p.anode_kind == AnodeKind::Inert {
-            AnodeForecast { set_at, count, initial_kg, remaining_kg: initial_kg, remaining_fraction: 1.0, pull_due: None, thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2) }
+            AnodeForecast {
+                set_at,
+                count,
+                initial_kg,
+                remaining_kg: initial_kg,
+                remaining_fraction: 1.0,
+                pull_due: None,
+                thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2),
+            }
         } else {
             let remaining_kg = load.remaining_kg(q.total());
             let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
@@ -108,15 +129,34 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
                 None => None,
             };
-            AnodeForecast { set_at, count, initial_kg, remaining_kg, remaining_fraction: load.remaining_fraction(q.total()), pull_due, thickness_mm }
+            AnodeForecast {
+                set_at,
+                count,
+                initial_kg,
+                remaining_kg,
+                remaining_fraction: load.remaining_fraction(q.total()),
+                pull_due,
+                thickness_mm,
+            }
         });
     }
-    if let Some(a) = &anode {
-        if p.anode_kind == AnodeKind::Soluble && a.thickness_mm < p.thin_anode_mm {
-            warn("thin_anode", format!("anodes about {:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs", a.thickness_mm, p.thin_anode_mm));
-        }
+    if let Some(a) = &anode
+        && p.anode_kind == AnodeKind::Soluble
+        && a.thickness_mm < p.thin_anode_mm
+    {
+        warn(
+            "thin_anode",
+            format!(
+                "anodes about {:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs",
+                a.thickness_mm, p.thin_anode_mm
+            ),
+        );
     }
-    let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
+    let cathodes = Cathodes {
+        count: p.cathodes_per_cell,
+        anodes: p.anodes_per_cell,
+        efficiency: eta_c,
+    };
     let mut cathode = None;
     if let Some(started_at) = input.crop_started {
         let q = cell_charge(curve, &input.cutouts, started_at, as_of)?;
@@ -124,22 +164,45 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             charge = Some(q);
         }
         let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg))?;
-        cathode = Some(CathodeForecast { started_at, mass_kg: cathodes.mean_kg(q.total()), inner_mass_kg: cathodes.inner_kg(q.total()), charge_ah: q.total(), harvest_due: due });
+        cathode = Some(CathodeForecast {
+            started_at,
+            mass_kg: cathodes.mean_kg(q.total()),
+            inner_mass_kg: cathodes.inner_kg(q.total()),
+            charge_ah: q.total(),
+            harvest_due: due,
+        });
     }
-    if let Some(eff) = input.last_crop_efficiency {
-        if eff < p.low_efficiency_below {
-            warn("low_efficiency", format!("last crop plated at {:.1} % current efficiency, under {:.0} %: look for shorts or bad contacts", eff * 100.0, p.low_efficiency_below * 100.0));
-        }
+    if let Some(eff) = input.last_crop_efficiency
+        && eff < p.low_efficiency_below
+    {
+        warn(
+            "low_efficiency",
+            format!(
+                "last crop plated at {:.1} % current efficiency, under {:.0} %: look for shorts or bad contacts",
+                eff * 100.0,
+                p.low_efficiency_below * 100.0
+            ),
+        );
     }
-    if let Some((t, v)) = input.last_voltage {
-        if v < p.voltage_min || v > p.voltage_max {
-            let why = if p.anode_kind == AnodeKind::Inert && v < p.voltage_min {
-                format!("below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading", p.voltage_min)
-            } else {
-                format!("outside the plausible {}–{} V", p.voltage_min, p.voltage_max)
-            };
-            warnings.push(Warning { code: "voltage_range", message: format!("cell voltage {v} V {why}"), cell: Some(input.cell.clone()), circuit: None, from: Some(t), to: None });
-        }
+    if let Some((t, v)) = input.last_voltage
+        && (v < p.voltage_min || v > p.voltage_max)
+    {
+        let why = if p.anode_kind == AnodeKind::Inert && v < p.voltage_min {
+            format!(
+                "below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading",
+                p.voltage_min
+            )
+        } else {
+            format!("outside the plausible {}–{} V", p.voltage_min, p.voltage_max)
+        };
+        warnings.push(Warning {
+            code: "voltage_range",
+            message: format!("cell voltage {v} V {why}"),
+            cell: Some(input.cell.clone()),
+            circuit: None,
+            from: Some(t),
+            to: None,
+        });
     }
     let charge = charge.unwrap_or_default();
     Ok(CellForecast {
@@ -182,7 +245,12 @@ mod tests {
     /// DOMAIN.md plant check (derived): 50 × 380 kg anodes, 51 cathodes, 30 kA, η_c 0.96.
     #[test]
     fn plant_check_due_times() {
-        let readings: Vec<RawReading> = (0..=24).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 30_000.0 }).collect();
+        let readings: Vec<RawReading> = (0..=24)
+            .map(|h| RawReading {
+                t: t0() + Duration::hours(h),
+                amps: 30_000.0,
+            })
+            .collect();
         let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(24));
         let input = CellInput {
             cell: "A01".into(),

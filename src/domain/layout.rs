@@ -101,9 +101,28 @@ impl CellParams {
     /// These parameters with `patch` laid over them.
     pub fn with(&self, patch: &ParamsPatch) -> CellParams {
         let mut p = self.clone();
-        apply!(p, patch, anodes_per_cell, cathodes_per_cell, cathodes_as_given, face_area_m2, new_anode_kg,
-            scrap_target, scrap_upper, scrap_lower, cathode_target_kg, cathode_efficiency, anode_efficiency,
-            anode_copper_fraction, lug_kg, thin_anode_mm, low_efficiency_below, anode_kind, voltage_min, voltage_max);
+        apply!(
+            p,
+            patch,
+            anodes_per_cell,
+            cathodes_per_cell,
+            cathodes_as_given,
+            face_area_m2,
+            new_anode_kg,
+            scrap_target,
+            scrap_upper,
+            scrap_lower,
+            cathode_target_kg,
+            cathode_efficiency,
+            anode_efficiency,
+            anode_copper_fraction,
+            lug_kg,
+            thin_anode_mm,
+            low_efficiency_below,
+            anode_kind,
+            voltage_min,
+            voltage_max
+        );
         if patch.crops_per_anode_cycle.is_some() {
             p.crops_per_anode_cycle = patch.crops_per_anode_cycle;
         }
@@ -117,60 +136,85 @@ impl CellParams {
         p
     }
 
-    /// The reasons these parameters cannot be right (empty when they can).
-    pub fn problems(&self) -> Vec<String> {
-        let mut v = Vec::new();
+    /// The reasons these parameters cannot be right (empty when they can), each
+    /// with the key it concerns.
+    pub fn problems(&self) -> Vec<(&'static str, String)> {
+        let mut v: Vec<(&'static str, String)> = Vec::new();
         if self.anodes_per_cell == 0 {
-            v.push("anodes_per_cell is 0: a cell needs anodes".to_string());
+            v.push(("anodes_per_cell", "anodes_per_cell is 0: a cell needs anodes".into()));
         }
         if self.cathodes_per_cell == 0 {
-            v.push("cathodes_per_cell is 0: a cell needs cathodes".to_string());
+            v.push(("cathodes_per_cell", "cathodes_per_cell is 0: a cell needs cathodes".into()));
         }
         if self.cathodes_per_cell != self.anodes_per_cell + 1 && !self.cathodes_as_given {
-            v.push(format!(
+            let m = format!(
                 "cathodes_per_cell is {} but anodes_per_cell + 1 is {}: fix it or set cathodes_as_given = true",
                 self.cathodes_per_cell,
                 self.anodes_per_cell + 1
-            ));
+            );
+            v.push(("cathodes_per_cell", m));
         }
-        for (name, x) in [("cathode_efficiency", self.cathode_efficiency), ("anode_efficiency", self.anode_efficiency)] {
+        for (name, x) in [
+            ("cathode_efficiency", self.cathode_efficiency),
+            ("anode_efficiency", self.anode_efficiency),
+            ("low_efficiency_below", self.low_efficiency_below),
+        ] {
             if !(x > 0.0 && x <= 1.05) {
-                v.push(format!("{name} is {x}: it must lie in (0, 1.05]"));
+                v.push((name, format!("{name} is {x}: it must lie in (0, 1.05]")));
             }
         }
-        if !(self.low_efficiency_below > 0.0 && self.low_efficiency_below <= 1.05) {
-            v.push(format!("low_efficiency_below is {}: it must lie in (0, 1.05]", self.low_efficiency_below));
-        }
         if !(self.anode_copper_fraction > 0.5 && self.anode_copper_fraction <= 1.0) {
-            v.push(format!("anode_copper_fraction is {}: it must lie in (0.5, 1]", self.anode_copper_fraction));
+            v.push((
+                "anode_copper_fraction",
+                format!("anode_copper_fraction is {}: it must lie in (0.5, 1]", self.anode_copper_fraction),
+            ));
         }
-        for (name, x) in [("face_area_m2", self.face_area_m2), ("new_anode_kg", self.new_anode_kg),
-            ("cathode_target_kg", self.cathode_target_kg), ("thin_anode_mm", self.thin_anode_mm)] {
+        for (name, x) in [
+            ("face_area_m2", self.face_area_m2),
+            ("new_anode_kg", self.new_anode_kg),
+            ("cathode_target_kg", self.cathode_target_kg),
+            ("thin_anode_mm", self.thin_anode_mm),
+        ] {
             if !(x > 0.0 && x.is_finite()) {
-                v.push(format!("{name} is {x}: it must be a positive number"));
+                v.push((name, format!("{name} is {x}: it must be a positive number")));
             }
         }
         if !(self.lug_kg >= 0.0 && self.lug_kg.is_finite()) {
-            v.push(format!("lug_kg is {}: it must be zero or more", self.lug_kg));
+            v.push(("lug_kg", format!("lug_kg is {}: it must be zero or more", self.lug_kg)));
         }
-        if !(0.0 < self.scrap_lower && self.scrap_lower < self.scrap_target && self.scrap_target < self.scrap_upper && self.scrap_upper < 1.0) {
-            v.push(format!(
+        if !(0.0 < self.scrap_lower
+            && self.scrap_lower < self.scrap_target
+            && self.scrap_target < self.scrap_upper
+            && self.scrap_upper < 1.0)
+        {
+            let m = format!(
                 "scrap bounds out of order: need 0 < scrap_lower ({}) < scrap_target ({}) < scrap_upper ({}) < 1",
                 self.scrap_lower, self.scrap_target, self.scrap_upper
-            ));
+            );
+            v.push(("scrap_upper", m));
         }
         if self.anode_kind == AnodeKind::Soluble && self.scrap_lower * self.new_anode_kg <= self.lug_kg {
-            v.push(format!(
+            let m = format!(
                 "scrap_lower × new_anode_kg = {:.1} kg is at or below lug_kg = {} kg, the part that never dissolves",
                 self.scrap_lower * self.new_anode_kg,
                 self.lug_kg
-            ));
+            );
+            v.push(("scrap_lower", m));
         }
         if self.crops_per_anode_cycle == Some(0) {
-            v.push("crops_per_anode_cycle is 0: at least one crop per anode cycle".to_string());
+            v.push((
+                "crops_per_anode_cycle",
+                "crops_per_anode_cycle is 0: at least one crop per anode cycle".into(),
+            ));
         }
-        if !(self.voltage_min < self.voltage_max) {
-            v.push(format!("voltage_min ({}) must be below voltage_max ({})", self.voltage_min, self.voltage_max));
+        if self.voltage_min.partial_cmp(&self.voltage_max) != Some(std::cmp::Ordering::Less) {
+            v.push((
+                "voltage_min",
+                format!(
+                    "voltage_min ({}) must be below voltage_max ({})",
+                    self.voltage_min, self.voltage_max
+                ),
+            ));
         }
         v
     }
@@ -307,6 +351,28 @@ fn header_line(text: &str, header: &str, n: usize) -> Option<usize> {
         .map(|(i, _)| i + 1)
 }
 
+/// The line of `key = …` in the table that starts at `start` (1-based), or `start`.
+fn key_line(text: &str, start: usize, key: &str) -> usize {
+    for (i, l) in text.lines().enumerate().skip(start) {
+        let l = l.trim_start();
+        if l.starts_with('[') {
+            break;
+        }
+        if l.strip_prefix(key).is_some_and(|rest| rest.trim_start().starts_with('=')) {
+            return i + 1;
+        }
+    }
+    start
+}
+
+/// Whether a section sets `key` itself (else it inherits it from `[defaults]`).
+fn own_key(patch: &ParamsPatch, key: &str) -> bool {
+    match toml::Value::try_from(patch) {
+        Ok(toml::Value::Table(t)) => t.contains_key(key),
+        _ => false,
+    }
+}
+
 /// Section cell ids: `A` with 20 cells gives `A01` … `A20`.
 pub fn cell_ids(section: &str, spec: &CellsSpec) -> Vec<String> {
     match spec {
@@ -331,14 +397,14 @@ fn check_section_keys(text: &str) -> Result<(), LayoutError> {
     for c in &circuits {
         let sections = c.get("section").and_then(|s| s.as_array()).cloned().unwrap_or_default();
         for s in &sections {
-            if let Some(t) = s.as_table() {
-                if let Some(k) = t.keys().find(|k| !known.contains(*k)) {
-                    return Err(LayoutError {
-                        line: header_line(text, "[[circuit.section]]", n),
-                        field: format!("section.{k}"),
-                        message: format!("unknown key '{k}'"),
-                    });
-                }
+            if let Some(t) = s.as_table()
+                && let Some(k) = t.keys().find(|k| !known.contains(*k))
+            {
+                return Err(LayoutError {
+                    line: header_line(text, "[[circuit.section]]", n),
+                    field: format!("section.{k}"),
+                    message: format!("unknown key '{k}'"),
+                });
             }
             n += 1;
         }
@@ -364,13 +430,23 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
     }
     for d in &file.plan.no_anode_work {
         chrono::NaiveDate::parse_from_str(d, "%Y-%m-%d").map_err(|_| {
-            err(header_line(text, "no_anode_work", 0), "plan.no_anode_work".into(), format!("'{d}' is not a date (YYYY-MM-DD)"))
+            err(
+                header_line(text, "no_anode_work", 0),
+                "plan.no_anode_work".into(),
+                format!("'{d}' is not a date (YYYY-MM-DD)"),
+            )
         })?;
     }
     if file.circuit.is_empty() {
         return Err(err(None, "circuit".into(), "the layout has no [[circuit]]".into()));
     }
     let base = CellParams::default().with(&file.defaults);
+    let defaults_line = header_line(text, "[defaults]", 0);
+    // A default that is wrong for every section is reported once, at its own line.
+    if let Some((key, p)) = base.problems().into_iter().next() {
+        let line = defaults_line.map(|l| key_line(text, l, key));
+        return Err(err(line, format!("defaults.{key}"), p));
+    }
     let mut seen_cells = BTreeSet::new();
     let mut seen_circuits = BTreeSet::new();
     let mut circuits = Vec::new();
@@ -385,7 +461,11 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
             return Err(err(cline, cfield, "the circuit name is used twice".into()));
         }
         if !(c.max_amps > 0.0 && c.max_amps.is_finite()) {
-            return Err(err(cline, format!("{cfield}.max_amps"), format!("{} is not a positive current", c.max_amps)));
+            return Err(err(
+                cline,
+                format!("{cfield}.max_amps"),
+                format!("{} is not a positive current", c.max_amps),
+            ));
         }
         let mut sections = Vec::new();
         for s in &c.section {
@@ -393,8 +473,13 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
             section_no += 1;
             let sfield = format!("{cfield} section '{}'", s.name);
             let params = base.with(&s.params);
-            if let Some(p) = params.problems().into_iter().next() {
-                return Err(err(sline, sfield, p));
+            if let Some((key, p)) = params.problems().into_iter().next() {
+                let line = if own_key(&s.params, key) {
+                    sline.map(|l| key_line(text, l, key))
+                } else {
+                    defaults_line.map(|l| key_line(text, l, key))
+                };
+                return Err(err(line, format!("{sfield}.{key}"), p));
             }
             let cells = cell_ids(&s.name, &s.cells);
             if cells.is_empty() {
@@ -405,17 +490,31 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
                     return Err(err(sline, format!("{sfield}.cells"), format!("'{id}' is not a usable cell id")));
                 }
                 if !seen_cells.insert(id.clone()) {
-                    return Err(err(sline, format!("{sfield}.cells"), format!("cell id {id} is used twice in the plant")));
+                    return Err(err(
+                        sline,
+                        format!("{sfield}.cells"),
+                        format!("cell id {id} is used twice in the plant"),
+                    ));
                 }
             }
-            sections.push(SectionLayout { name: s.name.clone(), params, cells });
+            sections.push(SectionLayout {
+                name: s.name.clone(),
+                params,
+                cells,
+            });
         }
-        circuits.push(CircuitLayout { name: c.name.clone(), max_amps: c.max_amps, sections });
+        circuits.push(CircuitLayout {
+            name: c.name.clone(),
+            max_amps: c.max_amps,
+            sections,
+        });
     }
-    if let Some(p) = base.problems().into_iter().next() {
-        return Err(err(header_line(text, "[defaults]", 0), "defaults".into(), p));
-    }
-    Ok(Layout { header: file.plant, zone, plan: file.plan, circuits })
+    Ok(Layout {
+        header: file.plant,
+        zone,
+        plan: file.plan,
+        circuits,
+    })
 }
 
 #[cfg(test)]

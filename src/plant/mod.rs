@@ -30,7 +30,12 @@ pub enum PlantError {
     #[error("{file}: {source}")]
     Layout { file: String, source: layout::LayoutError },
     #[error("{file} line {line}, field {field}: {message}")]
-    Input { file: String, line: u64, field: String, message: String },
+    Input {
+        file: String,
+        line: u64,
+        field: String,
+        message: String,
+    },
     #[error("{field}: {message}")]
     Rejected { field: String, message: String },
     #[error("this entry needs a second look: {}. Check it, then repeat with --force to record it anyway", .0.join("; "))]
@@ -41,7 +46,10 @@ pub enum PlantError {
 
 impl PlantError {
     fn rejected(field: &str, message: impl Into<String>) -> Self {
-        PlantError::Rejected { field: field.to_string(), message: message.into() }
+        PlantError::Rejected {
+            field: field.to_string(),
+            message: message.into(),
+        }
     }
 }
 
@@ -113,7 +121,10 @@ impl Plant {
 
     /// Defines or updates the plant from a layout file's text.
     pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
-        let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
+        let parsed = layout::parse(text).map_err(|e| PlantError::Layout {
+            file: source.to_string(),
+            source: e,
+        })?;
         self.store.write(|db| Ok(db.apply_layout(&parsed, text, source, now)?))
     }
 
@@ -127,7 +138,10 @@ impl Plant {
     /// records that match a fresh replay of the event log.
     pub fn check(&mut self) -> Result<CheckReport> {
         let db = self.store.db();
-        let mut r = CheckReport { problems: db.sqlite_problems()?, ..Default::default() };
+        let mut r = CheckReport {
+            problems: db.sqlite_problems()?,
+            ..Default::default()
+        };
         let falls = db.charge_decreases()?;
         if falls > 0 {
             r.problems.push(format!("{falls} readings where the cumulative charge goes down"));
@@ -140,7 +154,9 @@ impl Plant {
             for cell in db.cells_with_events()? {
                 let before = db.stored_history_digest(&cell)?;
                 match rebuild_cell(db, &cell) {
-                    Ok(()) if db.stored_history_digest(&cell)? != before => bad.push(format!("cell {cell}: stored records differ from the event log")),
+                    Ok(()) if db.stored_history_digest(&cell)? != before => {
+                        bad.push(format!("cell {cell}: stored records differ from the event log"))
+                    }
                     Ok(()) => {}
                     Err(e) => bad.push(format!("cell {cell}: {e}")),
                 }
@@ -165,7 +181,9 @@ impl Plant {
 /// Replays a cell's events into its derived records, with each closed crop's
 /// charge and measured efficiency.
 pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
-    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+    let row = db
+        .cell(cell)?
+        .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
     let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
@@ -176,7 +194,11 @@ pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
         figures.push(match (c.ended_at, c.harvest_kg) {
             (Some(end), Some(kg)) => {
                 let q = cell_charge(&curve, &cuts, c.started_at, end)?;
-                Some(CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) })
+                Some(CropFigures {
+                    charge_ah: q.total(),
+                    estimated_ah: q.estimated,
+                    efficiency: measured_efficiency(kg, q.total()),
+                })
             }
             _ => None,
         });
@@ -192,7 +214,15 @@ pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<(
     for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
         let cuts = db.cutouts(&cell, far_future())?;
         let q = cell_charge(&curve, &cuts, start, end)?;
-        db.set_crop_figures(&cell, start, CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) })?;
+        db.set_crop_figures(
+            &cell,
+            start,
+            CropFigures {
+                charge_ah: q.total(),
+                estimated_ah: q.estimated,
+                efficiency: measured_efficiency(kg, q.total()),
+            },
+        )?;
     }
     Ok(())
 }

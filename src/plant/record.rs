@@ -20,7 +20,10 @@ pub struct Recorded {
 fn initials(by: &str) -> Result<String> {
     let by = by.trim();
     if by.is_empty() || by.chars().count() > 8 || by.chars().any(char::is_whitespace) {
-        return Err(PlantError::rejected("--by", format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces")));
+        return Err(PlantError::rejected(
+            "--by",
+            format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces"),
+        ));
     }
     Ok(by.to_uppercase())
 }
@@ -40,7 +43,10 @@ impl Plant {
             }
             let event = db.append_event(&new_event(db, entry, &by, !questions.is_empty(), opts.now)?)?;
             apply(db, entry)?;
-            Ok(Recorded { event, forced_past: questions })
+            Ok(Recorded {
+                event,
+                forced_past: questions,
+            })
         })
     }
 
@@ -50,7 +56,9 @@ impl Plant {
         let by = initials(&opts.by)?;
         self.store.write(|db| {
             let target = match event {
-                Some(id) => db.event(id)?.ok_or_else(|| PlantError::rejected("EVENT", format!("there is no entry {id}")))?,
+                Some(id) => db
+                    .event(id)?
+                    .ok_or_else(|| PlantError::rejected("EVENT", format!("there is no entry {id}")))?,
                 None => db
                     .recent_events(None, 200)?
                     .into_iter()
@@ -58,7 +66,10 @@ impl Plant {
                     .ok_or_else(|| PlantError::rejected("EVENT", "there is no entry to undo"))?,
             };
             if target.kind == EventKind::Void {
-                return Err(PlantError::rejected("EVENT", format!("entry {} is itself an undo; record the entry again instead", target.id)));
+                return Err(PlantError::rejected(
+                    "EVENT",
+                    format!("entry {} is itself an undo; record the entry again instead", target.id),
+                ));
             }
             if db.is_voided(target.id)? {
                 return Err(PlantError::rejected("EVENT", format!("entry {} is already undone", target.id)));
@@ -84,7 +95,13 @@ impl Plant {
             })?;
             if let Some(cell) = &target.cell {
                 rebuild_cell(db, cell).map_err(|e| match e {
-                    PlantError::Rejected { message, .. } => PlantError::rejected("EVENT", format!("undoing entry {} would leave the history of {cell} inconsistent: {message}", target.id)),
+                    PlantError::Rejected { message, .. } => PlantError::rejected(
+                        "EVENT",
+                        format!(
+                            "undoing entry {} would leave the history of {cell} inconsistent: {message}",
+                            target.id
+                        ),
+                    ),
                     e => e,
                 })?;
             }
@@ -103,24 +120,43 @@ impl Plant {
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
-    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}: it is not in the layout")))?;
+    let row = db
+        .cell(cell)?
+        .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}: it is not in the layout")))?;
     let at = entry.at();
     let params = db.params_at(cell, at)?;
     let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
     let cuts = db.cutouts(cell, far_future())?;
-    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None };
+    let mut cx = CellContext {
+        params: &params,
+        crop_charge_ah: None,
+        load: None,
+        predicted_fraction: None,
+    };
     match entry {
         Entry::Harvest { .. } => {
-            let start = db
-                .crop_at(cell, at)?
-                .ok_or_else(|| PlantError::rejected("--at", format!("no crop is growing in {cell} at {}: a harvest before the crop began", db_show(db, at))))?;
+            let start = db.crop_at(cell, at)?.ok_or_else(|| {
+                PlantError::rejected(
+                    "--at",
+                    format!(
+                        "no crop is growing in {cell} at {}: a harvest before the crop began",
+                        db_show(db, at)
+                    ),
+                )
+            })?;
             cx.crop_charge_ah = Some(cell_charge(&curve, &cuts, start, at)?.total());
         }
         Entry::Scrap { .. } => {
             if let Some((_, set_at, count, mean)) = db.load_at(cell, at)? {
                 cx.load = Some((count, mean));
                 let q = cell_charge(&curve, &cuts, set_at, at)?.total();
-                let load = AnodeLoad { initial_kg: mean, count, efficiency: params.anode_efficiency, copper_fraction: params.anode_copper_fraction, lug_kg: params.lug_kg };
+                let load = AnodeLoad {
+                    initial_kg: mean,
+                    count,
+                    efficiency: params.anode_efficiency,
+                    copper_fraction: params.anode_copper_fraction,
+                    lug_kg: params.lug_kg,
+                };
                 cx.predicted_fraction = Some(load.remaining_fraction(q));
             }
         }
@@ -141,7 +177,9 @@ fn check_for_circuit(db: Db<'_>, entry: &Entry) -> Result<Vec<String>> {
         Entry::Outage { circuit, .. } | Entry::Setpoint { circuit, .. } => circuit,
         _ => return Ok(Vec::new()),
     };
-    let c = db.circuit(name)?.ok_or_else(|| PlantError::rejected("--circuit", format!("unknown circuit {name}: it is not in the layout")))?;
+    let c = db
+        .circuit(name)?
+        .ok_or_else(|| PlantError::rejected("--circuit", format!("unknown circuit {name}: it is not in the layout")))?;
     check_circuit_entry(entry, c.max_amps).map_err(|r| PlantError::rejected(r.field, r.message))
 }
 
@@ -187,11 +225,11 @@ fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
     if let Some(cell) = entry.cell() {
         return rebuild_cell(db, cell);
     }
-    if let Entry::Outage { circuit, from, .. } = entry {
-        if let Some(c) = db.circuit(circuit)? {
-            db.recompute_charge(c.id, *from)?;
-            refresh_crops(db, c.id, *from)?;
-        }
+    if let Entry::Outage { circuit, from, .. } = entry
+        && let Some(c) = db.circuit(circuit)?
+    {
+        db.recompute_charge(c.id, *from)?;
+        refresh_crops(db, c.id, *from)?;
     }
     Ok(())
 }

@@ -33,7 +33,21 @@ pub struct CropFigures {
     pub efficiency: Option<f64>,
 }
 
-const EVENT_COLS: &str = "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
+/// A cell-level reading from the log: (time, count, volts).
+type CellReading = (Time, Option<u32>, Option<f64>);
+
+/// An anode load as stored.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadRow {
+    pub set_at: Time,
+    pub count: u32,
+    pub mean_kg: f64,
+    pub ended_at: Option<Time>,
+    pub scrap_kg: Option<f64>,
+}
+
+const EVENT_COLS: &str =
+    "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
      EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)";
 
 fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Event> {
@@ -111,9 +125,19 @@ impl Db<'_> {
         self.c.execute("DELETE FROM anode_load WHERE cell_id = ?1", [cell])?;
         self.c.execute("DELETE FROM crop WHERE cell_id = ?1", [cell])?;
         self.c.execute("DELETE FROM cutout WHERE cell_id = ?1", [cell])?;
-        let mut st = self.c.prepare_cached("INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)")?;
+        let mut st = self.c.prepare_cached(
+            "INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
+        )?;
         for l in &h.loads {
-            st.execute(params![l.set_event, cell, secs(l.set_at), l.count, l.mean_kg, l.ended_at.map(secs), l.scrap_kg])?;
+            st.execute(params![
+                l.set_event,
+                cell,
+                secs(l.set_at),
+                l.count,
+                l.mean_kg,
+                l.ended_at.map(secs),
+                l.scrap_kg
+            ])?;
         }
         let mut st = self.c.prepare_cached(
             "INSERT INTO crop(cell_id, started_at, ended_at, harvest_event, harvest_kg, charge_ah, efficiency, estimated_ah) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
@@ -131,7 +155,9 @@ impl Db<'_> {
                 f.map(|f| f.estimated_ah)
             ])?;
         }
-        let mut st = self.c.prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
+        let mut st = self
+            .c
+            .prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
         for c in &h.cutouts {
             st.execute(params![c.event, cell, secs(c.span.from), c.span.to.map(secs)])?;
         }
@@ -145,7 +171,9 @@ impl Db<'_> {
              JOIN cell ON cell.id = crop.cell_id JOIN section ON section.id = cell.section_id
              WHERE section.circuit_id = ?1 AND crop.ended_at >= ?2 AND crop.harvest_kg IS NOT NULL",
         )?;
-        let v = st.query_map(params![circuit_id, secs(t)], |r| Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?)))?;
+        let v = st.query_map(params![circuit_id, secs(t)], |r| {
+            Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?))
+        })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -159,10 +187,15 @@ impl Db<'_> {
 
     /// The cell's cut-outs known at `as_of` (one closed after `as_of` counts as still open).
     pub fn cutouts(&self, cell: &str, as_of: Time) -> Result<Vec<OpenSpan>> {
-        let mut st = self.c.prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
+        let mut st = self
+            .c
+            .prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
         let v = st.query_map(params![cell, secs(as_of)], |r| {
             let to: Option<i64> = r.get(1)?;
-            Ok(OpenSpan { from: time(r.get(0)?), to: to.filter(|&x| x <= secs(as_of)).map(time) })
+            Ok(OpenSpan {
+                from: time(r.get(0)?),
+                to: to.filter(|&x| x <= secs(as_of)).map(time),
+            })
         })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -173,7 +206,11 @@ impl Db<'_> {
             "SELECT set_event, set_at, count, mean_kg FROM anode_load WHERE cell_id = ?1 AND set_at <= ?2
              AND (ended_at IS NULL OR ended_at > ?2) ORDER BY set_at DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))).optional()?)
+        Ok(st
+            .query_row(params![cell, secs(as_of)], |r| {
+                Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))
+            })
+            .optional()?)
     }
 
     /// When the crop growing at `as_of` began.
@@ -195,21 +232,29 @@ impl Db<'_> {
 
     /// The last crop efficiency measured by `as_of`.
     pub fn last_crop_efficiency(&self, cell: &str, as_of: Time) -> Result<Option<f64>> {
-        let mut st = self.c.prepare_cached("SELECT efficiency FROM crop WHERE cell_id = ?1 AND ended_at <= ?2 AND efficiency IS NOT NULL ORDER BY ended_at DESC LIMIT 1")?;
+        let mut st = self.c.prepare_cached(
+            "SELECT efficiency FROM crop WHERE cell_id = ?1 AND ended_at <= ?2 AND efficiency IS NOT NULL ORDER BY ended_at DESC LIMIT 1",
+        )?;
         Ok(st.query_row(params![cell, secs(as_of)], |r| r.get(0)).optional()?)
     }
 
     /// The latest live reading of a cell-level kind by `as_of`: (time, count, volts).
-    fn latest_cell_event(&self, cell: &str, kind: EventKind, as_of: Time) -> Result<Option<(Time, Option<u32>, Option<f64>)>> {
+    fn latest_cell_event(&self, cell: &str, kind: EventKind, as_of: Time) -> Result<Option<CellReading>> {
         let mut st = self.c.prepare_cached(
             "SELECT at, count, volts FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at <= ?3
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at DESC, id DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, kind.name(), secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))).optional()?)
+        Ok(st
+            .query_row(params![cell, kind.name(), secs(as_of)], |r| {
+                Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))
+            })
+            .optional()?)
     }
 
     pub fn last_voltage(&self, cell: &str, as_of: Time) -> Result<Option<(Time, f64)>> {
-        Ok(self.latest_cell_event(cell, EventKind::Voltage, as_of)?.and_then(|(t, _, v)| v.map(|v| (t, v))))
+        Ok(self
+            .latest_cell_event(cell, EventKind::Voltage, as_of)?
+            .and_then(|(t, _, v)| v.map(|v| (t, v))))
     }
 
     /// Shorts found in `[since, as_of]`: total count and the last time.
@@ -218,21 +263,35 @@ impl Db<'_> {
             "SELECT sum(count), max(at) FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at >= ?3 AND at <= ?4
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
         )?;
-        let (n, t): (Option<u32>, Option<i64>) = st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| Ok((r.get(0)?, r.get(1)?)))?;
+        let (n, t): (Option<u32>, Option<i64>) = st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| {
+            Ok((r.get(0)?, r.get(1)?))
+        })?;
         Ok(n.zip(t.map(time)))
     }
 
     /// Every anode load of a cell, oldest first.
-    pub fn loads(&self, cell: &str) -> Result<Vec<(Time, u32, f64, Option<Time>, Option<f64>)>> {
-        let mut st = self.c.prepare_cached("SELECT set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at")?;
-        let v = st.query_map([cell], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?, r.get::<_, Option<i64>>(3)?.map(time), r.get(4)?)))?;
+    pub fn loads(&self, cell: &str) -> Result<Vec<LoadRow>> {
+        let mut st = self
+            .c
+            .prepare_cached("SELECT set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at")?;
+        let v = st.query_map([cell], |r| {
+            Ok(LoadRow {
+                set_at: time(r.get(0)?),
+                count: r.get(1)?,
+                mean_kg: r.get(2)?,
+                ended_at: r.get::<_, Option<i64>>(3)?.map(time),
+                scrap_kg: r.get(4)?,
+            })
+        })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
     /// Cells whose derived records disagree with a fresh replay are found by the
     /// plant; this lists the cells that have any events at all.
     pub fn cells_with_events(&self) -> Result<Vec<String>> {
-        let mut st = self.c.prepare("SELECT DISTINCT cell_id FROM event WHERE cell_id IS NOT NULL ORDER BY cell_id")?;
+        let mut st = self
+            .c
+            .prepare("SELECT DISTINCT cell_id FROM event WHERE cell_id IS NOT NULL ORDER BY cell_id")?;
         let v = st.query_map([], |r| r.get(0))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -260,7 +319,9 @@ impl Db<'_> {
 
     /// Whether an event has already been voided.
     pub fn is_voided(&self, id: i64) -> Result<bool> {
-        Ok(self.c.query_row("SELECT EXISTS (SELECT 1 FROM event WHERE voids = ?1)", [id], |r| r.get(0))?)
+        Ok(self
+            .c
+            .query_row("SELECT EXISTS (SELECT 1 FROM event WHERE voids = ?1)", [id], |r| r.get(0))?)
     }
 
     pub fn event_count(&self) -> Result<i64> {

@@ -66,7 +66,9 @@ mod tests {
         assert_eq!(n, 2);
         let est: Option<f64> = c.query_row("SELECT estimated_ah FROM crop", [], |r| r.get(0)).unwrap();
         assert_eq!(est, None);
-        let idx: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap();
+        let idx: i64 = c
+            .query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0))
+            .unwrap();
         assert_eq!(idx, 1);
     }
 
@@ -78,6 +80,9 @@ mod tests {
             let c = Connection::open(&path).unwrap();
             c.pragma_update(None, "user_version", 99).unwrap();
         }
-        assert!(matches!(crate::store::Store::open(&path), Err(crate::store::StoreError::TooNew(..))));
+        assert!(matches!(
+            crate::store::Store::open(&path),
+            Err(crate::store::StoreError::TooNew(..))
+        ));
     }
 }

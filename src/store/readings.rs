@@ -5,12 +5,17 @@ use rusqlite::{OptionalExtension, params};
 
 use super::{Db, Result, StoreError, secs, time};
 use crate::domain::charge::{
-    Around, Cum, Curve, MEAN_WINDOW, Point, Projection, RawReading, Span, Time, accumulate, cum_from, mean_in_service_amps, time_from, union,
+    Around, Cum, Curve, MEAN_WINDOW, Point, Projection, RawReading, Span, Time, accumulate, cum_from, mean_in_service_amps, time_from,
+    union,
 };
 use crate::domain::history::EventKind;
 
 fn point(r: &rusqlite::Row<'_>) -> rusqlite::Result<Point> {
-    Ok(Point { t: time(r.get(0)?), amps: r.get(1)?, cum_ah: r.get(2)? })
+    Ok(Point {
+        t: time(r.get(0)?),
+        amps: r.get(1)?,
+        cum_ah: r.get(2)?,
+    })
 }
 
 impl Db<'_> {
@@ -23,8 +28,12 @@ impl Db<'_> {
     /// Adds new readings (the caller has skipped duplicates and rejected
     /// conflicts) and recomputes the cumulative charge from the earliest of them.
     pub fn add_readings(&self, circuit_id: i64, rows: &[RawReading]) -> Result<()> {
-        let Some(first) = rows.iter().map(|r| r.t).min() else { return Ok(()) };
-        let mut st = self.c.prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
+        let Some(first) = rows.iter().map(|r| r.t).min() else {
+            return Ok(());
+        };
+        let mut st = self
+            .c
+            .prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
         for r in rows {
             st.execute(params![circuit_id, secs(r.t), r.amps])?;
         }
@@ -40,11 +49,20 @@ impl Db<'_> {
             .prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?
             .query_row(params![circuit_id, secs(from)], point)
             .optional()?;
-        let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
+        let mut st = self
+            .c
+            .prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
         let later: Vec<RawReading> = st
-            .query_map(params![circuit_id, secs(from)], |r| Ok(RawReading { t: time(r.get(0)?), amps: r.get(1)? }))?
+            .query_map(params![circuit_id, secs(from)], |r| {
+                Ok(RawReading {
+                    t: time(r.get(0)?),
+                    amps: r.get(1)?,
+                })
+            })?
             .collect::<rusqlite::Result<_>>()?;
-        let mut up = self.c.prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
+        let mut up = self
+            .c
+            .prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
         for a in accumulate(prev, &later, &outages) {
             up.execute(params![circuit_id, secs(a.t), a.cum_ah, a.valid, a.gap_before])?;
         }
@@ -58,7 +76,12 @@ impl Db<'_> {
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
         )?;
         let spans: Vec<Span> = st
-            .query_map(params![circuit_id, EventKind::Outage.name()], |r| Ok(Span { from: time(r.get(0)?), to: time(r.get(1)?) }))?
+            .query_map(params![circuit_id, EventKind::Outage.name()], |r| {
+                Ok(Span {
+                    from: time(r.get(0)?),
+                    to: time(r.get(1)?),
+                })
+            })?
             .collect::<rusqlite::Result<_>>()?;
         Ok(union(spans))
     }
@@ -69,17 +92,23 @@ impl Db<'_> {
             "SELECT at, amps FROM event e WHERE circuit_id = ?1 AND kind = ?2
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at, id",
         )?;
-        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| {
+            Ok((time(r.get(0)?), r.get(1)?))
+        })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
     fn last_valid(&self, circuit_id: i64, until: Time) -> Result<Option<Point>> {
-        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t <= ?2 ORDER BY t DESC LIMIT 1")?;
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t <= ?2 ORDER BY t DESC LIMIT 1",
+        )?;
         Ok(st.query_row(params![circuit_id, secs(until)], point).optional()?)
     }
 
     fn first_valid_after(&self, circuit_id: i64, t: Time, until: Time) -> Result<Option<Point>> {
-        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t > ?2 AND t <= ?3 ORDER BY t LIMIT 1")?;
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t > ?2 AND t <= ?3 ORDER BY t LIMIT 1",
+        )?;
         Ok(st.query_row(params![circuit_id, secs(t), secs(until)], point).optional()?)
     }
 
@@ -91,15 +120,21 @@ impl Db<'_> {
     }
 
     fn valid_before(&self, circuit_id: i64, t: Time) -> Result<Option<Point>> {
-        let mut st = self.c.prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?;
+        let mut st = self
+            .c
+            .prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?;
         Ok(st.query_row(params![circuit_id, secs(t)], point).optional()?)
     }
 
     /// Stretches between readings longer than the gap limit and not covered by
     /// an outage, ending after `since` and by `until`.
     pub fn reading_gaps(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<Span>> {
-        let mut st = self.c.prepare_cached("SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t")?;
-        let ends: Vec<Time> = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?.collect::<rusqlite::Result<_>>()?;
+        let mut st = self.c.prepare_cached(
+            "SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t",
+        )?;
+        let ends: Vec<Time> = st
+            .query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?
+            .collect::<rusqlite::Result<_>>()?;
         let mut v = Vec::new();
         for end in ends {
             if let Some(p) = self.valid_before(circuit_id, end)? {
@@ -111,7 +146,9 @@ impl Db<'_> {
 
     /// Readings inside an outage that showed current, after `since`.
     pub fn live_readings_in_outages(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<(Time, f64)>> {
-        let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND valid = 0 AND amps > 0 AND t > ?2 AND t <= ?3 ORDER BY t")?;
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps FROM reading WHERE circuit_id = ?1 AND valid = 0 AND amps > 0 AND t > ?2 AND t <= ?3 ORDER BY t",
+        )?;
         let v = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -147,7 +184,10 @@ impl Db<'_> {
     }
 
     pub fn record_import(&self, source: &str, at: Time, added: usize, skipped: usize) -> Result<()> {
-        self.c.execute("INSERT INTO import_batch(imported_at, source, added, skipped) VALUES (?1, ?2, ?3, ?4)", params![secs(at), source, added as i64, skipped as i64])?;
+        self.c.execute(
+            "INSERT INTO import_batch(imported_at, source, added, skipped) VALUES (?1, ?2, ?3, ?4)",
+            params![secs(at), source, added as i64, skipped as i64],
+        )?;
         Ok(())
     }
 }
@@ -177,7 +217,9 @@ impl<'c> StoreCurve<'c> {
         };
         if let Some(p) = last {
             let a = p.t - MEAN_WINDOW;
-            let first = db.first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?.map_or(a, |f| f.t);
+            let first = db
+                .first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?
+                .map_or(a, |f| f.t);
             let a = a.max(first);
             let cum_a = curve.cum_at(a)?.measured;
             let mean = mean_in_service_amps(a, cum_a, p.t, p.cum_ah, &curve.outages);
@@ -200,7 +242,9 @@ impl<'c> StoreCurve<'c> {
         if t >= last.t {
             return Ok(Around::AfterLast(last));
         }
-        let Some(p0) = self.db.last_valid(self.circuit_id, t)? else { return Ok(Around::BeforeFirst) };
+        let Some(p0) = self.db.last_valid(self.circuit_id, t)? else {
+            return Ok(Around::BeforeFirst);
+        };
         match self.db.first_valid_after(self.circuit_id, p0.t, self.as_of)? {
             Some(p1) => Ok(Around::Between(p0, p1)),
             None => Ok(Around::AfterLast(p0)),

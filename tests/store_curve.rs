@@ -1,0 +1,62 @@
+//! The store's curve (two look-ups per instant) must agree with the in-memory
+//! curve built from the same readings and outages, for any readings.
+
+use chrono::{DateTime, Duration, Utc};
+use proptest::prelude::*;
+use tankbook::domain::charge::{Curve, MemoryCurve, RawReading, Span};
+use tankbook::domain::entry::Entry;
+use tankbook::plant::{Opts, Plant};
+use tankbook::store::{Store, StoreCurve};
+
+fn t0() -> DateTime<Utc> {
+    DateTime::parse_from_rfc3339("2026-03-01T00:00:00Z").unwrap().to_utc()
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(24))]
+    #[test]
+    fn store_curve_matches_memory_curve(
+        amps in proptest::collection::vec(0.0f64..45_000.0, 2..40),
+        steps in proptest::collection::vec(1i64..240, 40),
+        outs in proptest::collection::vec((0i64..4000, 10i64..600), 0..3),
+        probes in proptest::collection::vec(0i64..6000, 1..12),
+        as_of_min in 0i64..6000,
+    ) {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("p.db");
+        let mut plant = Plant::open(&path).unwrap();
+        let layout = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/fixtures/plant_check.toml")).unwrap();
+        plant.load_layout(&layout, "plant_check.toml", t0()).unwrap();
+        let mut m = 0;
+        let readings: Vec<RawReading> = amps.iter().zip(&steps).map(|(a, s)| { m += s; RawReading { t: t0() + Duration::minutes(m), amps: a.round() } }).collect();
+        let mut csv = String::from("time,circuit,amps\n");
+        for r in &readings {
+            csv.push_str(&format!("{},C1,{}\n", r.t.to_rfc3339(), r.amps));
+        }
+        plant.import_current(csv.as_bytes(), "p.csv", t0()).unwrap();
+        let opts = Opts { by: "PT".into(), force: true, now: t0() };
+        let mut spans = Vec::new();
+        for (from, len) in &outs {
+            let (from, to) = (t0() + Duration::minutes(*from), t0() + Duration::minutes(from + len));
+            plant.record(&Entry::Outage { circuit: "C1".into(), from, to }, &opts).unwrap();
+            spans.push(Span { from, to });
+        }
+        drop(plant);
+        let as_of = t0() + Duration::minutes(as_of_min);
+        let mem = MemoryCurve::build(&readings, &spans, &[], as_of);
+        let store = Store::open(&path).unwrap();
+        let db = store.db();
+        let cid = db.circuit("C1").unwrap().unwrap().id;
+        let sc = StoreCurve::new(db, cid, as_of).unwrap();
+        for p in &probes {
+            let t = t0() + Duration::minutes(*p);
+            let (a, b) = (mem.cum_at(t).unwrap(), sc.cum_at(t).unwrap());
+            prop_assert!((a.measured - b.measured).abs() < 1e-6 * a.measured.max(1.0), "measured at {p}: {a:?} vs {b:?}");
+            prop_assert!((a.estimated - b.estimated).abs() < 1e-6 * a.estimated.max(1.0), "estimated at {p}: {a:?} vs {b:?}");
+            let target = a.total();
+            if target > 0.0 {
+                prop_assert_eq!(mem.time_at(target).unwrap(), sc.time_at(target).unwrap());
+            }
+        }
+    }
+}
