@@ -3,6 +3,7 @@
 #![forbid(unsafe_code)]
 
 pub mod cli;
+pub mod demo;
 pub mod domain;
 pub mod plant;
 pub mod store;

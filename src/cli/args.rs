@@ -38,6 +38,24 @@ pub enum Command {
     Check(CheckArgs),
     /// Copy the database safely while it is in use
     Backup(BackupArgs),
+    /// Write the invented demo plant (to its own database unless --db is given) and show it
+    Demo(DemoArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Only write the demo database; do not open the screens
+    #[arg(long)]
+    pub no_tui: bool,
+    /// Cells in the plant (refining and liberator)
+    #[arg(long, default_value_t = 102, value_parser = clap::value_parser!(u32).range(8..=20_000))]
+    pub cells: u32,
+    /// Days of history, ending now (or at TANKBOOK_NOW)
+    #[arg(long, default_value_t = 60, value_parser = clap::value_parser!(u32).range(21..=1_100))]
+    pub days: u32,
+    /// Seed of the generator: the same seed and clock give the same plant
+    #[arg(long, default_value_t = 7)]
+    pub seed: u64,
 }
 
 #[derive(Debug, Subcommand)]

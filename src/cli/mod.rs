@@ -17,6 +17,7 @@ use crate::domain::charge::Time;
 use crate::domain::entry::Entry;
 use crate::plant::{Opts, Plant};
 
+
 /// The clock: `TANKBOOK_NOW` (RFC 3339) when set, for demos and tests; else the system clock.
 pub fn now() -> Result<Time> {
     match std::env::var("TANKBOOK_NOW") {
@@ -62,6 +63,9 @@ fn open(db: &Option<PathBuf>) -> Result<Plant> {
 
 pub fn run(cli: Cli) -> Result<()> {
     let now = now()?;
+    if let Some(Command::Demo(a)) = &cli.command {
+        return demo(&cli.db, a, now);
+    }
     let Some(command) = cli.command else {
         let plant = open(&cli.db)?;
         return print::summary(&plant, now);
@@ -160,12 +164,50 @@ pub fn run(cli: Cli) -> Result<()> {
                 println!("ok: {}", plant.path().display());
             }
         }
+        Command::Demo(_) => unreachable!("handled above"),
         Command::Backup(a) => {
             plant.backup(&a.dest)?;
             println!("backed up {} to {} (integrity checked)", plant.path().display(), a.dest.display());
         }
     }
     Ok(())
+}
+
+/// `tankbook demo`: (re)writes the demo database, then shows it.
+fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
+    let path = match db {
+        Some(p) => p.clone(),
+        None => default_db()?.with_file_name("demo.db"),
+    };
+    if path.exists() {
+        let existing = Plant::open(&path).with_context(|| format!("opening {}", path.display()))?;
+        crate::demo::check_target(&existing)?;
+        drop(existing);
+        eprintln!("replacing the demo database at {}", path.display());
+        for suffix in ["", "-wal", "-shm"] {
+            let f = PathBuf::from(format!("{}{suffix}", path.display()));
+            if f.exists() {
+                std::fs::remove_file(&f).with_context(|| format!("removing {}", f.display()))?;
+            }
+        }
+    }
+    let mut plant = Plant::open(&path).with_context(|| format!("creating {}", path.display()))?;
+    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed };
+    let s = crate::demo::build(&mut plant, &spec, now)?;
+    eprintln!(
+        "wrote the demo plant to {}: {} circuits, {} cells, {} readings and {} entries from {} to {}",
+        path.display(),
+        s.circuits,
+        s.cells,
+        s.readings,
+        s.entries,
+        plant.show_time(s.from),
+        plant.show_time(s.to)
+    );
+    if a.no_tui {
+        return Ok(());
+    }
+    print::summary(&plant, now)
 }
 
 fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {

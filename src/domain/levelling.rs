@@ -301,7 +301,7 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
         let units = cumulative_units(&cum, per, items.len());
         let options: Vec<Vec<(usize, i128)>> = items.iter().map(Item::options).collect();
         (
-            flow_assign(&options, &cap.crew, units.as_deref(), true)?,
+            flow_assign(&options, &cap.crew, units.as_deref(), None, true)?,
             true,
         )
     } else {
@@ -503,6 +503,8 @@ struct Item {
     anodes: u128,
     /// Smallest member anode count (for the relaxation).
     min_member_anodes: u128,
+    /// Each member's anodes.
+    member_anodes: Vec<u128>,
     /// Days it may use (inside the common window, crew >= size), increasing.
     days: Vec<usize>,
     /// Its cost on each of `days`.
@@ -610,6 +612,7 @@ fn build_items(
             .unwrap_or(0);
         items.push(Item {
             ranks: members.iter().map(|&i| rank[i]).collect(),
+            member_anodes: members.iter().map(|&i| u128::from(tasks[i].anodes)).collect(),
             members,
             size,
             anodes,
@@ -745,12 +748,14 @@ impl Graph {
 
 /// Assigns each task (given in cell-id order) to one of its `(day, cost)`
 /// options or to nothing, minimising (unplaced, cost), with at most
-/// `crew[d]` tasks on day `d` and at most `cum_units[d]` tasks on days
-/// `0..=d`. With `lexmin`, ties go to the smallest days in task order.
+/// `crew[d]` tasks on day `d`, at most `cum_units[d]` tasks on days `0..=d`
+/// and at most `limit` tasks in all. With `lexmin`, ties go to the smallest
+/// days in task order.
 fn flow_assign(
     options: &[Vec<(usize, i128)>],
     crew: &[u32],
     cum_units: Option<&[u64]>,
+    limit: Option<usize>,
     lexmin: bool,
 ) -> Result<Vec<Option<usize>>, LevelError> {
     let m = options.len();
@@ -762,8 +767,12 @@ fn flow_assign(
     let task_node = |i: usize| 2 + i;
     let day_node = |d: usize| 2 + m + d;
     let supply_node = |d: usize| 2 + m + h + d;
+    // Every placed task passes this node, which caps how many are placed.
+    let placed = 2 + m + 2 * h;
     let all = i64::try_from(m).map_err(|_| LevelError::TooLarge)?;
-    let mut g = Graph::new(2 + m + 2 * h);
+    let mut g = Graph::new(3 + m + 2 * h);
+    let most = limit.map_or(all, |l| i64::try_from(l).unwrap_or(all).min(all));
+    g.add(placed, sink, most, Cost::ZERO);
 
     let mut task_arcs: Vec<Vec<(usize, usize)>> = Vec::with_capacity(m);
     let mut drop_arc = Vec::with_capacity(m);
@@ -789,7 +798,7 @@ fn flow_assign(
     match cum_units {
         None => {
             if h > 0 {
-                g.add(supply_node(0), sink, all, Cost::ZERO);
+                g.add(supply_node(0), placed, all, Cost::ZERO);
             }
         }
         Some(units) => {
@@ -805,7 +814,7 @@ fn flow_assign(
                 let fresh = u.saturating_sub(before);
                 if fresh > 0 {
                     let cap = i64::try_from(fresh).map_err(|_| LevelError::TooLarge)?;
-                    g.add(supply_node(d), sink, cap, Cost::ZERO);
+                    g.add(supply_node(d), placed, cap, Cost::ZERO);
                 }
                 before = before.max(u);
             }
@@ -1021,7 +1030,7 @@ fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize
         .min()
         .unwrap_or(0);
     let units = cumulative_units(cum, smallest, options.len());
-    let relaxed = flow_assign(&options, crew, units.as_deref(), false)?;
+    let relaxed = flow_assign(&options, crew, units.as_deref(), None, false)?;
 
     // Single cells keep their relaxed day unless their day overdraws the
     // cumulative supply; groups are always re-inserted whole.
@@ -1206,9 +1215,10 @@ impl Search<'_> {
             .unwrap_or(Cost::dropped(it.size))
     }
 
-    /// Optimum of the remaining units `k..` relaxed as in the repair (groups
-    /// split into cells sharing the remaining crew, anodes counted in the
-    /// smallest anode count), solved exactly by min-cost flow with the
+    /// Optimum of the remaining units `k..` relaxed (groups split into cells
+    /// sharing the remaining crew, anodes counted in the smallest anode
+    /// count, and no more cells placed than [`most_placeable`] allows by the
+    /// real anode counts), solved exactly by min-cost flow with the
     /// lexicographic tie-break. Every real completion is feasible for it, so
     /// its value is a lower bound; when its plan keeps groups together and
     /// respects the real anodes, it is the subtree's first optimal leaf.
@@ -1248,7 +1258,8 @@ impl Search<'_> {
             .iter()
             .map(|&c| u32::try_from(c).unwrap_or(u32::MAX))
             .collect();
-        let days = flow_assign(&options, &crew, units.as_deref(), true)?;
+        let limit = most_placeable(&cells, &options, rest, suffix_min);
+        let days = flow_assign(&options, &crew, units.as_deref(), Some(limit), true)?;
 
         let mut value = Cost::ZERO;
         let mut unit_day: Vec<Option<Option<usize>>> = vec![None; rest.len()];
@@ -1353,6 +1364,43 @@ impl Search<'_> {
         }
         Ok(())
     }
+}
+
+/// Upper bound on how many of `cells` can still be placed, by anodes alone:
+/// each cell is moved to its latest usable day (which only loosens the
+/// cumulative supply limits), and the most cells that then meet every
+/// cumulative limit are found by Moore-Hodgson (take cells by deadline,
+/// dropping the largest consumer whenever a limit is overrun).
+fn most_placeable(
+    cells: &[(usize, usize, usize)],
+    options: &[Vec<(usize, i128)>],
+    rest: &[Item],
+    suffix_min: &[u128],
+) -> usize {
+    let mut jobs: Vec<(usize, u128)> = cells
+        .iter()
+        .zip(options)
+        .filter_map(|(&(_, j, m), opts)| {
+            let last = opts.last()?.0;
+            let anodes = rest.get(j)?.member_anodes.get(m).copied()?;
+            Some((last, anodes))
+        })
+        .collect();
+    jobs.sort_unstable();
+    let mut taken = std::collections::BinaryHeap::new();
+    let mut total = 0u128;
+    for (deadline, anodes) in jobs {
+        taken.push(anodes);
+        total = total.saturating_add(anodes);
+        let limit = suffix_min.get(deadline).copied().unwrap_or(0);
+        while total > limit {
+            match taken.pop() {
+                Some(a) => total = total.saturating_sub(a),
+                None => break,
+            }
+        }
+    }
+    taken.len()
 }
 
 /// Best plan and whether the search completed (so the plan is optimal).

@@ -33,20 +33,27 @@ impl Plant {
     /// one change nothing.
     pub fn record(&mut self, entry: &Entry, opts: &Opts) -> Result<Recorded> {
         let by = initials(&opts.by)?;
+        self.store.write(|db| record_in(db, entry, &by, opts))
+    }
+
+    /// Records many entries in one transaction, in order: all go in, or none
+    /// (the first refused entry is reported with its position).
+    pub fn record_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
         self.store.write(|db| {
-            let questions = match entry.cell() {
-                Some(cell) => check_for_cell(db, entry, cell)?,
-                None => check_for_circuit(db, entry)?,
-            };
-            if !questions.is_empty() && !opts.force {
-                return Err(PlantError::Questioned(questions));
+            let mut out = Vec::with_capacity(entries.len());
+            for (i, (entry, opts)) in entries.iter().enumerate() {
+                let by = initials(&opts.by)?;
+                let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
+                out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
+                    PlantError::Rejected { field, message } => PlantError::Rejected { field, message: format!("{place}: {message}") },
+                    PlantError::Questioned(mut q) => {
+                        q.insert(0, place);
+                        PlantError::Questioned(q)
+                    }
+                    e => e,
+                })?);
             }
-            let event = db.append_event(&new_event(db, entry, &by, !questions.is_empty(), opts.now)?)?;
-            apply(db, entry)?;
-            Ok(Recorded {
-                event,
-                forced_past: questions,
-            })
+            Ok(out)
         })
     }
 
@@ -117,6 +124,19 @@ impl Plant {
     pub fn recent_events(&self, cell: Option<&str>, limit: usize) -> Result<Vec<Event>> {
         Ok(self.store.db().recent_events(cell, limit)?)
     }
+}
+
+fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorded> {
+    let questions = match entry.cell() {
+        Some(cell) => check_for_cell(db, entry, cell)?,
+        None => check_for_circuit(db, entry)?,
+    };
+    if !questions.is_empty() && !opts.force {
+        return Err(PlantError::Questioned(questions));
+    }
+    let event = db.append_event(&new_event(db, entry, by, !questions.is_empty(), opts.now)?)?;
+    apply(db, entry)?;
+    Ok(Recorded { event, forced_past: questions })
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
@@ -222,6 +242,10 @@ fn new_event(db: Db<'_>, entry: &Entry, by: &str, forced: bool, now: Time) -> Re
 
 /// What an entry changes beyond the event itself.
 fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
+    if let Entry::Voltage { .. } | Entry::Shorts { .. } = entry {
+        // replay derives nothing from them: nothing to rebuild
+        return Ok(());
+    }
     if let Some(cell) = entry.cell() {
         return rebuild_cell(db, cell);
     }
