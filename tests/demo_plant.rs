@@ -1,0 +1,109 @@
+//! The demo plant: deterministic under a fixed clock, and plausible against
+//! the trade's typical figures (common practice, no source; DOMAIN.md, from memory).
+
+mod common;
+use common::*;
+
+const NOW: &str = "2026-11-20T05:30:00Z";
+
+fn demo(args: &[&str]) -> Tk {
+    let tk = Tk::new(NOW);
+    let mut a = vec!["demo", "--no-tui"];
+    a.extend_from_slice(args);
+    tk.ok(&a);
+    tk
+}
+
+#[test]
+fn same_clock_same_plant() {
+    let a = demo(&["--cells", "30", "--days", "25"]);
+    let b = demo(&["--cells", "30", "--days", "25"]);
+    let fa = a.json(&["forecast", "--json"]);
+    assert_eq!(fa, b.json(&["forecast", "--json"]));
+    assert_eq!(fa["as_of"], NOW);
+    let c = demo(&["--cells", "30", "--days", "25", "--seed", "8"]);
+    assert_ne!(fa, c.json(&["forecast", "--json"]), "another seed gives another plant");
+}
+
+#[test]
+fn demo_is_plausible_against_the_trade() {
+    let tk = demo(&[]);
+    let f = tk.json(&["forecast", "--json"]);
+    let cells = f["cells"].as_array().unwrap();
+    assert!(cells.len() >= 80, "{}", cells.len());
+    let refining: Vec<&serde_json::Value> = cells.iter().filter(|c| c["anode_kind"] == "soluble").collect();
+    let sections: std::collections::BTreeSet<&str> = refining.iter().map(|c| c["section"].as_str().unwrap()).collect();
+    assert!(sections.len() >= 4, "{sections:?}");
+    assert!(cells.iter().any(|c| c["anode_kind"] == "inert"), "a liberator section");
+    let circuits: std::collections::BTreeSet<&str> = cells.iter().map(|c| c["circuit"].as_str().unwrap()).collect();
+    assert!(circuits.len() >= 2);
+
+    // Anode life 18–24 days (common practice, no source): set to predicted pull.
+    for c in &refining {
+        if let Some(due) = c["anode"]["pull_due"].as_str() {
+            let days = hours_between(c["anode"]["set_at"].as_str().unwrap(), due) / 24.0;
+            assert!((18.0..=24.0).contains(&days), "{} anode life {days:.1} d", c["cell"]);
+        }
+    }
+
+    // Plant current efficiency 93–98 % (common practice, no source): mean of the measured crops.
+    let effs: Vec<f64> = refining.iter().filter_map(|c| c["last_crop_efficiency"].as_f64()).collect();
+    let mean = effs.iter().sum::<f64>() / effs.len() as f64;
+    assert!((0.93..=0.98).contains(&mean), "plant efficiency {mean}");
+
+    // The shorted cells are flagged: every cell with shorts piling up this crop reads low.
+    let flagged: Vec<&str> =
+        refining.iter().filter(|c| c["warnings"].as_array().unwrap().iter().any(|w| w["code"] == "low_efficiency")).map(|c| c["cell"].as_str().unwrap()).collect();
+    assert!(!flagged.is_empty() && flagged.len() <= refining.len() / 10, "{flagged:?}");
+    for c in &refining {
+        if c["shorts"].as_u64().unwrap_or(0) >= 6 {
+            assert!(flagged.contains(&c["cell"].as_str().unwrap()), "{} has {} shorts but no flag", c["cell"], c["shorts"]);
+        }
+    }
+
+    // Current density 250–340 A/m² (common practice, no source): mean circuit current over the
+    // cathode faces (2 × anodes × face area), each circuit.
+    let conn = rusqlite::Connection::open(&tk.db).unwrap();
+    let mut st = conn
+        .prepare(
+            "SELECT c.name, avg(r.amps), (SELECT params FROM cell_params p JOIN cell ON cell.id = p.cell_id JOIN section s ON s.id = cell.section_id
+              WHERE s.circuit_id = c.id AND p.params LIKE '%soluble%' LIMIT 1)
+             FROM reading r JOIN circuit c ON c.id = r.circuit_id WHERE r.valid = 1 AND r.amps > 0 GROUP BY c.id",
+        )
+        .unwrap();
+    let rows: Vec<(String, f64, String)> = st.query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?))).unwrap().map(Result::unwrap).collect();
+    assert!(rows.len() >= 2);
+    for (name, amps, params) in rows {
+        let p: serde_json::Value = serde_json::from_str(&params).unwrap();
+        let area = 2.0 * p["anodes_per_cell"].as_f64().unwrap() * p["face_area_m2"].as_f64().unwrap();
+        let cd = amps / area;
+        assert!((250.0..=340.0).contains(&cd), "{name}: {cd:.0} A/m²");
+    }
+
+    // A live-looking plant: cut-outs, crops at many ages, an outage and a gap in the log, and no data faults.
+    assert!(cells.iter().any(|c| c["in_circuit"] == false));
+    let fractions: Vec<f64> = refining.iter().filter_map(|c| c["anode"]["remaining_fraction"].as_f64()).collect();
+    assert!(fractions.iter().any(|f| *f > 0.8) && fractions.iter().any(|f| *f < 0.3));
+    assert!(f["warnings"].as_array().unwrap().iter().any(|w| w["code"] == "reading_gap"));
+    let ev = tk.json(&["events", "--limit", "5000", "--json"]);
+    let by: std::collections::BTreeSet<&str> = ev["events"].as_array().unwrap().iter().map(|e| e["by"].as_str().unwrap()).collect();
+    assert!(by.len() >= 3, "{by:?}");
+    assert!(tk.ok(&["check"]).contains("ok:"));
+}
+
+#[test]
+fn demo_refuses_a_real_plant_database() {
+    let tk = Tk::with_layout(NOW, "plant_check.toml");
+    let before = tk.dump();
+    let err = tk.fails(1, &["demo", "--no-tui"]);
+    assert!(err.contains("holds the plant 'Plant check'"), "{err}");
+    assert_eq!(before, tk.dump());
+}
+
+#[test]
+fn demo_again_replaces_the_demo_database() {
+    let tk = demo(&["--cells", "20", "--days", "21"]);
+    let out = tk.cmd().args(["demo", "--no-tui", "--cells", "20", "--days", "21"]).output().unwrap();
+    assert!(out.status.success());
+    assert!(String::from_utf8_lossy(&out.stderr).contains("replacing the demo database"));
+}
