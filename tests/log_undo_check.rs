@@ -183,3 +183,40 @@ fn a_layout_update_applies_from_its_load_time() {
     let before = tk.json(&["forecast", "--cell", "A01", "--at", "2026-03-02T01:00:00Z", "--json"]);
     assert_eq!(before["cells"][0]["cathode_efficiency"].as_f64(), Some(0.96));
 }
+
+#[test]
+fn a_late_cutout_inside_a_harvested_crop_changes_its_efficiency() {
+    let tk = plant();
+    tk.ok(&[
+        "log",
+        "harvest",
+        "--cell",
+        "A01",
+        "--at",
+        "2026-03-01T12:00:00Z",
+        "--total-kg",
+        "400",
+        "--force",
+    ]);
+    let eff = |tk: &Tk| {
+        tk.json(&["forecast", "--cell", "A01", "--json"])["cells"][0]["last_crop_efficiency"]
+            .as_f64()
+            .unwrap()
+    };
+    // by hand: 12 h at 30 kA = 360 000 A·h → 426.8 kg at 100 % (ECE 1.18549 g/(A·h), CODATA/IUPAC)
+    let before = eff(&tk);
+    assert!((before - 400.0 / (1.185_486e-3 * 360_000.0)).abs() < 1e-4, "{before}");
+    tk.ok(&[
+        "log",
+        "cutout",
+        "--cell",
+        "A01",
+        "--from",
+        "2026-03-01T03:00:00Z",
+        "--to",
+        "2026-03-01T05:00:00Z",
+    ]);
+    let after = eff(&tk);
+    assert!((after - 400.0 / (1.185_486e-3 * 300_000.0)).abs() < 1e-4, "{after}");
+    assert!(tk.ok(&["check"]).contains("ok:"));
+}

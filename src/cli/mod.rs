@@ -17,7 +17,6 @@ use crate::domain::charge::Time;
 use crate::domain::entry::Entry;
 use crate::plant::{Opts, Plant};
 
-
 /// The clock: `TANKBOOK_NOW` (RFC 3339) when set, for demos and tests; else the system clock.
 pub fn now() -> Result<Time> {
     match std::env::var("TANKBOOK_NOW") {
@@ -192,7 +191,11 @@ fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
         }
     }
     let mut plant = Plant::open(&path).with_context(|| format!("creating {}", path.display()))?;
-    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed };
+    let spec = crate::demo::DemoSpec {
+        cells: a.cells as usize,
+        days: a.days,
+        seed: a.seed,
+    };
     let s = crate::demo::build(&mut plant, &spec, now)?;
     eprintln!(
         "wrote the demo plant to {}: {} circuits, {} cells, {} readings and {} entries from {} to {}",

@@ -1,7 +1,7 @@
 //! Exact levelling of anode changes over production days: min-cost flow
 //! when each change takes one crew slot, with the guarantee stated below otherwise.
 
-use std::cmp::Reverse;
+use std::cmp::{Ordering, Reverse};
 use std::collections::{BTreeMap, VecDeque};
 use std::fmt;
 use std::ops::{Add, Neg, Sub};
@@ -501,8 +501,6 @@ struct Item {
     size: u64,
     /// Anodes it consumes (sum over members).
     anodes: u128,
-    /// Smallest member anode count (for the relaxation).
-    min_member_anodes: u128,
     /// Each member's anodes.
     member_anodes: Vec<u128>,
     /// Days it may use (inside the common window, crew >= size), increasing.
@@ -605,18 +603,12 @@ fn build_items(
             .checked_add(worst)
             .ok_or(LevelError::TooLarge)?;
         let anodes = members.iter().map(|&i| u128::from(tasks[i].anodes)).sum();
-        let min_member_anodes = members
-            .iter()
-            .map(|&i| u128::from(tasks[i].anodes))
-            .min()
-            .unwrap_or(0);
         items.push(Item {
             ranks: members.iter().map(|&i| rank[i]).collect(),
             member_anodes: members.iter().map(|&i| u128::from(tasks[i].anodes)).collect(),
             members,
             size,
             anodes,
-            min_member_anodes,
             days,
             costs,
             member_costs,
@@ -656,6 +648,34 @@ fn cumulative_units(cum: &[u128], per: u128, m: usize) -> Option<Vec<u64>> {
             .map(|&c| (c / per).min(m as u128) as u64)
             .collect(),
     )
+}
+
+/// For cells given as (first usable day, anodes) and the anodes `cap[d]`
+/// that days `0..=d` may still take (non-decreasing), how many cells can be
+/// changed on days `0..=d` at most: only cells usable by day d count, and
+/// taking the smallest consumers first gives the most.
+fn count_limits(cells: &[(usize, u128)], cap: &[u128]) -> Vec<u64> {
+    let mut by_day = cells.to_vec();
+    by_day.sort_unstable();
+    let mut eligible: Vec<u128> = Vec::with_capacity(by_day.len());
+    let mut next = by_day.iter().peekable();
+    cap.iter()
+        .enumerate()
+        .map(|(d, &limit)| {
+            while let Some(&(_, a)) = next.next_if(|&&(first, _)| first <= d) {
+                let at = eligible.partition_point(|&x| x <= a);
+                eligible.insert(at, a);
+            }
+            let mut total = 0u128;
+            eligible
+                .iter()
+                .take_while(|&&a| {
+                    total = total.saturating_add(a);
+                    total <= limit
+                })
+                .count() as u64
+        })
+        .collect()
 }
 
 // ---------------------------------------------------------------------------
@@ -1024,13 +1044,13 @@ fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize
             owner.push(k);
         }
     }
-    let smallest = items
+    let cells: Vec<(usize, u128)> = items
         .iter()
-        .map(|it| it.min_member_anodes)
-        .min()
-        .unwrap_or(0);
-    let units = cumulative_units(cum, smallest, options.len());
-    let relaxed = flow_assign(&options, crew, units.as_deref(), None, false)?;
+        .filter_map(|it| Some((*it.days.first()?, it)))
+        .flat_map(|(first, it)| it.member_anodes.iter().map(move |&a| (first, a)))
+        .collect();
+    let units = count_limits(&cells, cum);
+    let relaxed = flow_assign(&options, crew, Some(&units), None, false)?;
 
     // Single cells keep their relaxed day unless their day overdraws the
     // cumulative supply; groups are always re-inserted whole.
@@ -1172,16 +1192,32 @@ fn eject_for(items: &[Item], assign: &mut [Option<usize>], load: &mut Load, k: u
 
 struct Search<'a> {
     items: &'a [Item],
+    /// Order in which units are decided.
+    order: Vec<usize>,
+    /// Whether each unit's entry in `current` is decided (None = unplaced).
+    decided: Vec<bool>,
     load: Load,
     current: Vec<Option<usize>>,
     best: Vec<Option<usize>>,
     best_value: Cost,
-    /// Whether `best` was found by the search itself. Until then a plan of
-    /// equal value must still be taken, since the seed may not be the
-    /// lexicographically smallest optimum.
-    best_found: bool,
     nodes: u64,
     aborted: bool,
+}
+
+/// What a flow relaxation tells the search about a node.
+struct Relaxation {
+    /// Lower bound on the value of the undecided units.
+    bound: Cost,
+    /// Day the relaxation gives the unit about to be decided.
+    hint: Option<Option<usize>>,
+    /// The best completion, when the relaxed plan is feasible as it is.
+    solved: Option<Vec<Option<usize>>>,
+}
+
+/// Lexicographic order of plans: days compare as numbers, unplaced last.
+fn lex_cmp(a: &[Option<usize>], b: &[Option<usize>]) -> Ordering {
+    let key = |o: &Option<usize>| o.map_or(usize::MAX, |d| d);
+    a.iter().map(key).cmp(b.iter().map(key))
 }
 
 /// Suffix minimum of the cumulative slack: the anodes a unit placed on day
@@ -1195,8 +1231,26 @@ fn suffix_min(slack: &[u128]) -> Vec<u128> {
 }
 
 impl Search<'_> {
+    /// Whether nothing below the current node can beat the incumbent: a
+    /// worse bound, or an equal one while the decided units already make
+    /// every plan below lexicographically larger than the incumbent.
     fn prunes(&self, bound: Cost) -> bool {
-        bound > self.best_value || (bound == self.best_value && self.best_found)
+        if bound != self.best_value {
+            return bound > self.best_value;
+        }
+        let key = |o: Option<usize>| o.map_or(usize::MAX, |d| d);
+        for ((&cur, &best), &fixed) in self.current.iter().zip(&self.best).zip(&self.decided) {
+            if !fixed {
+                return false;
+            }
+            match key(cur).cmp(&key(best)) {
+                Ordering::Less => return false,
+                Ordering::Greater => return true,
+                Ordering::Equal => {}
+            }
+        }
+        // Identical to the incumbent: nothing new below.
+        true
     }
 
     fn fits_fast(&self, d: usize, it: &Item, suffix_min: &[u128]) -> bool {
@@ -1215,29 +1269,36 @@ impl Search<'_> {
             .unwrap_or(Cost::dropped(it.size))
     }
 
-    /// Optimum of the remaining units `k..` relaxed (groups split into cells
-    /// sharing the remaining crew, anodes counted in the smallest anode
-    /// count, and no more cells placed than [`most_placeable`] allows by the
-    /// real anode counts), solved exactly by min-cost flow with the
+    /// Optimum of the undecided units `open` relaxed (groups split into cells
+    /// sharing the remaining crew; anodes only as limits on how many cells
+    /// fit through each day, from [`count_limits`] and [`most_placeable`]),
+    /// solved exactly by min-cost flow with the
     /// lexicographic tie-break. Every real completion is feasible for it, so
     /// its value is a lower bound; when its plan keeps groups together and
-    /// respects the real anodes, it is the subtree's first optimal leaf.
+    /// respects the real anodes, it is the best completion, tie-break
+    /// included, and is returned (one day per unit of `open`).
     fn relaxed(
         &self,
-        k: usize,
+        open: &[usize],
         suffix_min: &[u128],
-    ) -> Result<(Cost, Option<Vec<Option<usize>>>), LevelError> {
-        let rest = self.items.get(k..).unwrap_or(&[]);
-        let mut cells: Vec<(usize, usize, usize)> = rest
+    ) -> Result<Relaxation, LevelError> {
+        let items = self.items;
+        let mut cells: Vec<(usize, usize, usize)> = open
             .iter()
             .enumerate()
-            .flat_map(|(j, it)| it.ranks.iter().enumerate().map(move |(m, &r)| (r, j, m)))
+            .flat_map(|(o, &j)| {
+                items[j]
+                    .ranks
+                    .iter()
+                    .enumerate()
+                    .map(move |(m, &r)| (r, o, m))
+            })
             .collect();
         cells.sort_unstable();
         let options: Vec<Vec<(usize, i128)>> = cells
             .iter()
-            .map(|&(_, j, m)| {
-                let it = &rest[j];
+            .map(|&(_, o, m)| {
+                let it = &items[open[o]];
                 it.days
                     .iter()
                     .zip(&it.member_costs[m])
@@ -1246,26 +1307,28 @@ impl Search<'_> {
                     .collect()
             })
             .collect();
-        let smallest = rest
+        let firsts: Vec<(usize, u128)> = cells
             .iter()
-            .map(|it| it.min_member_anodes)
-            .min()
-            .unwrap_or(0);
-        let units = cumulative_units(&self.load.slack, smallest, cells.len());
+            .zip(&options)
+            .filter_map(|(&(_, o, m), opts)| {
+                Some((opts.first()?.0, *items[open[o]].member_anodes.get(m)?))
+            })
+            .collect();
+        let units = count_limits(&firsts, suffix_min);
         let crew: Vec<u32> = self
             .load
             .crew_left
             .iter()
             .map(|&c| u32::try_from(c).unwrap_or(u32::MAX))
             .collect();
-        let limit = most_placeable(&cells, &options, rest, suffix_min);
-        let days = flow_assign(&options, &crew, units.as_deref(), Some(limit), true)?;
+        let limit = most_placeable(&cells, &options, items, open, suffix_min);
+        let days = flow_assign(&options, &crew, Some(&units), Some(limit), true)?;
 
         let mut value = Cost::ZERO;
-        let mut unit_day: Vec<Option<Option<usize>>> = vec![None; rest.len()];
+        let mut unit_day: Vec<Option<Option<usize>>> = vec![None; open.len()];
         let mut together = true;
-        for (&(_, j, m), day) in cells.iter().zip(&days) {
-            let it = &rest[j];
+        for (&(_, o, m), day) in cells.iter().zip(&days) {
+            let it = &items[open[o]];
             value = value
                 + match day {
                     Some(d) => Cost::placed(
@@ -1276,92 +1339,118 @@ impl Search<'_> {
                     ),
                     None => Cost::dropped(1),
                 };
-            match unit_day[j] {
-                None => unit_day[j] = Some(*day),
+            match unit_day[o] {
+                None => unit_day[o] = Some(*day),
                 Some(other) => together &= other == *day,
             }
         }
-        if !together {
-            return Ok((value, None));
-        }
         let plan: Vec<Option<usize>> = unit_day.into_iter().map(Option::flatten).collect();
+        let mut out = Relaxation {
+            bound: value,
+            hint: plan.first().copied(),
+            solved: None,
+        };
+        if !together {
+            return Ok(out);
+        }
         let mut load = self.load.clone();
-        for (it, d) in rest.iter().zip(&plan) {
+        for (&j, d) in open.iter().zip(&plan) {
             if let Some(d) = *d {
-                if !load.fits(d, it) {
-                    return Ok((value, None));
+                if !load.fits(d, &items[j]) {
+                    return Ok(out);
                 }
-                load.place(d, it);
+                load.place(d, &items[j]);
             }
         }
-        Ok((value, Some(plan)))
+        out.solved = Some(plan);
+        Ok(out)
     }
 
     fn offer(&mut self, value: Cost) {
-        if value < self.best_value || (value == self.best_value && !self.best_found) {
+        if value < self.best_value
+            || (value == self.best_value && lex_cmp(&self.current, &self.best) == Ordering::Less)
+        {
             self.best.clone_from(&self.current);
             self.best_value = value;
-            self.best_found = true;
         }
     }
 
-    /// Units in cell-id order, days increasing then unplaced: leaves come in
-    /// lexicographic order, so the first optimum met is the tie-break winner.
-    fn run(&mut self, k: usize, value: Cost) -> Result<(), LevelError> {
+    /// Decides `order[pos]`: its cheapest days first (good plans early prune
+    /// more), unplaced last. Ties with the incumbent are settled by comparing
+    /// plans, so the order of exploration does not affect the result.
+    fn run(&mut self, pos: usize, value: Cost) -> Result<(), LevelError> {
         self.nodes += 1;
         if self.nodes > EXACT_SEARCH_NODE_LIMIT {
             self.aborted = true;
             return Ok(());
         }
         let items = self.items;
-        let Some(it) = items.get(k) else {
+        let Some(&k) = self.order.get(pos) else {
             self.offer(value);
             return Ok(());
         };
+        let it = &items[k];
+        let open = self.order.get(pos..).unwrap_or(&[]).to_vec();
         let suffix_min = suffix_min(&self.load.slack);
-        let rest = items
-            .get(k + 1..)
-            .unwrap_or(&[])
-            .iter()
-            .fold(Cost::ZERO, |acc, other| {
-                acc + self.cheapest(other, &suffix_min)
-            });
+        let rest = open.iter().skip(1).fold(Cost::ZERO, |acc, &j| {
+            acc + self.cheapest(&items[j], &suffix_min)
+        });
         if self.prunes(value + self.cheapest(it, &suffix_min) + rest) {
             return Ok(());
         }
         // The cheap bound ignores that units compete for crew and anodes;
         // the flow relaxation does not, and may even solve the subtree.
         self.nodes += RELAXATION_NODE_COST;
-        let (bound, solved) = self.relaxed(k, &suffix_min)?;
+        let Relaxation {
+            bound,
+            hint,
+            solved,
+        } = self.relaxed(&open, &suffix_min)?;
         if self.prunes(value + bound) {
             return Ok(());
         }
         if let Some(plan) = solved {
-            let saved = self.current.clone();
-            for (slot, d) in self.current.iter_mut().skip(k).zip(plan) {
-                *slot = d;
+            for (&j, d) in open.iter().zip(plan) {
+                self.current[j] = d;
+                self.decided[j] = true;
             }
             self.offer(value + bound);
-            self.current = saved;
+            for &j in &open {
+                self.current[j] = None;
+                self.decided[j] = false;
+            }
             return Ok(());
         }
-        for (&d, &c) in it.days.iter().zip(&it.costs) {
-            if !self.fits_fast(d, it, &suffix_min) || self.prunes(value + Cost::placed(c) + rest) {
+        // The relaxation's choice first (a dive towards good plans), then the
+        // cheapest days, unplaced last.
+        let mut choices: Vec<(bool, Cost, Option<usize>)> = it
+            .days
+            .iter()
+            .zip(&it.costs)
+            .filter(|&(&d, _)| self.fits_fast(d, it, &suffix_min))
+            .map(|(&d, &c)| (hint != Some(Some(d)), Cost::placed(c), Some(d)))
+            .collect();
+        choices.push((true, Cost::dropped(it.size), None));
+        choices.sort_unstable_by_key(|&(later, c, d)| (later, d.is_none(), c, d));
+        self.decided[k] = true;
+        for (_, c, d) in choices {
+            self.current[k] = d;
+            if self.prunes(value + c + rest) {
                 continue;
             }
-            self.load.place(d, it);
-            self.current[k] = Some(d);
-            self.run(k + 1, value + Cost::placed(c))?;
-            self.current[k] = None;
-            self.load.remove(d, it);
+            if let Some(d) = d {
+                self.load.place(d, it);
+                self.run(pos + 1, value + c)?;
+                self.load.remove(d, it);
+            } else {
+                self.run(pos + 1, value + c)?;
+            }
             if self.aborted {
-                return Ok(());
+                break;
             }
         }
-        let dropped = value + Cost::dropped(it.size);
-        if !self.prunes(dropped + rest) {
-            self.run(k + 1, dropped)?;
-        }
+        self.current[k] = None;
+        self.decided[k] = false;
         Ok(())
     }
 }
@@ -1374,15 +1463,17 @@ impl Search<'_> {
 fn most_placeable(
     cells: &[(usize, usize, usize)],
     options: &[Vec<(usize, i128)>],
-    rest: &[Item],
+    items: &[Item],
+    open: &[usize],
     suffix_min: &[u128],
 ) -> usize {
     let mut jobs: Vec<(usize, u128)> = cells
         .iter()
         .zip(options)
-        .filter_map(|(&(_, j, m), opts)| {
+        .filter_map(|(&(_, o, m), opts)| {
             let last = opts.last()?.0;
-            let anodes = rest.get(j)?.member_anodes.get(m).copied()?;
+            let it = items.get(*open.get(o)?)?;
+            let anodes = it.member_anodes.get(m).copied()?;
             Some((last, anodes))
         })
         .collect();
@@ -1411,13 +1502,18 @@ fn branch_and_bound(
     seed: Vec<Option<usize>>,
 ) -> Result<(Vec<Option<usize>>, bool), LevelError> {
     let best_value = plan_value(items, &seed);
+    // Groups first: once they are fixed, the flow relaxation of the single
+    // cells left is tight, while split groups make it weak.
+    let mut order: Vec<usize> = (0..items.len()).collect();
+    order.sort_by_key(|&k| (Reverse(items[k].size), k));
     let mut search = Search {
         items,
+        order,
+        decided: vec![false; items.len()],
         load: Load::new(crew, cum),
         current: vec![None; items.len()],
         best: seed,
         best_value,
-        best_found: false,
         nodes: 0,
         aborted: false,
     };

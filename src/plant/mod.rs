@@ -14,7 +14,7 @@ use std::path::{Path, PathBuf};
 pub use import::ImportSummary;
 pub use record::Recorded;
 
-use crate::domain::charge::{Time, cell_charge};
+use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
 use crate::domain::history::{Contradiction, replay};
 use crate::domain::layout;
@@ -153,7 +153,7 @@ impl Plant {
             let mut bad = Vec::new();
             for cell in db.cells_with_events()? {
                 let before = db.stored_history_digest(&cell)?;
-                match rebuild_cell(db, &cell) {
+                match rebuild(db, &cell, false) {
                     Ok(()) if db.stored_history_digest(&cell)? != before => {
                         bad.push(format!("cell {cell}: stored records differ from the event log"))
                     }
@@ -179,29 +179,53 @@ impl Plant {
 }
 
 /// Replays a cell's events into its derived records, with each closed crop's
-/// charge and measured efficiency.
+/// charge and measured efficiency. A crop whose bounds, weight and cut-outs are
+/// unchanged keeps its stored figures (readings changes refresh them separately),
+/// so logging one entry does not recompute a cell's whole history.
 pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
+    rebuild(db, cell, true)
+}
+
+/// The rebuild itself; `reuse = false` recomputes every crop (for `check`).
+fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
     let row = db
         .cell(cell)?
         .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
     let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
-    let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
-    let cuts: Vec<_> = h.cutouts.iter().map(|c| c.span).collect();
+    let cuts: Vec<OpenSpan> = h.cutouts.iter().map(|c| c.span).collect();
+    let old_cuts = db.cutouts(cell, far_future())?;
+    let changed: Vec<OpenSpan> = cuts
+        .iter()
+        .filter(|c| !old_cuts.contains(c))
+        .chain(old_cuts.iter().filter(|c| !cuts.contains(c)))
+        .copied()
+        .collect();
+    let stored = db.crop_figures(cell)?;
+    let mut curve = None;
     let mut figures = Vec::with_capacity(h.crops.len());
     for c in &h.crops {
-        figures.push(match (c.ended_at, c.harvest_kg) {
-            (Some(end), Some(kg)) => {
-                let q = cell_charge(&curve, &cuts, c.started_at, end)?;
-                Some(CropFigures {
-                    charge_ah: q.total(),
-                    estimated_ah: q.estimated,
-                    efficiency: measured_efficiency(kg, q.total()),
-                })
-            }
-            _ => None,
-        });
+        let (Some(end), Some(kg)) = (c.ended_at, c.harvest_kg) else {
+            figures.push(None);
+            continue;
+        };
+        let touched = changed.iter().any(|s| s.from < end && s.to.is_none_or(|to| to > c.started_at));
+        let kept = stored.iter().find(|(k, _)| *k == (c.started_at, end, kg)).map(|(_, f)| *f);
+        if let (Some(f), false, true) = (kept, touched, reuse) {
+            figures.push(Some(f));
+            continue;
+        }
+        if curve.is_none() {
+            curve = Some(StoreCurve::new(db, row.circuit_id, far_future())?);
+        }
+        let Some(curve) = curve.as_ref() else { continue };
+        let q = cell_charge(curve, &cuts, c.started_at, end)?;
+        figures.push(Some(CropFigures {
+            charge_ah: q.total(),
+            estimated_ah: q.estimated,
+            efficiency: measured_efficiency(kg, q.total()),
+        }));
     }
     db.write_history(cell, &h, &figures)?;
     Ok(())

@@ -43,9 +43,17 @@ impl Plant {
             let mut out = Vec::with_capacity(entries.len());
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by)?;
-                let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
+                let place = format!(
+                    "entry {} of the batch ({} {})",
+                    i + 1,
+                    entry.kind().name(),
+                    entry.cell().unwrap_or("circuit")
+                );
                 out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
-                    PlantError::Rejected { field, message } => PlantError::Rejected { field, message: format!("{place}: {message}") },
+                    PlantError::Rejected { field, message } => PlantError::Rejected {
+                        field,
+                        message: format!("{place}: {message}"),
+                    },
                     PlantError::Questioned(mut q) => {
                         q.insert(0, place);
                         PlantError::Questioned(q)
@@ -136,7 +144,10 @@ fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorde
     }
     let event = db.append_event(&new_event(db, entry, by, !questions.is_empty(), opts.now)?)?;
     apply(db, entry)?;
-    Ok(Recorded { event, forced_past: questions })
+    Ok(Recorded {
+        event,
+        forced_past: questions,
+    })
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {

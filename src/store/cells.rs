@@ -44,6 +44,19 @@ pub struct LayoutSummary {
     pub params_changed: usize,
 }
 
+const CELL_SELECT: &str = "SELECT cell.id, circuit.id, circuit.name, section.name, cell.position
+     FROM cell JOIN section ON section.id = cell.section_id JOIN circuit ON circuit.id = section.circuit_id";
+
+fn cell_row(r: &rusqlite::Row<'_>) -> rusqlite::Result<CellRow> {
+    Ok(CellRow {
+        id: r.get(0)?,
+        circuit_id: r.get(1)?,
+        circuit: r.get(2)?,
+        section: r.get(3)?,
+        position: r.get(4)?,
+    })
+}
+
 fn corrupt(e: impl std::fmt::Display) -> StoreError {
     StoreError::Corrupt(e.to_string())
 }
@@ -176,25 +189,19 @@ impl Db<'_> {
 
     /// The active cells in plant order (circuit, section, position).
     pub fn cells(&self) -> Result<Vec<CellRow>> {
-        let mut st = self.c.prepare_cached(
-            "SELECT cell.id, circuit.id, circuit.name, section.name, cell.position
-             FROM cell JOIN section ON section.id = cell.section_id JOIN circuit ON circuit.id = section.circuit_id
-             WHERE cell.active = 1 ORDER BY circuit.position, section.position, cell.position",
-        )?;
-        let rows = st.query_map([], |r| {
-            Ok(CellRow {
-                id: r.get(0)?,
-                circuit_id: r.get(1)?,
-                circuit: r.get(2)?,
-                section: r.get(3)?,
-                position: r.get(4)?,
-            })
-        })?;
+        let mut st = self.c.prepare_cached(&format!(
+            "{CELL_SELECT} WHERE cell.active = 1 ORDER BY circuit.position, section.position, cell.position"
+        ))?;
+        let rows = st.query_map([], cell_row)?;
         Ok(rows.collect::<rusqlite::Result<_>>()?)
     }
 
+    /// One active cell.
     pub fn cell(&self, id: &str) -> Result<Option<CellRow>> {
-        Ok(self.cells()?.into_iter().find(|c| c.id == id))
+        let mut st = self
+            .c
+            .prepare_cached(&format!("{CELL_SELECT} WHERE cell.active = 1 AND cell.id = ?1"))?;
+        Ok(st.query_row([id], cell_row).optional()?)
     }
 
     /// Each cell's parameters in force at `t` (for a time before the first

@@ -33,6 +33,9 @@ pub struct CropFigures {
     pub efficiency: Option<f64>,
 }
 
+/// A closed crop's identity: start, end, weighed kg.
+pub type CropKey = (Time, Time, f64);
+
 /// A cell-level reading from the log: (time, count, volts).
 type CellReading = (Time, Option<u32>, Option<f64>);
 
@@ -162,6 +165,26 @@ impl Db<'_> {
             st.execute(params![c.event, cell, secs(c.span.from), c.span.to.map(secs)])?;
         }
         Ok(())
+    }
+
+    /// The stored figures of a cell's closed crops, by (start, end, weighed kg).
+    pub fn crop_figures(&self, cell: &str) -> Result<Vec<(CropKey, CropFigures)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT started_at, ended_at, harvest_kg, charge_ah, estimated_ah, efficiency FROM crop
+             WHERE cell_id = ?1 AND ended_at IS NOT NULL AND harvest_kg IS NOT NULL AND charge_ah IS NOT NULL",
+        )?;
+        let v = st.query_map([cell], |r| {
+            let key = (time(r.get(0)?), time(r.get(1)?), r.get::<_, f64>(2)?);
+            Ok((
+                key,
+                CropFigures {
+                    charge_ah: r.get(3)?,
+                    estimated_ah: r.get::<_, Option<f64>>(4)?.unwrap_or(0.0),
+                    efficiency: r.get(5)?,
+                },
+            ))
+        })?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
     /// Closed crops on a circuit that ended at or after `t` (their charge changes with a back-fill).
@@ -301,7 +324,7 @@ impl Db<'_> {
         let mut out = String::new();
         for sql in [
             "SELECT set_event, set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at",
-            "SELECT started_at, ended_at, harvest_event, harvest_kg FROM crop WHERE cell_id = ?1 ORDER BY started_at",
+            "SELECT started_at, ended_at, harvest_event, harvest_kg, printf('%.6e', charge_ah), printf('%.6e', efficiency) FROM crop WHERE cell_id = ?1 ORDER BY started_at",
             "SELECT event, from_at, to_at FROM cutout WHERE cell_id = ?1 ORDER BY from_at, event",
         ] {
             let mut st = self.c.prepare_cached(sql)?;

@@ -85,6 +85,8 @@ impl Store {
     fn configure(&mut self) -> Result<()> {
         let c = &self.conn;
         c.busy_timeout(StdDuration::from_secs(10))?;
+        // more distinct cached queries than rusqlite's default 16: re-preparing was a hot spot
+        c.set_prepared_statement_cache_capacity(128);
         let mode: String = c.pragma_update_and_check(None, "journal_mode", "wal", |r| r.get(0))?;
         if !mode.eq_ignore_ascii_case("wal") {
             return Err(StoreError::NotWal(mode));
