@@ -7,3 +7,4 @@ pub mod demo;
 pub mod domain;
 pub mod plant;
 pub mod store;
+pub mod tui;

@@ -67,7 +67,7 @@ pub fn run(cli: Cli) -> Result<()> {
     }
     let Some(command) = cli.command else {
         let plant = open(&cli.db)?;
-        return print::summary(&plant, now);
+        return screens(plant);
     };
     let mut plant = open(&cli.db)?;
     match command {
@@ -210,7 +210,20 @@ fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
     if a.no_tui {
         return Ok(());
     }
-    print::summary(&plant, now)
+    screens(plant)
+}
+
+/// The clock the screens read at each reload (TANKBOOK_NOW when set).
+fn clock() -> Time {
+    now().unwrap_or_else(|_| Utc::now())
+}
+
+/// Opens the screens, or says how to start when the database holds no plant.
+fn screens(plant: Plant) -> Result<()> {
+    if !plant.has_layout()? {
+        return print::empty(&plant);
+    }
+    crate::tui::run(plant, clock)
 }
 
 fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {

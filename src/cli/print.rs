@@ -100,14 +100,10 @@ pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Re
     Ok(())
 }
 
-/// What `tankbook` with no command prints until the screens are there: the plant at a glance.
-pub fn summary(plant: &Plant, now: Time) -> Result<()> {
-    if !plant.has_layout()? {
-        println!("{} holds no plant yet.", plant.path().display());
-        println!("Load a layout with `tankbook layout load FILE.toml`, or try `tankbook demo`.");
-        return Ok(());
-    }
-    let f = plant.forecast(now, None)?;
-    forecast(plant, &f);
+/// What a first start on an empty database says instead of an empty screen.
+pub fn empty(plant: &Plant) -> Result<()> {
+    println!("{} holds no plant yet.", plant.path().display());
+    println!("Load your plant's layout:   tankbook layout load FILE.toml   (format: see README, fixtures/plant_check.toml)");
+    println!("or try the invented demo:   tankbook demo");
     Ok(())
 }

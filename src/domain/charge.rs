@@ -23,7 +23,7 @@ pub const MEAN_WINDOW: Duration = Duration::hours(24);
 pub const PROJECTION_HORIZON: Duration = Duration::days(3650);
 
 /// A valid reading with the circuit's cumulative charge up to it.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Point {
     pub t: Time,
     pub amps: f64,
@@ -31,14 +31,14 @@ pub struct Point {
 }
 
 /// A half-open interval `[from, to)`.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, serde::Serialize)]
 pub struct Span {
     pub from: Time,
     pub to: Time,
 }
 
 /// An interval that may still be open (a cut-out not yet closed).
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub struct OpenSpan {
     pub from: Time,
     pub to: Option<Time>,

@@ -70,6 +70,8 @@ pub struct CellForecast {
     pub circuit: String,
     pub section: String,
     pub in_circuit: bool,
+    /// Start of the cut-out the cell is in at `as_of` (the `--from` that closes it).
+    pub cut_out_since: Option<Time>,
     pub anode_kind: AnodeKind,
     pub anode: Option<AnodeForecast>,
     pub cathode: Option<CathodeForecast>,
@@ -87,7 +89,12 @@ pub struct CellForecast {
 /// Forecasts one cell on its circuit's curve.
 pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Result<CellForecast, C::Error> {
     let p = &input.params;
-    let in_circuit = !input.cutouts.iter().any(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of));
+    let cut_out_since = input
+        .cutouts
+        .iter()
+        .find(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of))
+        .map(|c| c.from);
+    let in_circuit = cut_out_since.is_none();
     let mut warnings = Vec::new();
     let mut warn = |code, message: String| {
         warnings.push(Warning {
@@ -210,6 +217,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         circuit: input.circuit.clone(),
         section: input.section.clone(),
         in_circuit,
+        cut_out_since,
         anode_kind: p.anode_kind,
         anode,
         cathode,

@@ -12,14 +12,12 @@ use std::ops::{Add, Neg, Sub};
 /// with `exact == false`.
 pub const EXACT_SEARCH_MAX_UNITS: usize = 40;
 
-/// Work budget of the branch and bound, in nodes (a node whose flow
-/// relaxation is solved counts [`RELAXATION_NODE_COST`] extra). When it runs
-/// out, [`level`] returns the best plan found so far with `exact == false`.
-pub const EXACT_SEARCH_NODE_LIMIT: u64 = 200_000;
-
-/// Extra nodes charged for solving one flow relaxation inside the search
-/// (it costs roughly that many plain nodes).
-pub const RELAXATION_NODE_COST: u64 = 20;
+/// Work budget of the branch and bound, in nodes; solving a node's flow
+/// relaxation over c cells is charged as c more nodes, since that is about
+/// what it costs. When the budget runs out (roughly a tenth of a second of
+/// work), [`level`] returns the best plan found so far with `exact == false`.
+/// The count is deterministic, so the same input always gives the same plan.
+pub const EXACT_SEARCH_NODE_LIMIT: u64 = 100_000;
 
 /// Node budget of the crew-only packing search used to choose between
 /// [`Unplaced::NoAnodes`] and [`Unplaced::NoCrewCapacity`] for groups.
@@ -149,25 +147,11 @@ pub enum LevelError {
 impl fmt::Display for LevelError {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            Self::HorizonMismatch {
-                crew_days,
-                supply_days,
-            } => write!(
-                f,
-                "crew covers {crew_days} days but anode preparation covers {supply_days}"
-            ),
-            Self::BadWeights { early, late } => write!(
-                f,
-                "weights must be finite and greater than zero (early {early}, late {late})"
-            ),
-            Self::EmptyWindow {
-                cell,
-                earliest,
-                latest,
-            } => write!(
-                f,
-                "cell {cell}: earliest day {earliest} is after latest day {latest}"
-            ),
+            Self::HorizonMismatch { crew_days, supply_days } => {
+                write!(f, "crew covers {crew_days} days but anode preparation covers {supply_days}")
+            }
+            Self::BadWeights { early, late } => write!(f, "weights must be finite and greater than zero (early {early}, late {late})"),
+            Self::EmptyWindow { cell, earliest, latest } => write!(f, "cell {cell}: earliest day {earliest} is after latest day {latest}"),
             Self::DuplicateCell { cell } => write!(f, "cell {cell} appears more than once"),
             Self::TooLarge => write!(f, "days or weights too large to cost exactly"),
             Self::Internal(what) => write!(f, "internal error in levelling: {what}"),
@@ -197,18 +181,27 @@ impl std::error::Error for LevelError {}
 /// * Otherwise (different anode counts under binding supply, or groups): each
 ///   group becomes one unit (crew use = member count, anodes = sum, cost =
 ///   sum, window = intersection). Up to [`EXACT_SEARCH_MAX_UNITS`] units, a
-///   depth-first branch and bound over units in cell-id order and days in
-///   increasing order, with crew and cumulative supply checked incrementally
-///   and the bound "cost so far + each remaining unit's cheapest day still
-///   feasible", proves the optimum unless it exceeds
-///   [`EXACT_SEARCH_NODE_LIMIT`] nodes. It starts from the repaired
-///   relaxation below, so it never returns anything worse.
-/// * Larger instances, or an exhausted node budget: min-cost flow with
-///   groups split and supply counted in units of the smallest anode count
-///   (a relaxation), then a repair: groups and the largest consumers on any
-///   day whose cumulative supply is exceeded are taken out and re-inserted
-///   on their cheapest feasible day, followed by a few passes of moving
-///   single units to cheaper feasible days.
+///   depth-first branch and bound decides units (groups first, then single
+///   cells, each in cell-id order) and tries each unit's days cheapest first,
+///   unplaced last, checking crew and cumulative supply incrementally. Its
+///   bounds: cost so far plus each remaining unit's cheapest day still
+///   feasible; then the exact min-cost flow optimum of the remaining units
+///   with groups split and anodes turned into limits on how many cells fit
+///   through each day (the most of the smallest consumers that the anodes
+///   cover, and a Moore-Hodgson count over the latest usable days). When
+///   that relaxed optimum keeps groups whole and fits the real anodes it
+///   closes the subtree. Ties with the incumbent are settled by comparing
+///   plans, so the tie-break holds whatever the exploration order. It proves
+///   the optimum unless it exceeds [`EXACT_SEARCH_NODE_LIMIT`]; it starts
+///   from the repaired relaxation below, so it never returns anything worse.
+/// * Larger instances, or an exhausted budget: the same flow relaxation over
+///   all units, then a repair: groups are inserted first on their cheapest
+///   feasible day, single cells keep their relaxed day unless that day
+///   overdraws the cumulative supply (then the largest consumers leave),
+///   the rest are inserted on their cheapest feasible day, and a few passes
+///   move units to cheaper feasible days and make room for unplaced units by
+///   moving the units on one of their days elsewhere, when that improves the
+///   plan. No optimality is claimed.
 ///
 /// Costs are compared exactly in integers: the two weights are turned into
 /// integers in exactly their ratio (an f64 is an integer times a power of
@@ -249,10 +242,7 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
     let h = cap.crew.len();
     let mut order: Vec<usize> = (0..n).collect();
     order.sort_by(|&a, &b| tasks[a].cell.cmp(&tasks[b].cell));
-    if let Some(pair) = order
-        .windows(2)
-        .find(|p| tasks[p[0]].cell == tasks[p[1]].cell)
-    {
+    if let Some(pair) = order.windows(2).find(|p| tasks[p[0]].cell == tasks[p[1]].cell) {
         return Err(LevelError::DuplicateCell {
             cell: tasks[pair[0]].cell.clone(),
         });
@@ -283,9 +273,7 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
                 .map(|b| (b, is_exact))
         })
         .ok_or(LevelError::TooLarge)?;
-    let Built {
-        items, excluded, ..
-    } = built;
+    let Built { items, excluded, .. } = built;
 
     let grouped = items.iter().any(|it| it.size > 1);
     let first_anodes = items.first().map(|it| it.anodes);
@@ -293,17 +281,10 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
     let never_binds = supply_never_binds(&items, &cum);
 
     let (assign, proven) = if !grouped && (equal_anodes || never_binds) {
-        let per = if never_binds {
-            0
-        } else {
-            first_anodes.unwrap_or(0)
-        };
+        let per = if never_binds { 0 } else { first_anodes.unwrap_or(0) };
         let units = cumulative_units(&cum, per, items.len());
         let options: Vec<Vec<(usize, i128)>> = items.iter().map(Item::options).collect();
-        (
-            flow_assign(&options, &cap.crew, units.as_deref(), None, true)?,
-            true,
-        )
+        (flow_assign(&options, &cap.crew, units.as_deref(), None, true)?, true)
     } else {
         let seed = repair(&items, &cap.crew, &cum)?;
         if items.len() <= EXACT_SEARCH_MAX_UNITS {
@@ -336,11 +317,7 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
         }
     }
     let cost = w.early * early_days as f64 + w.late * late_days as f64;
-    let unplaced = reason
-        .iter()
-        .enumerate()
-        .filter_map(|(i, r)| r.map(|r| (i, r)))
-        .collect();
+    let unplaced = reason.iter().enumerate().filter_map(|(i, r)| r.map(|r| (i, r))).collect();
     Ok(Levelled {
         day,
         unplaced,
@@ -362,10 +339,7 @@ struct Cost {
 }
 
 impl Cost {
-    const ZERO: Cost = Cost {
-        unplaced: 0,
-        dist: 0,
-    };
+    const ZERO: Cost = Cost { unplaced: 0, dist: 0 };
 
     fn placed(dist: i128) -> Self {
         Cost { unplaced: 0, dist }
@@ -475,11 +449,7 @@ fn clamped_ideal(t: &Task) -> usize {
 
 /// (days early, days late) of `day` against `ideal`.
 fn offsets(ideal: usize, day: usize) -> (usize, usize) {
-    if day < ideal {
-        (ideal - day, 0)
-    } else {
-        (0, day - ideal)
-    }
+    if day < ideal { (ideal - day, 0) } else { (0, day - ideal) }
 }
 
 fn task_cost(t: &Task, day: usize, we: i128, wl: i128) -> Option<i128> {
@@ -513,11 +483,7 @@ struct Item {
 
 impl Item {
     fn options(&self) -> Vec<(usize, i128)> {
-        self.days
-            .iter()
-            .copied()
-            .zip(self.costs.iter().copied())
-            .collect()
+        self.days.iter().copied().zip(self.costs.iter().copied()).collect()
     }
 }
 
@@ -530,13 +496,7 @@ struct Built {
     cost_total: u128,
 }
 
-fn build_items(
-    tasks: &[Task],
-    order: &[usize],
-    crew: &[u32],
-    we: i128,
-    wl: i128,
-) -> Result<Built, LevelError> {
+fn build_items(tasks: &[Task], order: &[usize], crew: &[u32], we: i128, wl: i128) -> Result<Built, LevelError> {
     let h = crew.len();
     let mut groups: BTreeMap<u32, Vec<usize>> = BTreeMap::new();
     let mut units: Vec<Vec<usize>> = Vec::new();
@@ -560,12 +520,7 @@ fn build_items(
     let mut cost_total: u128 = 0;
     for members in units {
         let lo = members.iter().map(|&i| tasks[i].earliest).max().unwrap_or(0);
-        let hi = members
-            .iter()
-            .map(|&i| tasks[i].latest)
-            .min()
-            .unwrap_or(0)
-            .min(h.saturating_sub(1));
+        let hi = members.iter().map(|&i| tasks[i].latest).min().unwrap_or(0).min(h.saturating_sub(1));
         if lo >= h {
             excluded.push((members, Unplaced::WindowOutsideHorizon));
             continue;
@@ -576,9 +531,7 @@ fn build_items(
             continue;
         }
         let size = members.len() as u64;
-        let days: Vec<usize> = (lo..=hi)
-            .filter(|&d| crew.get(d).is_some_and(|&c| u64::from(c) >= size))
-            .collect();
+        let days: Vec<usize> = (lo..=hi).filter(|&d| crew.get(d).is_some_and(|&c| u64::from(c) >= size)).collect();
         if days.is_empty() {
             excluded.push((members, Unplaced::NoCrewCapacity));
             continue;
@@ -599,9 +552,7 @@ fn build_items(
             }
         }
         let worst = costs.iter().copied().max().unwrap_or(0).max(0) as u128;
-        cost_total = cost_total
-            .checked_add(worst)
-            .ok_or(LevelError::TooLarge)?;
+        cost_total = cost_total.checked_add(worst).ok_or(LevelError::TooLarge)?;
         let anodes = members.iter().map(|&i| u128::from(tasks[i].anodes)).sum();
         items.push(Item {
             ranks: members.iter().map(|&i| rank[i]).collect(),
@@ -643,11 +594,7 @@ fn cumulative_units(cum: &[u128], per: u128, m: usize) -> Option<Vec<u64>> {
     if per == 0 {
         return None;
     }
-    Some(
-        cum.iter()
-            .map(|&c| (c / per).min(m as u128) as u64)
-            .collect(),
-    )
+    Some(cum.iter().map(|&c| (c / per).min(m as u128) as u64).collect())
 }
 
 /// For cells given as (first usable day, anodes) and the anodes `cap[d]`
@@ -867,11 +814,7 @@ fn flow_assign(
 
     Ok(task_arcs
         .iter()
-        .map(|arcs| {
-            arcs.iter()
-                .find(|&&(_, e)| g.arcs[e].cap == 0)
-                .map(|&(d, _)| d)
-        })
+        .map(|arcs| arcs.iter().find(|&&(_, e)| g.arcs[e].cap == 0).map(|&(d, _)| d))
         .collect())
 }
 
@@ -880,12 +823,7 @@ fn flow_assign(
 /// the optimal flows are exactly those reachable by cycles of zero reduced
 /// cost; a task's unit moves to a smaller day iff such a cycle runs through
 /// it, and freezing decided tasks keeps earlier choices.
-fn lexicographic_ties(
-    g: &mut Graph,
-    task_arcs: &[Vec<(usize, usize)>],
-    drop_arc: &[usize],
-    source: usize,
-) -> Result<(), LevelError> {
+fn lexicographic_ties(g: &mut Graph, task_arcs: &[Vec<(usize, usize)>], drop_arc: &[usize], source: usize) -> Result<(), LevelError> {
     let v = g.adj.len();
     let every: Vec<usize> = (0..v).collect();
     let (dist, _) = g.shortest(&every)?;
@@ -934,9 +872,7 @@ fn lexicographic_ties(
         let better = arcs
             .iter()
             .take_while(|&&(_, e)| e != current)
-            .find(|&&(_, e)| {
-                g.arcs[e].cap > 0 && seen[g.arcs[e].to] && reduced(g, e) == Cost::ZERO
-            })
+            .find(|&&(_, e)| g.arcs[e].cap > 0 && seen[g.arcs[e].to] && reduced(g, e) == Cost::ZERO)
             .map(|&(_, e)| e);
         if let Some(first) = better {
             g.push(first);
@@ -976,11 +912,7 @@ impl Load {
     }
 
     fn fits(&self, d: usize, it: &Item) -> bool {
-        self.crew_left.get(d).is_some_and(|&c| c >= it.size)
-            && self
-                .slack
-                .get(d..)
-                .is_some_and(|s| s.iter().all(|&x| x >= it.anodes))
+        self.crew_left.get(d).is_some_and(|&c| c >= it.size) && self.slack.get(d..).is_some_and(|s| s.iter().all(|&x| x >= it.anodes))
     }
 
     fn place(&mut self, d: usize, it: &Item) {
@@ -1032,8 +964,8 @@ fn plan_value(items: &[Item], assign: &[Option<usize>]) -> Cost {
 // ---------------------------------------------------------------------------
 // Relaxation and repair
 
-/// Feasible plan from the relaxed flow (groups split, supply counted in the
-/// smallest anode count), repaired and then improved by single moves.
+/// Feasible plan from the relaxed flow (groups split, anodes only as counts
+/// from [`count_limits`]), repaired and then improved by local moves.
 fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize>>, LevelError> {
     let h = crew.len();
     let mut options = Vec::new();
@@ -1068,9 +1000,7 @@ fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize
     for (d, (list, &avail)) in by_day.iter_mut().zip(cum).enumerate() {
         // Largest consumers (then largest ids) leave first.
         list.sort_by_key(|&k| (items[k].anodes, k));
-        used = list
-            .iter()
-            .fold(used, |u, &k| u.saturating_add(items[k].anodes));
+        used = list.iter().fold(used, |u, &k| u.saturating_add(items[k].anodes));
         while used > avail {
             match list.pop() {
                 Some(k) => used = used.saturating_sub(items[k].anodes),
@@ -1103,9 +1033,7 @@ fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize
             }
         }
     }
-    let mut pending: Vec<usize> = (0..items.len())
-        .filter(|&k| assign[k].is_none() && items[k].size == 1)
-        .collect();
+    let mut pending: Vec<usize> = (0..items.len()).filter(|&k| assign[k].is_none() && items[k].size == 1).collect();
     pending.sort_by_key(|&k| (Reverse(items[k].anodes), k));
     for k in pending {
         if let Some((d, _)) = load.best_fit(&items[k]) {
@@ -1152,36 +1080,49 @@ fn eject_for(items: &[Item], assign: &mut [Option<usize>], load: &mut Load, k: u
     let Some(it) = items.get(k) else {
         return false;
     };
-    let before = plan_value(items, assign);
     for &d in &it.days {
-        let (saved_assign, saved_load) = (assign.to_vec(), load.clone());
-        // Latest ids leave first, the smallest that make room.
+        // Latest ids leave first, only as many as make room.
+        let on_day: Vec<usize> = (0..items.len()).rev().filter(|&j| j != k && assign[j] == Some(d)).collect();
+        if on_day.is_empty() {
+            continue;
+        }
+        let saved_load = load.clone();
         let mut evicted = Vec::new();
-        for j in (0..items.len()).rev() {
+        for j in on_day {
             if load.fits(d, it) {
                 break;
             }
-            if j != k && assign[j] == Some(d) {
-                load.remove(d, &items[j]);
-                assign[j] = None;
-                evicted.push(j);
-            }
+            load.remove(d, &items[j]);
+            assign[j] = None;
+            evicted.push(j);
         }
         if load.fits(d, it) {
             load.place(d, it);
             assign[k] = Some(d);
+            // Value change: k placed, evicted units re-placed or dropped.
+            let mut change = Cost::placed(cost_on(it, d)) - Cost::dropped(it.size);
+            let mut moved = Vec::new();
             evicted.sort_by_key(|&j| (Reverse(items[j].size), j));
-            for j in evicted {
-                if let Some((e, _)) = load.best_fit(&items[j]) {
-                    load.place(e, &items[j]);
-                    assign[j] = Some(e);
+            for &j in &evicted {
+                change = change - Cost::placed(cost_on(&items[j], d));
+                match load.best_fit(&items[j]) {
+                    Some((e, c)) => {
+                        load.place(e, &items[j]);
+                        assign[j] = Some(e);
+                        moved.push(j);
+                        change = change + Cost::placed(c);
+                    }
+                    None => change = change + Cost::dropped(items[j].size),
                 }
             }
-            if plan_value(items, assign) < before {
+            if change < Cost::ZERO {
                 return true;
             }
+            assign[k] = None;
         }
-        assign.copy_from_slice(&saved_assign);
+        for &j in &evicted {
+            assign[j] = Some(d);
+        }
         *load = saved_load;
     }
     false
@@ -1254,8 +1195,7 @@ impl Search<'_> {
     }
 
     fn fits_fast(&self, d: usize, it: &Item, suffix_min: &[u128]) -> bool {
-        self.load.crew_left.get(d).is_some_and(|&c| c >= it.size)
-            && suffix_min.get(d).is_some_and(|&s| s >= it.anodes)
+        self.load.crew_left.get(d).is_some_and(|&c| c >= it.size) && suffix_min.get(d).is_some_and(|&s| s >= it.anodes)
     }
 
     /// Cheapest outcome for `it` alone given the current load: a lower bound.
@@ -1277,22 +1217,12 @@ impl Search<'_> {
     /// its value is a lower bound; when its plan keeps groups together and
     /// respects the real anodes, it is the best completion, tie-break
     /// included, and is returned (one day per unit of `open`).
-    fn relaxed(
-        &self,
-        open: &[usize],
-        suffix_min: &[u128],
-    ) -> Result<Relaxation, LevelError> {
+    fn relaxed(&self, open: &[usize], suffix_min: &[u128]) -> Result<Relaxation, LevelError> {
         let items = self.items;
         let mut cells: Vec<(usize, usize, usize)> = open
             .iter()
             .enumerate()
-            .flat_map(|(o, &j)| {
-                items[j]
-                    .ranks
-                    .iter()
-                    .enumerate()
-                    .map(move |(m, &r)| (r, o, m))
-            })
+            .flat_map(|(o, &j)| items[j].ranks.iter().enumerate().map(move |(m, &r)| (r, o, m)))
             .collect();
         cells.sort_unstable();
         let options: Vec<Vec<(usize, i128)>> = cells
@@ -1310,17 +1240,10 @@ impl Search<'_> {
         let firsts: Vec<(usize, u128)> = cells
             .iter()
             .zip(&options)
-            .filter_map(|(&(_, o, m), opts)| {
-                Some((opts.first()?.0, *items[open[o]].member_anodes.get(m)?))
-            })
+            .filter_map(|(&(_, o, m), opts)| Some((opts.first()?.0, *items[open[o]].member_anodes.get(m)?)))
             .collect();
         let units = count_limits(&firsts, suffix_min);
-        let crew: Vec<u32> = self
-            .load
-            .crew_left
-            .iter()
-            .map(|&c| u32::try_from(c).unwrap_or(u32::MAX))
-            .collect();
+        let crew: Vec<u32> = self.load.crew_left.iter().map(|&c| u32::try_from(c).unwrap_or(u32::MAX)).collect();
         let limit = most_placeable(&cells, &options, items, open, suffix_min);
         let days = flow_assign(&options, &crew, Some(&units), Some(limit), true)?;
 
@@ -1331,12 +1254,7 @@ impl Search<'_> {
             let it = &items[open[o]];
             value = value
                 + match day {
-                    Some(d) => Cost::placed(
-                        it.days
-                            .iter()
-                            .position(|x| x == d)
-                            .map_or(0, |p| it.member_costs[m][p]),
-                    ),
+                    Some(d) => Cost::placed(it.days.iter().position(|x| x == d).map_or(0, |p| it.member_costs[m][p])),
                     None => Cost::dropped(1),
                 };
             match unit_day[o] {
@@ -1367,9 +1285,7 @@ impl Search<'_> {
     }
 
     fn offer(&mut self, value: Cost) {
-        if value < self.best_value
-            || (value == self.best_value && lex_cmp(&self.current, &self.best) == Ordering::Less)
-        {
+        if value < self.best_value || (value == self.best_value && lex_cmp(&self.current, &self.best) == Ordering::Less) {
             self.best.clone_from(&self.current);
             self.best_value = value;
         }
@@ -1392,20 +1308,17 @@ impl Search<'_> {
         let it = &items[k];
         let open = self.order.get(pos..).unwrap_or(&[]).to_vec();
         let suffix_min = suffix_min(&self.load.slack);
-        let rest = open.iter().skip(1).fold(Cost::ZERO, |acc, &j| {
-            acc + self.cheapest(&items[j], &suffix_min)
-        });
+        let rest = open
+            .iter()
+            .skip(1)
+            .fold(Cost::ZERO, |acc, &j| acc + self.cheapest(&items[j], &suffix_min));
         if self.prunes(value + self.cheapest(it, &suffix_min) + rest) {
             return Ok(());
         }
         // The cheap bound ignores that units compete for crew and anodes;
         // the flow relaxation does not, and may even solve the subtree.
-        self.nodes += RELAXATION_NODE_COST;
-        let Relaxation {
-            bound,
-            hint,
-            solved,
-        } = self.relaxed(&open, &suffix_min)?;
+        self.nodes += open.iter().map(|&j| items[j].size).sum::<u64>();
+        let Relaxation { bound, hint, solved } = self.relaxed(&open, &suffix_min)?;
         if self.prunes(value + bound) {
             return Ok(());
         }
@@ -1537,10 +1450,7 @@ fn reasons(items: &[Item], assign: &[Option<usize>], crew: &[u32]) -> Vec<Option
             on_day[d].push(k);
         }
     }
-    let placed_units_single = items
-        .iter()
-        .zip(assign)
-        .all(|(it, a)| a.is_none() || it.size == 1);
+    let placed_units_single = items.iter().zip(assign).all(|(it, a)| a.is_none() || it.size == 1);
     items
         .iter()
         .zip(assign)
@@ -1549,10 +1459,7 @@ fn reasons(items: &[Item], assign: &[Option<usize>], crew: &[u32]) -> Vec<Option
             if a.is_some() {
                 return None;
             }
-            let free_now = it
-                .days
-                .iter()
-                .any(|&d| crew_left.get(d).is_some_and(|&c| c >= it.size));
+            let free_now = it.days.iter().any(|&d| crew_left.get(d).is_some_and(|&c| c >= it.size));
             let fits = free_now
                 || if placed_units_single && it.size == 1 {
                     crew_path(items, &on_day, &crew_left, it)
@@ -1566,11 +1473,7 @@ fn reasons(items: &[Item], assign: &[Option<usize>], crew: &[u32]) -> Vec<Option
                     list.push(&items[k]);
                     crew_packs(list, crew).unwrap_or(false)
                 };
-            Some(if fits {
-                Unplaced::NoAnodes
-            } else {
-                Unplaced::NoCrewCapacity
-            })
+            Some(if fits { Unplaced::NoAnodes } else { Unplaced::NoCrewCapacity })
         })
         .collect()
 }
@@ -1661,10 +1564,7 @@ mod tests {
         }
     }
 
-    const W13: Weights = Weights {
-        early: 1.0,
-        late: 3.0,
-    };
+    const W13: Weights = Weights { early: 1.0, late: 3.0 };
 
     /// Horizon-clipped window, or None if it lies beyond the horizon.
     fn clipped(t: &Task, h: usize) -> Option<(usize, usize)> {
@@ -1742,16 +1642,10 @@ mod tests {
                     return;
                 }
                 let unplaced = days.iter().filter(|d| d.is_none()).count();
-                let cost: f64 = order
-                    .iter()
-                    .filter_map(|&j| days[j].map(|d| weighted(&tasks[j], d, w)))
-                    .sum();
+                let cost: f64 = order.iter().filter_map(|&j| days[j].map(|d| weighted(&tasks[j], d, w))).sum();
                 let better = match best {
                     None => true,
-                    Some(b) => {
-                        unplaced < b.unplaced
-                            || (unplaced == b.unplaced && cost < b.cost - 1e-9 * b.cost.max(1.0))
-                    }
+                    Some(b) => unplaced < b.unplaced || (unplaced == b.unplaced && cost < b.cost - 1e-9 * b.cost.max(1.0)),
                 };
                 if better {
                     *best = Some(Optimum {
@@ -1825,11 +1719,7 @@ mod tests {
         if listed != expected {
             return Err(format!("unplaced list {listed:?}, expected {expected:?}"));
         }
-        let cost: f64 = tasks
-            .iter()
-            .zip(&out.day)
-            .filter_map(|(t, d)| d.map(|d| weighted(t, d, w)))
-            .sum();
+        let cost: f64 = tasks.iter().zip(&out.day).filter_map(|(t, d)| d.map(|d| weighted(t, d, w))).sum();
         if (cost - out.cost).abs() > 1e-9 * cost.max(1.0) {
             return Err(format!("cost {} but days cost {cost}", out.cost));
         }
@@ -1975,28 +1865,58 @@ mod tests {
 
         #[test]
         fn large_instances_stay_feasible(
-            h in 5usize..15,
-            raw in prop::collection::vec((0usize..16, 0usize..5, 0usize..16, 20u32..80, 0u32..30), 41..90),
-            crew in prop::collection::vec(0u32..8, 15),
-            supply in prop::collection::vec(0u64..250, 15),
-            stock in 0u64..400,
+            (tasks, cap) in sized(90..130, 2),
         ) {
-            let tasks: Vec<Task> = raw.iter().enumerate().map(|(i, &(e, len, ideal, a, g))| Task {
-                cell: format!("L{i:03}"),
-                earliest: e,
-                latest: e + len,
-                ideal,
-                anodes: a,
-                group: (g < 12).then_some(g / 3),
-            }).collect();
-            let cap = Capacity {
-                crew: crew[..h].to_vec(),
-                anode_stock: stock,
-                anodes_per_day: supply[..h].to_vec(),
-            };
             let out = level(&tasks, &cap, W13).map_err(|e| TestCaseError::fail(e.to_string()))?;
             check_plan(&tasks, &cap, W13, &out).map_err(TestCaseError::fail)?;
         }
+    }
+
+    proptest! {
+        // Each case may run the search to its node budget: keep them few.
+        #![proptest_config(ProptestConfig::with_cases(16))]
+
+        #[test]
+        fn medium_instances_stay_feasible(
+            (tasks, cap) in sized(15..40, 4),
+        ) {
+            let out = level(&tasks, &cap, W13).map_err(|e| TestCaseError::fail(e.to_string()))?;
+            check_plan(&tasks, &cap, W13, &out).map_err(TestCaseError::fail)?;
+        }
+    }
+
+    /// Random instances too big for brute force, with `groups` sections,
+    /// unequal anode counts and tight anode supply.
+    fn sized(tasks: std::ops::Range<usize>, groups: u32) -> impl Strategy<Value = (Vec<Task>, Capacity)> {
+        (
+            5usize..15,
+            prop::collection::vec((0usize..16, 0usize..5, 0usize..16, 20u32..80, 0u32..30), tasks),
+            prop::collection::vec(0u32..8, 15),
+            prop::collection::vec(0u64..250, 15),
+            0u64..400,
+        )
+            .prop_map(move |(h, raw, crew, supply, stock)| {
+                let tasks = raw
+                    .iter()
+                    .enumerate()
+                    .map(|(i, &(e, len, ideal, a, g))| Task {
+                        // Ids out of input order (7 is invertible mod 211).
+                        cell: format!("L{:03}", (i * 7) % 211),
+                        // Mostly inside the horizon, a few running past it.
+                        earliest: e % (h + 1),
+                        latest: e % (h + 1) + len,
+                        ideal,
+                        anodes: a,
+                        group: (g < 3 * groups).then_some(g / 3),
+                    })
+                    .collect();
+                let cap = Capacity {
+                    crew: crew[..h].to_vec(),
+                    anode_stock: stock,
+                    anodes_per_day: supply[..h].to_vec(),
+                };
+                (tasks, cap)
+            })
     }
 
     #[test]
@@ -2119,11 +2039,7 @@ mod tests {
         };
         let reference = level(&base, &cap, W13).expect("valid input");
         let by_cell = |tasks: &[Task], out: &Levelled| {
-            let mut v: Vec<(String, Option<usize>)> = tasks
-                .iter()
-                .zip(&out.day)
-                .map(|(t, d)| (t.cell.clone(), *d))
-                .collect();
+            let mut v: Vec<(String, Option<usize>)> = tasks.iter().zip(&out.day).map(|(t, d)| (t.cell.clone(), *d)).collect();
             v.sort();
             v
         };
@@ -2203,10 +2119,7 @@ mod tests {
             anodes_per_day: vec![0],
             ..cap.clone()
         };
-        assert!(matches!(
-            level(&[], &mismatched, W13),
-            Err(LevelError::HorizonMismatch { .. })
-        ));
+        assert!(matches!(level(&[], &mismatched, W13), Err(LevelError::HorizonMismatch { .. })));
         for (early, late) in [(0.0, 1.0), (1.0, -1.0), (f64::NAN, 1.0), (1.0, f64::INFINITY)] {
             assert!(matches!(
                 level(&[], &cap, Weights { early, late }),
@@ -2226,16 +2139,10 @@ mod tests {
             ideal: usize::MAX,
             ..task("A", 0, 0, 0)
         };
-        let odd = Weights {
-            early: 0.1,
-            late: 0.3,
-        };
+        let odd = Weights { early: 0.1, late: 0.3 };
         // About 2^64 days from the ideal at about 2^54 per day, over a long
         // horizon: beyond the checked i128 headroom.
-        assert_eq!(
-            level(&[far], &unlimited(vec![1; 100]), odd),
-            Err(LevelError::TooLarge)
-        );
+        assert_eq!(level(&[far], &unlimited(vec![1; 100]), odd), Err(LevelError::TooLarge));
         let message = LevelError::DuplicateCell { cell: "A".into() }.to_string();
         assert!(message.contains('A'));
     }
@@ -2270,6 +2177,35 @@ mod tests {
     }
 
     #[test]
+    fn exhausted_search_still_returns_a_valid_plan() {
+        // 25 cells of 30..69 anodes, 24 crew slots and anodes for about 20:
+        // choosing which cells to leave out is a knapsack the search cannot
+        // finish within its budget.
+        let tasks: Vec<Task> = (0..25usize)
+            .map(|i| Task {
+                anodes: 30 + (i as u32 * 17) % 40,
+                ..task(&format!("B{i:02}"), i % 4, i % 4 + 5, i % 4 + 2)
+            })
+            .collect();
+        let cap = Capacity {
+            crew: vec![3; 8],
+            anode_stock: 200,
+            anodes_per_day: vec![100; 8],
+        };
+        let out = level(&tasks, &cap, W13).expect("valid input");
+        assert!(!out.exact);
+        assert_eq!(check_plan(&tasks, &cap, W13, &out), Ok(()));
+        // By anodes at least 4 stay out: the 22 smallest consumers already
+        // need 1046 of the 1000 anodes there are by the last day.
+        assert!(out.unplaced.len() >= 4);
+        assert!(
+            out.unplaced
+                .iter()
+                .all(|u| u.1 == Unplaced::NoAnodes || u.1 == Unplaced::NoCrewCapacity)
+        );
+    }
+
+    #[test]
     fn empty_inputs() {
         let out = level(&[], &unlimited(vec![]), W13).expect("valid input");
         assert!(out.day.is_empty() && out.exact && out.cost == 0.0);
@@ -2280,11 +2216,7 @@ mod tests {
     #[test]
     fn weight_ratios_are_exact_when_representable() {
         assert_eq!(exact_weights(W13), Some((1, 3)));
-        let (a, b) = exact_weights(Weights {
-            early: 0.1,
-            late: 0.3,
-        })
-        .expect("representable");
+        let (a, b) = exact_weights(Weights { early: 0.1, late: 0.3 }).expect("representable");
         assert!(a > 0 && b > 0);
         assert_eq!(a as f64 / b as f64, 0.1 / 0.3);
         let wild = Weights {

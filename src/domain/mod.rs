@@ -9,4 +9,5 @@ pub mod entry;
 pub mod forecast;
 pub mod history;
 pub mod layout;
+pub mod outlook;
 pub mod plant_time;

@@ -4,6 +4,7 @@
 //! Each write is one store transaction: checks run inside it, so a rejected or
 //! questioned entry, or a failed import, leaves the database as it was.
 
+mod detail;
 mod forecast;
 mod import;
 mod record;
@@ -11,6 +12,7 @@ mod record;
 use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
 
+pub use detail::{CellDetail, CircuitTrend};
 pub use import::ImportSummary;
 pub use record::Recorded;
 
@@ -113,6 +115,11 @@ impl Plant {
             Ok(i) => i.days.zone.show(t),
             Err(_) => t.format("%Y-%m-%d %H:%MZ").to_string(),
         }
+    }
+
+    /// The circuits' names in layout order.
+    pub fn circuit_names(&self) -> Result<Vec<String>> {
+        Ok(self.store.db().circuits()?.into_iter().map(|c| c.name).collect())
     }
 
     pub fn cells(&self) -> Result<Vec<CellRow>> {

@@ -65,6 +65,19 @@ impl Plant {
         })
     }
 
+    /// Runs the checks of a batch and rolls it back: what `record_batch` would
+    /// say, without writing anything (the screens' review step).
+    pub fn check_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
+        self.store.preview(|db| {
+            let mut out = Vec::with_capacity(entries.len());
+            for (entry, opts) in entries {
+                let by = initials(&opts.by)?;
+                out.push(record_in(db, entry, &by, opts)?);
+            }
+            Ok(out)
+        })
+    }
+
     /// Undoes an entry (the newest live one if `event` is `None`) by appending a
     /// void; refused if the history would no longer hold together without it.
     pub fn undo(&mut self, event: Option<i64>, opts: &Opts) -> Result<Event> {

@@ -1,0 +1,209 @@
+//! Every key of every screen, in one table per screen: the handlers resolve
+//! keys through these tables and the help and hint bar are printed from them,
+//! so the help can never drift from what the keys do.
+
+use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
+
+use super::app::{Action, View};
+
+/// A key as the tables name it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Key {
+    Char(char),
+    Up,
+    Down,
+    Left,
+    Right,
+    Enter,
+    Esc,
+    Tab,
+    BackTab,
+    PageUp,
+    PageDown,
+    Home,
+    End,
+    Backspace,
+    F(u8),
+}
+
+impl Key {
+    pub fn from_event(e: KeyEvent) -> Option<Key> {
+        if e.modifiers.contains(KeyModifiers::CONTROL) {
+            return match e.code {
+                KeyCode::Char('c') => Some(Key::Char('q')),
+                _ => None,
+            };
+        }
+        Some(match e.code {
+            KeyCode::Char(c) => Key::Char(c),
+            KeyCode::Up => Key::Up,
+            KeyCode::Down => Key::Down,
+            KeyCode::Left => Key::Left,
+            KeyCode::Right => Key::Right,
+            KeyCode::Enter => Key::Enter,
+            KeyCode::Esc => Key::Esc,
+            KeyCode::Tab => Key::Tab,
+            KeyCode::BackTab => Key::BackTab,
+            KeyCode::PageUp => Key::PageUp,
+            KeyCode::PageDown => Key::PageDown,
+            KeyCode::Home => Key::Home,
+            KeyCode::End => Key::End,
+            KeyCode::Backspace => Key::Backspace,
+            KeyCode::F(n) => Key::F(n),
+            _ => return None,
+        })
+    }
+
+    pub fn label(self) -> String {
+        match self {
+            Key::Char(' ') => "Space".into(),
+            Key::Char(c) => c.to_string(),
+            Key::Up => "↑".into(),
+            Key::Down => "↓".into(),
+            Key::Left => "←".into(),
+            Key::Right => "→".into(),
+            Key::Enter => "Enter".into(),
+            Key::Esc => "Esc".into(),
+            Key::Tab => "Tab".into(),
+            Key::BackTab => "S-Tab".into(),
+            Key::PageUp => "PgUp".into(),
+            Key::PageDown => "PgDn".into(),
+            Key::Home => "Home".into(),
+            Key::End => "End".into(),
+            Key::Backspace => "Bksp".into(),
+            Key::F(n) => format!("F{n}"),
+        }
+    }
+}
+
+/// One row of a key table.
+pub struct Binding {
+    pub keys: &'static [Key],
+    pub action: Action,
+    pub help: &'static str,
+    /// The short label in the hint bar, for the main keys (all keys are in the help).
+    pub hint: Option<&'static str>,
+}
+
+const fn b(keys: &'static [Key], action: Action, help: &'static str, hint: Option<&'static str>) -> Binding {
+    Binding { keys, action, help, hint }
+}
+
+use Key::*;
+
+/// Keys every screen shares (after the screen's own).
+pub const GLOBAL: &[Binding] = &[
+    b(
+        &[Char('n')],
+        Action::EntryMenu,
+        "new shift-log entry (harvest, anodes, scrap, …)",
+        Some("new entry"),
+    ),
+    b(&[Char('u')], Action::UndoLast, "undo the newest entry (asks first)", Some("undo")),
+    b(&[Char('t')], Action::ShowView(View::Tankhouse), "tankhouse: every cell", None),
+    b(&[Char('r')], Action::ShowView(View::Rectifier), "rectifiers: circuit current", None),
+    b(&[Char('e')], Action::ShowView(View::Entries), "entries: the event log", None),
+    b(&[Char('i')], Action::AskInitials, "change who is logging (initials)", None),
+    b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
+    b(&[F(5)], Action::Reload, "reload from the database", None),
+    b(&[Char('?')], Action::Help, "help: every key of this screen", Some("help")),
+    b(&[Char('q')], Action::Quit, "quit", Some("quit")),
+];
+
+pub const TANKHOUSE: &[Binding] = &[
+    b(&[Left, Char('h')], Action::Move(-1, 0), "previous cell", None),
+    b(&[Right, Char('l')], Action::Move(1, 0), "next cell", None),
+    b(&[Up, Char('k')], Action::Move(0, -1), "cell above", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "cell below", None),
+    b(&[PageUp], Action::Page(-1), "page up", None),
+    b(&[PageDown], Action::Page(1), "page down", None),
+    b(&[Tab], Action::Section(1), "next section", None),
+    b(&[BackTab], Action::Section(-1), "previous section", None),
+    b(&[Enter], Action::OpenCell, "open the cell", Some("cell")),
+    b(
+        &[Char('/'), Char('g')],
+        Action::StartJump,
+        "go to a cell: type its id, then Enter",
+        Some("go to"),
+    ),
+    b(&[Char('L')], Action::Legend, "legend of the cell symbols", Some("legend")),
+];
+
+pub const CELL: &[Binding] = &[
+    b(&[Left, Char('h')], Action::Move(-1, 0), "previous cell", None),
+    b(&[Right, Char('l')], Action::Move(1, 0), "next cell", None),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+    b(&[Char('L')], Action::Legend, "legend of the cell symbols", None),
+];
+
+pub const RECTIFIER: &[Binding] = &[
+    b(&[Up, Char('k')], Action::Move(0, -1), "previous circuit", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "next circuit", None),
+    b(&[Left, Char('h')], Action::Span(-1), "shorter time span", Some("span")),
+    b(&[Right, Char('l')], Action::Span(1), "longer time span", None),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+];
+
+pub const ENTRIES: &[Binding] = &[
+    b(&[Up, Char('k')], Action::Move(0, -1), "previous entry", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "next entry", None),
+    b(
+        &[Char('x')],
+        Action::UndoSelected,
+        "undo the selected entry (asks first)",
+        Some("undo this"),
+    ),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+];
+
+/// The table of a screen.
+pub fn table(view: View) -> &'static [Binding] {
+    match view {
+        View::Tankhouse => TANKHOUSE,
+        View::Cell => CELL,
+        View::Rectifier => RECTIFIER,
+        View::Entries => ENTRIES,
+    }
+}
+
+/// Resolves a key on a screen: the screen's own table first, then the shared keys.
+pub fn resolve(view: View, key: Key) -> Option<Action> {
+    table(view).iter().chain(GLOBAL).find(|b| b.keys.contains(&key)).map(|b| b.action)
+}
+
+/// The labels of a binding's keys, e.g. "←/h".
+pub fn keys_label(b: &Binding) -> String {
+    b.keys.iter().map(|k| k.label()).collect::<Vec<_>>().join("/")
+}
+
+/// The hint bar's items for a screen.
+pub fn hints(view: View) -> Vec<(String, &'static str)> {
+    table(view)
+        .iter()
+        .chain(GLOBAL)
+        .filter_map(|b| b.hint.map(|h| (keys_label(b), h)))
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn no_key_is_bound_twice_on_a_screen() {
+        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries] {
+            let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
+            for (i, k) in all.iter().enumerate() {
+                assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");
+            }
+        }
+    }
+
+    #[test]
+    fn help_and_handlers_share_the_table() {
+        assert_eq!(resolve(View::Tankhouse, Key::Char('j')), Some(Action::Move(0, 1)));
+        assert_eq!(resolve(View::Cell, Key::Esc), Some(Action::Back));
+        assert_eq!(resolve(View::Tankhouse, Key::Esc), None);
+        assert!(hints(View::Tankhouse).iter().any(|(k, _)| k == "?"));
+    }
+}

@@ -1,0 +1,135 @@
+//! The rectifier screen: each circuit's current over the last days, with
+//! outages and reading gaps marked, and the ampere-hours of the production day.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::{Color, Modifier};
+use ratatui::symbols::Marker;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph};
+
+use super::app::App;
+use super::draw::{bold, fg};
+
+pub fn draw(f: &mut Frame, app: &App, area: Rect) {
+    if app.trends.is_empty() {
+        f.render_widget(Paragraph::new("loading…"), area);
+        return;
+    }
+    let list_h = (app.trends.len() as u16 + 2).min(area.height / 2);
+    let [list, chart] = Layout::vertical([Constraint::Length(list_h), Constraint::Min(5)]).areas(area);
+    let mut lines = vec![Line::styled(
+        format!(
+            "{:<6} {:>10} {:>16} {:>14}  notes",
+            "circuit", "now, A", "last reading", "today, kA·h"
+        ),
+        bold(),
+    )];
+    let first = app.trend_sel.saturating_sub(list_h.saturating_sub(2) as usize - 1);
+    for (i, t) in app.trends.iter().enumerate().skip(first).take(list_h as usize - 1) {
+        let last = t.last_reading.map_or("none".into(), |p| app.days.zone.show(p.t));
+        let now = t.last_reading.map_or("-".into(), |p| format!("{:.0}", p.amps));
+        let est = if t.today_ah.1 > 0.0 {
+            format!(" (+{:.1} est.)", t.today_ah.1 / 1000.0)
+        } else {
+            String::new()
+        };
+        let mut notes = Vec::new();
+        let planned = t.outages.iter().filter(|o| o.from > app.as_of).count();
+        if t.outages.len() > planned {
+            notes.push(format!("{} outage(s)", t.outages.len() - planned));
+        }
+        if planned > 0 {
+            notes.push(format!("{planned} planned"));
+        }
+        if !t.gaps.is_empty() {
+            notes.push(format!("{} gap(s)", t.gaps.len()));
+        }
+        let text = format!(
+            "{:<6} {:>10} {:>16} {:>14}  {}{est}",
+            t.name,
+            now,
+            last,
+            format!("{:.1}", t.today_ah.0 / 1000.0),
+            notes.join(", ")
+        );
+        let style = if i == app.trend_sel {
+            bold().add_modifier(Modifier::REVERSED)
+        } else {
+            Default::default()
+        };
+        lines.push(Line::styled(text, style));
+    }
+    f.render_widget(Paragraph::new(lines), list);
+    let Some(t) = app.trends.get(app.trend_sel) else { return };
+    let from = app.as_of - chrono::Duration::days(app.span_days);
+    let h = |x: crate::domain::charge::Time| (x - from).num_minutes() as f64 / 60.0;
+    let span_h = (app.span_days * 24) as f64;
+    let pts: Vec<(f64, f64)> = t
+        .points
+        .iter()
+        .filter(|(x, _)| *x >= from)
+        .map(|(x, a)| (h(*x), a / 1000.0))
+        .collect();
+    let top = (t.max_amps / 1000.0).max(1.0);
+    let outage: Vec<(f64, f64)> = t
+        .outages
+        .iter()
+        .flat_map(|s| {
+            let (a, b) = (h(s.from).max(0.0), h(s.to).min(span_h + 48.0));
+            (0..=20).map(move |k| (a + (b - a) * k as f64 / 20.0, 0.5))
+        })
+        .collect();
+    let gaps: Vec<(f64, f64)> = t
+        .gaps
+        .iter()
+        .flat_map(|s| [(h(s.from).max(0.0), top * 0.98), (h(s.to).max(0.0), top * 0.98)])
+        .collect();
+    let day = vec![(h(t.day_start), 0.0), (h(t.day_start), top)];
+    let ds = vec![
+        Dataset::default()
+            .name("kA")
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(fg(app, Color::Green))
+            .data(&pts),
+        Dataset::default()
+            .name("outage")
+            .marker(Marker::Block)
+            .graph_type(GraphType::Scatter)
+            .style(fg(app, Color::Red))
+            .data(&outage),
+        Dataset::default()
+            .name("gap")
+            .marker(Marker::Dot)
+            .graph_type(GraphType::Scatter)
+            .style(fg(app, Color::Blue))
+            .data(&gaps),
+        Dataset::default()
+            .name("day start")
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(fg(app, Color::DarkGray))
+            .data(&day),
+    ];
+    let title = Line::from(vec![
+        Span::raw(format!(" {} · last {} d · ", t.name, app.span_days)),
+        Span::styled("outage ▮ ", fg(app, Color::Red)),
+        Span::styled("gap • ", fg(app, Color::Blue)),
+        Span::raw(format!("estimate after last reading {:.0} A ", t.projected_amps)),
+    ]);
+    let x = Axis::default()
+        .bounds([0.0, span_h])
+        .labels(vec![Line::raw(format!("-{} d", app.span_days)), Line::raw("now")]);
+    let y = Axis::default()
+        .bounds([0.0, top])
+        .labels(vec![Line::raw("0"), Line::raw(format!("{top:.0} kA"))]);
+    f.render_widget(
+        Chart::new(ds)
+            .legend_position(None)
+            .block(Block::default().borders(Borders::ALL).title(title))
+            .x_axis(x)
+            .y_axis(y),
+        chart,
+    );
+}
