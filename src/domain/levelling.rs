@@ -218,6 +218,21 @@ impl std::error::Error for LevelError {}
 /// above. A task whose window lies wholly beyond the horizon is not an error:
 /// it is unplaced with [`Unplaced::WindowOutsideHorizon`].
 pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, LevelError> {
+    solve(tasks, cap, w, Method::Auto)
+}
+
+/// How [`solve`] picks its method; only tests ask for anything but `Auto`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Method {
+    /// As documented on [`level`].
+    Auto,
+    /// Branch and bound whatever the instance, from an empty seed, with or
+    /// without the flow relaxation (so tests can check the bare search).
+    #[cfg_attr(not(test), allow(dead_code))]
+    Search { relax: bool },
+}
+
+fn solve(tasks: &[Task], cap: &Capacity, w: Weights, method: Method) -> Result<Levelled, LevelError> {
     if cap.crew.len() != cap.anodes_per_day.len() {
         return Err(LevelError::HorizonMismatch {
             crew_days: cap.crew.len(),
@@ -280,7 +295,9 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
     let equal_anodes = items.iter().all(|it| Some(it.anodes) == first_anodes);
     let never_binds = supply_never_binds(&items, &cum);
 
-    let (assign, proven) = if !grouped && (equal_anodes || never_binds) {
+    let (assign, proven) = if let Method::Search { relax } = method {
+        branch_and_bound(&items, &cap.crew, &cum, vec![None; items.len()], relax)?
+    } else if !grouped && (equal_anodes || never_binds) {
         let per = if never_binds { 0 } else { first_anodes.unwrap_or(0) };
         let units = cumulative_units(&cum, per, items.len());
         let options: Vec<Vec<(usize, i128)>> = items.iter().map(Item::options).collect();
@@ -288,7 +305,7 @@ pub fn level(tasks: &[Task], cap: &Capacity, w: Weights) -> Result<Levelled, Lev
     } else {
         let seed = repair(&items, &cap.crew, &cum)?;
         if items.len() <= EXACT_SEARCH_MAX_UNITS {
-            branch_and_bound(&items, &cap.crew, &cum, seed)?
+            branch_and_bound(&items, &cap.crew, &cum, seed, true)?
         } else {
             (seed, false)
         }
@@ -1143,6 +1160,8 @@ struct Search<'a> {
     best_value: Cost,
     nodes: u64,
     aborted: bool,
+    /// Whether to use the flow relaxation (always, except in tests).
+    relax: bool,
 }
 
 /// What a flow relaxation tells the search about a node.
@@ -1317,22 +1336,26 @@ impl Search<'_> {
         }
         // The cheap bound ignores that units compete for crew and anodes;
         // the flow relaxation does not, and may even solve the subtree.
-        self.nodes += open.iter().map(|&j| items[j].size).sum::<u64>();
-        let Relaxation { bound, hint, solved } = self.relaxed(&open, &suffix_min)?;
-        if self.prunes(value + bound) {
-            return Ok(());
-        }
-        if let Some(plan) = solved {
-            for (&j, d) in open.iter().zip(plan) {
-                self.current[j] = d;
-                self.decided[j] = true;
+        let mut hint = None;
+        if self.relax {
+            self.nodes += open.iter().map(|&j| items[j].size).sum::<u64>();
+            let relaxation = self.relaxed(&open, &suffix_min)?;
+            if self.prunes(value + relaxation.bound) {
+                return Ok(());
             }
-            self.offer(value + bound);
-            for &j in &open {
-                self.current[j] = None;
-                self.decided[j] = false;
+            if let Some(plan) = relaxation.solved {
+                for (&j, d) in open.iter().zip(plan) {
+                    self.current[j] = d;
+                    self.decided[j] = true;
+                }
+                self.offer(value + relaxation.bound);
+                for &j in &open {
+                    self.current[j] = None;
+                    self.decided[j] = false;
+                }
+                return Ok(());
             }
-            return Ok(());
+            hint = relaxation.hint;
         }
         // The relaxation's choice first (a dive towards good plans), then the
         // cheapest days, unplaced last.
@@ -1413,6 +1436,7 @@ fn branch_and_bound(
     crew: &[u32],
     cum: &[u128],
     seed: Vec<Option<usize>>,
+    relax: bool,
 ) -> Result<(Vec<Option<usize>>, bool), LevelError> {
     let best_value = plan_value(items, &seed);
     // Groups first: once they are fixed, the flow relaxation of the single
@@ -1429,6 +1453,7 @@ fn branch_and_bound(
         best_value,
         nodes: 0,
         aborted: false,
+        relax,
     };
     search.run(0, Cost::ZERO)?;
     Ok((search.best, !search.aborted))
@@ -1767,8 +1792,10 @@ mod tests {
             (
                 prop::collection::vec(raw_task, 0..=6),
                 prop::collection::vec(0u32..=3, h),
-                prop::collection::vec(0u64..=120, h),
-                prop_oneof![0u64..=200, Just(u64::MAX)],
+                // Scaled to the anode counts (50 each, or 0 to 50 in tens)
+                // so that supply often binds, often exactly.
+                prop::collection::vec((0u64..=if equal_anodes { 24 } else { 5 }).prop_map(|k| 5 * k), h),
+                prop_oneof![(0u64..=if equal_anodes { 40 } else { 16 }).prop_map(|k| 5 * k), Just(u64::MAX)],
                 1u32..=8,
                 1u32..=16,
             )
@@ -1804,8 +1831,8 @@ mod tests {
         })
     }
 
-    fn agrees_with_brute_force((tasks, cap, w): Instance) -> Result<(), TestCaseError> {
-        let out = level(&tasks, &cap, w).map_err(|e| TestCaseError::fail(e.to_string()))?;
+    fn agrees_with_brute_force((tasks, cap, w): Instance, method: Method) -> Result<(), TestCaseError> {
+        let out = solve(&tasks, &cap, w, method).map_err(|e| TestCaseError::fail(e.to_string()))?;
         let best = brute_force(&tasks, &cap, w);
         check_plan(&tasks, &cap, w, &out).map_err(TestCaseError::fail)?;
         check_reasons(&tasks, &cap, &out).map_err(TestCaseError::fail)?;
@@ -1819,12 +1846,24 @@ mod tests {
     proptest! {
         #[test]
         fn equal_anodes_match_brute_force(inst in small(true, false)) {
-            agrees_with_brute_force(inst)?;
+            agrees_with_brute_force(inst, Method::Auto)?;
         }
 
         #[test]
         fn unequal_anodes_and_groups_match_brute_force(inst in small(false, true)) {
-            agrees_with_brute_force(inst)?;
+            agrees_with_brute_force(inst, Method::Auto)?;
+        }
+
+        #[test]
+        fn bare_search_matches_brute_force(inst in prop_oneof![small(true, false), small(false, true)]) {
+            // The branch and bound alone, without the flow relaxation that
+            // usually settles small instances at the root.
+            agrees_with_brute_force(inst, Method::Search { relax: false })?;
+        }
+
+        #[test]
+        fn search_from_empty_seed_matches_brute_force(inst in prop_oneof![small(true, false), small(false, true)]) {
+            agrees_with_brute_force(inst, Method::Search { relax: true })?;
         }
 
         #[test]

@@ -475,10 +475,10 @@ impl App {
                 None
             }
             Overlay::Menu => {
-                if let Key::Char(c) = key {
-                    if let Some((_, kind, _)) = MENU.iter().find(|(k, _, _)| *k == c) {
-                        self.open_form(*kind);
-                    }
+                if let Key::Char(c) = key
+                    && let Some((_, kind, _)) = MENU.iter().find(|(k, _, _)| *k == c)
+                {
+                    self.open_form(*kind);
                 }
                 None
             }
@@ -646,10 +646,10 @@ impl App {
         self.cells = f.cells;
         self.plant_warnings = f.warnings;
         self.circuits = circuits;
-        if let Some(id) = keep {
-            if let Some(i) = self.cells.iter().position(|c| c.cell == id) {
-                self.cursor = i;
-            }
+        if let Some(id) = keep
+            && let Some(i) = self.cells.iter().position(|c| c.cell == id)
+        {
+            self.cursor = i;
         }
         self.cursor = self.cursor.min(self.cells.len().saturating_sub(1));
         self.follow_cursor();

@@ -13,6 +13,9 @@ use super::draw::{bold, fg, state_mark};
 use crate::domain::charge::Time;
 use crate::domain::outlook::states;
 
+/// Chart points (hours since the start, value).
+type Series = Vec<(f64, f64)>;
+
 fn when(app: &App, t: Time) -> String {
     let d = (t - app.as_of).num_minutes() as f64 / 1440.0;
     let rel = if d >= 0.0 {
@@ -160,7 +163,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         let h = |t: Time| (t - tr.from).num_minutes() as f64 / 60.0;
         let x_max = h(tr.until).max(1.0);
         let last_read = detail.and_then(|d| d.last_reading);
-        let split = |pts: &[(Time, f64)], scale: f64| -> (Vec<(f64, f64)>, Vec<(f64, f64)>) {
+        let split = |pts: &[(Time, f64)], scale: f64| -> (Series, Series) {
             let cut = last_read.unwrap_or(app.as_of);
             let a = pts.iter().filter(|(t, _)| *t <= cut).map(|(t, v)| (h(*t), v * scale)).collect();
             let b = pts.iter().filter(|(t, _)| *t >= cut).map(|(t, v)| (h(*t), v * scale)).collect();

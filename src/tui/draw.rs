@@ -151,13 +151,14 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
                     Span::raw(b.help),
                 ]));
             }
-            lines.push(Line::raw(""));
-            lines.push(Line::raw("Any key closes this help."));
             let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 74, h), "Help", lines);
+            popup(f, centered(full, 74, h), "Help · any key closes", lines);
         }
         Overlay::Legend => {
-            let mut lines = vec![Line::raw("Each tile: cell id, state, days to harvest, anode % left.")];
+            let mut lines = vec![
+                Line::raw("Each tile: cell id, state, days to harvest, anode % left"),
+                Line::raw("('-' where there is none or the anodes are inert)."),
+            ];
             for s in CellState::ALL {
                 let (c, col) = state_mark(Some(s));
                 lines.push(Line::from(vec![

@@ -242,15 +242,13 @@ impl Form {
         if let (Some(from), Some(to)) = (
             self.fields.iter().position(|f| f.key == FieldKey::From),
             self.fields.iter().position(|f| f.key == FieldKey::To),
-        ) {
-            if let (Ok(a), Ok(b)) = (
-                cx.zone.parse_time(&self.fields[from].value),
-                cx.zone.parse_time(&self.fields[to].value),
-            ) {
-                if b <= a && self.fields[to].error.is_none() {
-                    self.fields[to].error = Some("ends before it starts".into());
-                }
-            }
+        ) && let (Ok(a), Ok(b)) = (
+            cx.zone.parse_time(&self.fields[from].value),
+            cx.zone.parse_time(&self.fields[to].value),
+        ) && b <= a
+            && self.fields[to].error.is_none()
+        {
+            self.fields[to].error = Some("ends before it starts".into());
         }
     }
 

@@ -23,8 +23,7 @@ pub fn tile_text(c: &CellForecast, mark: char, app: &App) -> String {
     };
     let pct = match &c.anode {
         Some(a) if c.anode_kind == crate::domain::layout::AnodeKind::Soluble => format!("{:.0}%", a.remaining_fraction * 100.0),
-        Some(_) => "ina".into(),
-        None => "-".into(),
+        _ => "-".into(),
     };
     format!("{:<4.4}{mark}{days:>5}{pct:>5}", c.cell)
 }
