@@ -86,7 +86,8 @@ pub enum Unplaced {
     /// enough free crew left).
     NoCrewCapacity,
     /// The crew could fit it alongside the placed cells (re-arranging days if
-    /// needed), but the anode supply does not allow it.
+    /// needed), but the anode supply does not allow it (when the plan is not
+    /// `exact`: not with the other changes as planned).
     NoAnodes,
 }
 
@@ -181,9 +182,10 @@ impl std::error::Error for LevelError {}
 /// * Otherwise (different anode counts under binding supply, or groups): each
 ///   group becomes one unit (crew use = member count, anodes = sum, cost =
 ///   sum, window = intersection). Up to [`EXACT_SEARCH_MAX_UNITS`] units, a
-///   depth-first branch and bound decides units (groups first, then single
-///   cells, each in cell-id order) and tries each unit's days cheapest first,
-///   unplaced last, checking crew and cumulative supply incrementally. Its
+///   depth-first branch and bound decides units (larger groups first, then
+///   single cells, ties in cell-id order) and tries each unit's days
+///   cheapest first (the relaxation's day before that), unplaced last,
+///   checking crew and cumulative supply incrementally. Its
 ///   bounds: cost so far plus each remaining unit's cheapest day still
 ///   feasible; then the exact min-cost flow optimum of the remaining units
 ///   with groups split and anodes turned into limits on how many cells fit
@@ -1118,7 +1120,6 @@ fn eject_for(items: &[Item], assign: &mut [Option<usize>], load: &mut Load, k: u
             assign[k] = Some(d);
             // Value change: k placed, evicted units re-placed or dropped.
             let mut change = Cost::placed(cost_on(it, d)) - Cost::dropped(it.size);
-            let mut moved = Vec::new();
             evicted.sort_by_key(|&j| (Reverse(items[j].size), j));
             for &j in &evicted {
                 change = change - Cost::placed(cost_on(&items[j], d));
@@ -1126,7 +1127,6 @@ fn eject_for(items: &[Item], assign: &mut [Option<usize>], load: &mut Load, k: u
                     Some((e, c)) => {
                         load.place(e, &items[j]);
                         assign[j] = Some(e);
-                        moved.push(j);
                         change = change + Cost::placed(c);
                     }
                     None => change = change + Cost::dropped(items[j].size),
@@ -1596,9 +1596,15 @@ mod tests {
         (t.earliest < h).then(|| (t.earliest, t.latest.min(h - 1)))
     }
 
+    /// The objective's cost of one task on day `d`, written out afresh so
+    /// that the brute force does not share the solver's code.
     fn weighted(t: &Task, d: usize, w: Weights) -> f64 {
-        let (e, l) = offsets(clamped_ideal(t), d);
-        w.early * e as f64 + w.late * l as f64
+        let ideal = t.ideal.clamp(t.earliest, t.latest);
+        if d > ideal {
+            w.late * (d - ideal) as f64
+        } else {
+            w.early * (ideal - d) as f64
+        }
     }
 
     /// Whether the days satisfy windows, groups, crew and (if asked) supply.

@@ -80,12 +80,21 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     f.render_widget(Paragraph::new(line).style(Style::default().add_modifier(Modifier::REVERSED)), area);
 }
 
+/// The status line: the latest message on the left; the database file, who is
+/// logging and the "as of" time always on the right.
 fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     let who = app.who.clone().unwrap_or_else(|| "—".into());
-    let db = shorten(&app.db_path, 28);
-    let mut spans = vec![Span::raw(format!("{db} │ by {who} │ as of {} ", app.days.zone.show(app.as_of)))];
+    let file = std::path::Path::new(&app.db_path)
+        .file_name()
+        .map_or(app.db_path.clone(), |n| n.to_string_lossy().into_owned());
+    let right = format!(" {} │ by {who} │ as of {} ", shorten(&file, 20), app.days.zone.show(app.as_of));
+    let room = (area.width as usize).saturating_sub(right.chars().count());
+    let mut left = Vec::new();
+    let mut used = 0;
     if app.unsaved.is_some() {
-        spans.push(Span::styled("│ UNSAVED ENTRY (w) ", bold().patch(fg(app, Color::Red))));
+        let t = "UNSAVED ENTRY (w) ";
+        used += t.chars().count();
+        left.push(Span::styled(t, bold().patch(fg(app, Color::Red))));
     }
     if let Some(s) = &app.status {
         let style = if s.bad {
@@ -93,9 +102,13 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
         } else {
             fg(app, Color::Green)
         };
-        spans.push(Span::styled(format!("│ {}", s.text), style));
+        let text: String = s.text.chars().take(room.saturating_sub(used + 1)).collect();
+        used += text.chars().count();
+        left.push(Span::styled(text, style));
     }
-    f.render_widget(Paragraph::new(Line::from(spans)), area);
+    left.push(Span::raw(" ".repeat(room.saturating_sub(used))));
+    left.push(Span::styled(right, Style::default().add_modifier(Modifier::REVERSED)));
+    f.render_widget(Paragraph::new(Line::from(left)), area);
 }
 
 /// Keeps the end of a long path, which names the file.
