@@ -280,3 +280,21 @@ fn snapshots_of_every_view() {
     f.s.type_str("nh");
     snap("harvest_form", &f.s);
 }
+
+#[test]
+fn a_new_shift_asks_for_initials_again() {
+    let mut f = session();
+    start(&mut f);
+    // the demo plant runs two shifts a day from 06:00 local (05:00 UTC): 12 h later is the next shift
+    let later = fixed() + chrono::Duration::hours(12);
+    let fc = f.s.plant.forecast(later, None).unwrap();
+    f.s.app.loaded_forecast(fc, vec!["R1".into(), "R2".into()]);
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Initials(_))), "{:?}", f.s.app.overlay);
+    f.s.type_str("dt");
+    f.s.press(Key::Enter);
+    assert_eq!(f.s.app.who.as_deref(), Some("DT"));
+    // the same shift does not ask again
+    let fc = f.s.plant.forecast(later + chrono::Duration::hours(1), None).unwrap();
+    f.s.app.loaded_forecast(fc, vec!["R1".into(), "R2".into()]);
+    assert!(f.s.app.overlay.is_none());
+}

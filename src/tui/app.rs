@@ -119,6 +119,9 @@ pub struct App {
     pub days: ProductionDays,
     pub as_of: Time,
     pub who: Option<String>,
+    /// The shift the initials were given in: a new shift asks again.
+    pub who_shift: Option<(chrono::NaiveDate, u32)>,
+    pub shifts_per_day: u32,
     pub view: View,
     pub overlay: Option<Overlay>,
     pub cells: Vec<CellForecast>,
@@ -144,6 +147,9 @@ pub struct App {
 /// Width of one cell tile on the tankhouse screen, with its gap.
 pub const TILE_W: u16 = 15;
 pub const SPANS: [i64; 4] = [1, 3, 7, 14];
+/// From this many columns the tankhouse screen shows the selected cell beside the grid.
+pub const WIDE: u16 = 130;
+pub const SIDE_PANEL: u16 = 50;
 
 /// One line of the tankhouse grid.
 #[derive(Debug, Clone, PartialEq)]
@@ -184,6 +190,8 @@ impl App {
             days,
             as_of,
             who: None,
+            who_shift: None,
+            shifts_per_day: 1,
             view: View::Tankhouse,
             overlay: Some(Overlay::Initials(String::new())),
             cells: Vec::new(),
@@ -212,6 +220,14 @@ impl App {
         self.days.start_of(d + Duration::days(1))
     }
 
+    /// The shift `as_of` falls in: its production day and number (0 = the first).
+    pub fn shift(&self) -> (chrono::NaiveDate, u32) {
+        let day = self.days.day_of(self.as_of);
+        let into = (self.as_of - self.days.start_of(day)).num_minutes().max(0);
+        let len = (24 * 60 / i64::from(self.shifts_per_day.max(1))).max(1);
+        (day, (into / len) as u32)
+    }
+
     pub fn selected(&self) -> Option<&CellForecast> {
         self.cells.get(self.cursor)
     }
@@ -230,9 +246,14 @@ impl App {
         });
     }
 
+    /// Columns the tile grid uses: all of them, less the side panel on a wide terminal.
+    pub fn grid_width(&self) -> u16 {
+        if self.width >= WIDE { self.width - SIDE_PANEL } else { self.width }
+    }
+
     /// Tiles per line at the current width.
     pub fn per_row(&self) -> usize {
-        (self.width.saturating_sub(1) / TILE_W).max(1) as usize
+        (self.grid_width().saturating_sub(1) / TILE_W).max(1) as usize
     }
 
     /// Lines the tankhouse grid may use (the screen less title, status and hint lines).
@@ -518,9 +539,10 @@ impl App {
                 match key {
                     Key::Enter if !s.trim().is_empty() => {
                         self.who = Some(s.trim().to_uppercase());
+                        self.who_shift = Some(self.shift());
                         self.say(format!("logging as {}", s.trim().to_uppercase()));
                     }
-                    Key::Esc if self.who.is_some() => {}
+                    Key::Esc if self.who.is_some() => self.who_shift = Some(self.shift()),
                     Key::Backspace => {
                         s.pop();
                         self.overlay = Some(Overlay::Initials(s));
@@ -653,6 +675,10 @@ impl App {
         }
         self.cursor = self.cursor.min(self.cells.len().saturating_sub(1));
         self.follow_cursor();
+        if self.who.is_some() && self.who_shift.is_some_and(|s| s != self.shift()) && self.overlay.is_none() {
+            self.overlay = Some(Overlay::Initials(String::new()));
+            self.say("a new shift has started: who is logging now?");
+        }
     }
 
     pub fn loaded_detail(&mut self, d: CellDetail) {

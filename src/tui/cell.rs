@@ -11,7 +11,9 @@ use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragrap
 use super::app::App;
 use super::draw::{bold, fg, state_mark};
 use crate::domain::charge::Time;
+use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
+use crate::plant::CellDetail;
 
 /// Chart points (hours since the start, value).
 type Series = Vec<(f64, f64)>;
@@ -31,11 +33,9 @@ fn short(app: &App, t: Time) -> String {
     app.days.zone.local(t).format("%m-%d %H:%M").to_string()
 }
 
-pub fn draw(f: &mut Frame, app: &App, area: Rect) {
-    let Some(c) = app.selected() else { return };
-    let detail = app.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
-    let wide = area.width >= 100;
-    let [left, right] = Layout::horizontal([Constraint::Length(if wide { 56 } else { 40 }), Constraint::Min(20)]).areas(area);
+/// The cell's figures as lines of text: the cell screen's left side, and the
+/// tankhouse screen's side panel on a wide terminal (without `detail`).
+pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail>, wide: bool, rows: usize) -> Vec<Line<'a>> {
     let mut l: Vec<Line> = Vec::new();
     let st = states(c, app.as_of, app.day_end());
     let mut head = vec![
@@ -142,7 +142,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             .events
             .iter()
             .filter(|e| e.kind != crate::domain::history::EventKind::Voltage)
-            .take(left.height as usize)
+            .take(rows)
         {
             let what = match (e.kind.name(), e.kg, e.count, e.volts) {
                 ("void", ..) => format!("undoes {}", e.voids.unwrap_or(0)),
@@ -154,9 +154,16 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             let mark = if e.voided { " (undone)" } else { "" };
             l.push(Line::raw(format!("  {} {} {what} {}{mark}", short(app, e.at), e.kind.name(), e.by)));
         }
-    } else {
-        l.push(Line::raw("loading…"));
     }
+    l
+}
+
+pub fn draw(f: &mut Frame, app: &App, area: Rect) {
+    let Some(c) = app.selected() else { return };
+    let detail = app.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
+    let wide = area.width >= 100;
+    let [left, right] = Layout::horizontal([Constraint::Length(if wide { 56 } else { 40 }), Constraint::Min(20)]).areas(area);
+    let l = summary(app, c, detail, wide, left.height as usize);
     f.render_widget(Paragraph::new(l), left);
     if let Some(tr) = detail.and_then(|d| d.trajectory.as_ref()) {
         let d = detail.map(|d| &d.params);

@@ -36,7 +36,8 @@ impl Session {
     /// Opens the screens on a plant with a layout, as of `clock()`.
     pub fn open(plant: Plant, clock: fn() -> Time, color: bool) -> Result<Session> {
         let info = plant.info()?;
-        let app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
+        let mut app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
+        app.shifts_per_day = info.plan.shifts_per_day.max(1);
         let mut s = Session { plant, app, clock };
         s.perform(Effect::Reload);
         Ok(s)

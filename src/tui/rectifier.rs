@@ -16,7 +16,12 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         f.render_widget(Paragraph::new("loading…"), area);
         return;
     }
-    let list_h = (app.trends.len() as u16 + 2).min(area.height / 2);
+    let warn_lines: Vec<Line> = app
+        .plant_warnings
+        .iter()
+        .map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red)))
+        .collect();
+    let list_h = (app.trends.len() as u16 + 2 + warn_lines.len() as u16).min(area.height / 2);
     let [list, chart] = Layout::vertical([Constraint::Length(list_h), Constraint::Min(5)]).areas(area);
     let mut lines = vec![Line::styled(
         format!(
@@ -26,7 +31,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         bold(),
     )];
     let first = app.trend_sel.saturating_sub(list_h.saturating_sub(2) as usize - 1);
-    for (i, t) in app.trends.iter().enumerate().skip(first).take(list_h as usize - 1) {
+    for (i, t) in app.trends.iter().enumerate().skip(first).take((list_h as usize).saturating_sub(1)) {
         let last = t.last_reading.map_or("none".into(), |p| app.days.zone.show(p.t));
         let now = t.last_reading.map_or("-".into(), |p| format!("{:.0}", p.amps));
         let est = if t.today_ah.1 > 0.0 {
@@ -60,6 +65,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         };
         lines.push(Line::styled(text, style));
     }
+    lines.extend(warn_lines);
     f.render_widget(Paragraph::new(lines), list);
     let Some(t) = app.trends.get(app.trend_sel) else { return };
     let from = app.as_of - chrono::Duration::days(app.span_days);

@@ -2,12 +2,12 @@
 //! with its state letter, days to harvest and anode percentage.
 
 use ratatui::Frame;
-use ratatui::layout::Rect;
+use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
 use ratatui::text::{Line, Span};
-use ratatui::widgets::Paragraph;
+use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 
-use super::app::{App, GridLine, grid};
+use super::app::{App, GridLine, SIDE_PANEL, WIDE, grid};
 use super::draw::{bold, fg, state_mark};
 use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
@@ -22,10 +22,11 @@ pub fn tile_text(c: &CellForecast, mark: char, app: &App) -> String {
         None => "-".into(),
     };
     let pct = match &c.anode {
+        Some(a) if c.anode_kind == crate::domain::layout::AnodeKind::Soluble && a.remaining_fraction >= 0.995 => "new".into(),
         Some(a) if c.anode_kind == crate::domain::layout::AnodeKind::Soluble => format!("{:.0}%", a.remaining_fraction * 100.0),
         _ => "-".into(),
     };
-    format!("{:<4.4}{mark}{days:>5}{pct:>5}", c.cell)
+    format!("{:<4.4}{mark}{days:>5}{pct:>4}", c.cell)
 }
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
@@ -36,6 +37,13 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         );
         return;
     }
+    let area = if area.width >= WIDE {
+        let [grid_area, side] = Layout::horizontal([Constraint::Min(20), Constraint::Length(SIDE_PANEL)]).areas(area);
+        draw_side(f, app, side);
+        grid_area
+    } else {
+        area
+    };
     let g = grid(&app.cells, app.per_row());
     let end = app.day_end();
     let rows = area.height as usize;
@@ -81,4 +89,19 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             );
         }
     }
+}
+
+/// The selected cell and the plant's data warnings, beside the grid on a wide terminal.
+fn draw_side(f: &mut Frame, app: &App, area: Rect) {
+    let Some(c) = app.selected() else { return };
+    let mut lines = super::cell::summary(app, c, None, false, 0);
+    if !app.plant_warnings.is_empty() {
+        lines.push(Line::raw(""));
+        lines.push(Line::styled("Data warnings", bold()));
+        for w in &app.plant_warnings {
+            lines.push(Line::styled(format!("! {}", w.message), fg(app, Color::Red)));
+        }
+    }
+    let block = Block::default().borders(Borders::LEFT).title(" selected cell ");
+    f.render_widget(Paragraph::new(lines).block(block).wrap(Wrap { trim: false }), area);
 }
