@@ -298,3 +298,56 @@ fn a_new_shift_asks_for_initials_again() {
     f.s.app.loaded_forecast(fc, vec!["R1".into(), "R2".into()]);
     assert!(f.s.app.overlay.is_none());
 }
+
+#[test]
+fn an_anode_change_is_one_confirmed_entry_of_scrap_crop_and_anodes() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('d'));
+    let cell = f.s.app.selected().unwrap().clone();
+    assert!(
+        tankbook::domain::outlook::states(&cell, fixed(), f.s.app.day_end())
+            .iter()
+            .any(|s| matches!(
+                s,
+                tankbook::domain::outlook::CellState::AnodesDue
+                    | tankbook::domain::outlook::CellState::HarvestDue
+                    | tankbook::domain::outlook::CellState::HarvestOverdue
+            ))
+    );
+    // go to a cell due for anodes
+    let due =
+        f.s.app
+            .cells
+            .iter()
+            .find(|c| c.anode.as_ref().and_then(|a| a.pull_due).is_some_and(|t| t < f.s.app.day_end()))
+            .unwrap()
+            .clone();
+    f.s.type_str(&format!("/{}", due.cell));
+    f.s.press(Key::Enter);
+    let a = due.anode.as_ref().unwrap();
+    let k = due.cathode.as_ref().unwrap();
+    let scrap = format!("{:.0}", a.remaining_kg * f64::from(a.count));
+    let crop = format!("{:.0}", k.inner_mass_kg * f64::from(a.count) * 0.99);
+    f.s.type_str("na");
+    f.s.type_str(&scrap);
+    f.s.press(Key::Tab);
+    f.s.type_str(&crop);
+    f.s.press(Key::Tab);
+    f.s.press(Key::Tab);
+    f.s.type_str("381");
+    f.s.press(Key::Enter);
+    assert!(
+        matches!(&f.s.app.overlay, Some(Overlay::Review(r)) if r.entries.len() == 3 && r.questions.is_empty()),
+        "{:?}",
+        f.s.app.overlay
+    );
+    f.s.press(Key::Char('y'));
+    let after = forecast_of(&f.s, &due.cell);
+    let na = after.anode.unwrap();
+    assert_eq!((na.set_at, na.initial_kg, na.count), (fixed(), 381.0, a.count));
+    assert_eq!(after.cathode.unwrap().started_at, fixed());
+    let ev = f.s.plant.recent_events(Some(&due.cell), 3).unwrap();
+    let kinds: Vec<&str> = ev.iter().map(|e| e.kind.name()).collect();
+    assert_eq!(kinds, ["anodes", "harvest", "scrap"]);
+}

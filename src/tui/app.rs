@@ -40,6 +40,7 @@ pub enum Action {
     Page(i32),
     Section(i32),
     OpenCell,
+    NextDue,
     StartJump,
     Legend,
     Back,
@@ -380,6 +381,24 @@ impl App {
             Action::OpenCell => {
                 self.view = View::Cell;
                 self.selected().map(|c| Effect::LoadDetail(c.cell.clone()))
+            }
+            Action::NextDue => {
+                let end = self.day_end();
+                let n = self.cells.len();
+                let due = |c: &CellForecast| {
+                    crate::domain::outlook::states(c, self.as_of, end).iter().any(|s| {
+                        use crate::domain::outlook::CellState::*;
+                        matches!(s, HarvestOverdue | HarvestDue | AnodesDue | ThinAnode)
+                    })
+                };
+                match (1..=n).map(|k| (self.cursor + k) % n).find(|&i| due(&self.cells[i])) {
+                    Some(i) => {
+                        self.cursor = i;
+                        self.follow_cursor();
+                    }
+                    None => self.say("no cell is due today"),
+                }
+                None
             }
             Action::StartJump => {
                 self.overlay = Some(Overlay::Jump(String::new()));

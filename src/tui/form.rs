@@ -9,6 +9,7 @@ use crate::domain::plant_time::PlantZone;
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum FormKind {
     Harvest,
+    AnodeChange,
     Anodes,
     Scrap,
     Shorts,
@@ -23,8 +24,9 @@ pub enum FormKind {
 /// The entry menu: key, form, label.
 pub const MENU: &[(char, FormKind, &str)] = &[
     ('h', FormKind::Harvest, "harvest: crop pulled and weighed"),
-    ('a', FormKind::Anodes, "anode set: new anodes in"),
-    ('s', FormKind::Scrap, "scrap: anodes pulled, scrap weighed"),
+    ('a', FormKind::AnodeChange, "anode change: scrap, crop and new anodes"),
+    ('s', FormKind::Scrap, "scrap only: anodes pulled, scrap weighed"),
+    ('e', FormKind::Anodes, "anodes into an empty cell"),
     ('t', FormKind::Shorts, "shorts found"),
     ('x', FormKind::CutoutStart, "cut-out: cell out of circuit"),
     ('c', FormKind::CutoutEnd, "cut-out ends: cell back in circuit"),
@@ -38,6 +40,7 @@ impl FormKind {
     pub fn title(self) -> &'static str {
         match self {
             FormKind::Harvest => "Harvest",
+            FormKind::AnodeChange => "Anode change",
             FormKind::Anodes => "Anode set",
             FormKind::Scrap => "Anode scrap",
             FormKind::Shorts => "Shorts found",
@@ -55,6 +58,8 @@ impl FormKind {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum FieldKey {
     Cells,
+    /// The crop weighed at an anode change (may be left empty).
+    CropKg,
     Circuit,
     At,
     From,
@@ -70,6 +75,7 @@ impl FieldKey {
     fn label(self, kind: FormKind) -> &'static str {
         match (self, kind) {
             (FieldKey::Cells, _) => "Cells",
+            (FieldKey::CropKg, _) => "Copper kg per cell",
             (FieldKey::Circuit, _) => "Circuit",
             (FieldKey::At, _) => "Time",
             (FieldKey::From, _) => "From",
@@ -90,6 +96,7 @@ impl FieldKey {
             FieldKey::Circuit => "circuit name",
             FieldKey::At | FieldKey::From | FieldKey::To => "YYYY-MM-DD HH:MM, plant time",
             FieldKey::TotalKg => "one weight for all, or one per cell: 650,648",
+            FieldKey::CropKg => "as above; empty if the crop stays in",
             FieldKey::Count => "a whole number",
             FieldKey::MeanKg => "kg",
             FieldKey::Amps => "A",
@@ -105,7 +112,7 @@ impl FieldKey {
             FieldKey::At => "--at",
             FieldKey::From => "--from",
             FieldKey::To => "--to",
-            FieldKey::TotalKg => "--total-kg",
+            FieldKey::TotalKg | FieldKey::CropKg => "--total-kg",
             FieldKey::Count => "--count",
             FieldKey::MeanKg => "--mean-kg",
             FieldKey::Amps => "--amps",
@@ -155,6 +162,7 @@ impl Form {
         use FieldKey::*;
         let keys: &[FieldKey] = match kind {
             FormKind::Harvest => &[Cells, TotalKg, At],
+            FormKind::AnodeChange => &[Cells, TotalKg, CropKg, Count, MeanKg, At],
             FormKind::Anodes => &[Cells, Count, MeanKg, At],
             FormKind::Scrap => &[Cells, TotalKg, At],
             FormKind::Shorts => &[Cells, Count, At],
@@ -173,7 +181,7 @@ impl Form {
                     Circuit => circuit.to_string(),
                     At | From => now_text.to_string(),
                     To if kind == FormKind::CutoutEnd => now_text.to_string(),
-                    Count if kind == FormKind::Anodes => anodes.to_string(),
+                    Count if matches!(kind, FormKind::Anodes | FormKind::AnodeChange) => anodes.to_string(),
                     _ => String::new(),
                 };
                 Field {
@@ -229,6 +237,8 @@ impl Form {
                 FieldKey::Circuit => (!cx.circuits.iter().any(|c| c == v)).then(|| format!("no circuit '{v}': {}", cx.circuits.join(", "))),
                 FieldKey::At | FieldKey::From | FieldKey::To => cx.zone.parse_time(v).err().map(|e| e.to_string()),
                 FieldKey::TotalKg => parse_weights(v, n_cells.unwrap_or(1)).err(),
+                FieldKey::CropKg if v.is_empty() => None,
+                FieldKey::CropKg => parse_weights(v, n_cells.unwrap_or(1)).err(),
                 FieldKey::Count => v.parse::<u32>().err().map(|_| "a whole number".to_string()),
                 FieldKey::MeanKg | FieldKey::Amps | FieldKey::Volts => v
                     .parse::<f64>()
@@ -293,6 +303,38 @@ impl Form {
                         })
                         .collect(),
                 ))
+            }
+            FormKind::AnodeChange => {
+                // one confirmed change: scrap, then the crop, then the new anodes, at one instant
+                let cells = cells.clone()?;
+                let scrap = parse_weights(self.value(FieldKey::TotalKg), cells.len())?;
+                let crop = match self.value(FieldKey::CropKg) {
+                    "" => None,
+                    v => Some(parse_weights(v, cells.len())?),
+                };
+                let (at, n, kg) = (time(FieldKey::At)?, count()?, num(FieldKey::MeanKg)?);
+                let mut out = Vec::new();
+                for (i, cell) in cells.into_iter().enumerate() {
+                    out.push(Entry::Scrap {
+                        cell: cell.clone(),
+                        at,
+                        total_kg: scrap[i],
+                    });
+                    if let Some(c) = &crop {
+                        out.push(Entry::Harvest {
+                            cell: cell.clone(),
+                            at,
+                            total_kg: c[i],
+                        });
+                    }
+                    out.push(Entry::Anodes {
+                        cell,
+                        at,
+                        count: n,
+                        mean_kg: kg,
+                    });
+                }
+                Ok(Submission::Entries(out))
             }
             FormKind::Anodes => {
                 let (at, n, kg) = (time(FieldKey::At)?, count()?, num(FieldKey::MeanKg)?);

@@ -121,6 +121,12 @@ pub const TANKHOUSE: &[Binding] = &[
     b(&[BackTab], Action::Section(-1), "previous section", None),
     b(&[Enter], Action::OpenCell, "open the cell", Some("cell")),
     b(
+        &[Char('d')],
+        Action::NextDue,
+        "next cell due today (harvest, anodes, thin anodes)",
+        Some("next due"),
+    ),
+    b(
         &[Char('/'), Char('g')],
         Action::StartJump,
         "go to a cell: type its id, then Enter",
