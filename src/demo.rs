@@ -27,11 +27,7 @@ pub struct DemoSpec {
 
 impl Default for DemoSpec {
     fn default() -> Self {
-        DemoSpec {
-            cells: 102,
-            days: 60,
-            seed: 7,
-        }
+        DemoSpec { cells: 102, days: 60, seed: 7 }
     }
 }
 
@@ -93,11 +89,7 @@ const LIBERATOR_CROP_DAYS: f64 = 7.0;
 fn section_name(i: usize) -> String {
     let letters = b"ABCDEFGHJKMNPQRSTUVWXYZ";
     let n = letters.len();
-    if i < n {
-        (letters[i] as char).to_string()
-    } else {
-        format!("{}{}", letters[i / n - 1] as char, letters[i % n] as char)
-    }
+    if i < n { (letters[i] as char).to_string() } else { format!("{}{}", letters[i / n - 1] as char, letters[i % n] as char) }
 }
 
 fn designs(spec: &DemoSpec) -> Vec<CircuitDesign> {
@@ -117,13 +109,7 @@ fn designs(spec: &DemoSpec) -> Vec<CircuitDesign> {
         }
         // Two designs alternate: 50 anodes of 380 kg at 30.5 kA (305 A/m²), 48 of 370 kg at 28 kA (292 A/m²).
         let (amps, anodes, anode_kg) = if c % 2 == 0 { (30_500.0, 50, 380.0) } else { (28_000.0, 48, 370.0) };
-        out.push(CircuitDesign {
-            name: format!("R{}", c + 1),
-            amps,
-            anodes,
-            anode_kg,
-            sections,
-        });
+        out.push(CircuitDesign { name: format!("R{}", c + 1), amps, anodes, anode_kg, sections });
     }
     if let Some(last) = out.last_mut() {
         last.sections.push(("L".to_string(), liberators, true));
@@ -133,57 +119,28 @@ fn designs(spec: &DemoSpec) -> Vec<CircuitDesign> {
 
 /// Hours of anode life to the scrap target at the design current (η_a 1, w_Cu 0.995).
 fn life_hours(d: &CircuitDesign) -> f64 {
-    let load = AnodeLoad {
-        initial_kg: d.anode_kg,
-        count: d.anodes,
-        efficiency: 1.0,
-        copper_fraction: 0.995,
-        lug_kg: 20.0,
-    };
+    let load = AnodeLoad { initial_kg: d.anode_kg, count: d.anodes, efficiency: 1.0, copper_fraction: 0.995, lug_kg: 20.0 };
     load.charge_to_fraction_ah(0.15).unwrap_or(0.0) / d.amps
 }
 
 /// The demo layout file.
 pub fn layout_text(spec: &DemoSpec) -> String {
     let mut s = String::new();
-    let _ = writeln!(
-        s,
-        "# {DEMO_NAME}: an invented tankhouse for trying tankbook. Not a real plant's data."
-    );
-    let _ = writeln!(
-        s,
-        "[plant]\nname = \"{DEMO_NAME}\"\ntime_zone = \"Europe/Madrid\"\nday_starts_at = \"06:00\"\n"
-    );
-    let _ = writeln!(
-        s,
-        "[defaults]\nface_area_m2 = 1.0\nscrap_target = 0.15\nscrap_upper = 0.25\nscrap_lower = 0.10"
-    );
-    let _ = writeln!(
-        s,
-        "cathode_efficiency = 0.96\nanode_efficiency = 1.0\nanode_copper_fraction = 0.995\nlug_kg = 20.0"
-    );
+    let _ = writeln!(s, "# {DEMO_NAME}: an invented tankhouse for trying tankbook. Not a real plant's data.");
+    let _ = writeln!(s, "[plant]\nname = \"{DEMO_NAME}\"\ntime_zone = \"Europe/Madrid\"\nday_starts_at = \"06:00\"\n");
+    let _ = writeln!(s, "[defaults]\nface_area_m2 = 1.0\nscrap_target = 0.15\nscrap_upper = 0.25\nscrap_lower = 0.10");
+    let _ = writeln!(s, "cathode_efficiency = 0.96\nanode_efficiency = 1.0\nanode_copper_fraction = 0.995\nlug_kg = 20.0");
     let _ = writeln!(s, "thin_anode_mm = 3.0\nlow_efficiency_below = 0.90\ncrops_per_anode_cycle = 3\n");
-    let _ = writeln!(
-        s,
-        "[plan]\ncrew_cells_per_day = {CREW_CELLS}\nshifts_per_day = 2\nearly_weight = 1.0\nlate_weight = 3.0\n"
-    );
+    let _ = writeln!(s, "[plan]\ncrew_cells_per_day = {CREW_CELLS}\nshifts_per_day = 2\nearly_weight = 1.0\nlate_weight = 3.0\n");
     for d in designs(spec) {
         let life = life_hours(&d);
-        let cath = Cathodes {
-            count: d.anodes + 1,
-            anodes: d.anodes,
-            efficiency: 0.96,
-        };
+        let cath = Cathodes { count: d.anodes + 1, anodes: d.anodes, efficiency: 0.96 };
         let target = cath.mean_kg(d.amps * life / 3.0).round();
         let _ = writeln!(s, "[[circuit]]\nname = \"{}\"\nmax_amps = {}\n", d.name, d.amps * 1.2);
         for (name, n, inert) in &d.sections {
             let _ = writeln!(s, "[[circuit.section]]\nname = \"{name}\"\ncells = {n}");
             if *inert {
-                let lib = Cathodes {
-                    count: LIBERATOR_ANODES + 1,
-                    anodes: LIBERATOR_ANODES,
-                    efficiency: LIBERATOR_EFFICIENCY,
-                };
+                let lib = Cathodes { count: LIBERATOR_ANODES + 1, anodes: LIBERATOR_ANODES, efficiency: LIBERATOR_EFFICIENCY };
                 let t = lib.mean_kg(d.amps * LIBERATOR_CROP_DAYS * 24.0).round();
                 let _ = writeln!(
                     s,
@@ -249,16 +206,10 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     let mut outages: Vec<Vec<Span>> = vec![Vec::new(); designs.len()];
     let day = |f: f64| start + Duration::minutes((f * f64::from(spec.days) * 1440.0) as i64);
     let o1 = to_slot(day(0.3)) - Duration::hours(7) + Duration::minutes(130);
-    outages[0].push(Span {
-        from: o1,
-        to: o1 + Duration::minutes(210),
-    });
+    outages[0].push(Span { from: o1, to: o1 + Duration::minutes(210) });
     let o2 = to_slot(day(0.78)) - Duration::hours(3);
     if designs.len() > 1 {
-        outages[1].push(Span {
-            from: o2,
-            to: o2 + Duration::minutes(135),
-        });
+        outages[1].push(Span { from: o2, to: o2 + Duration::minutes(135) });
     }
     let gap = (to_slot(day(0.55)) + Duration::hours(2), to_slot(day(0.55)) + Duration::hours(6));
     let mut csv = String::from("time,circuit,amps\n");
@@ -280,55 +231,25 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
         }
     }
     let imported = plant.import_current(csv.as_bytes(), "demo current log", start)?;
-    let opts = |t: Time, force: bool| Opts {
-        by: foreman(t).to_string(),
-        force,
-        now: t.max(start),
-    };
+    let opts = |t: Time, force: bool| Opts { by: foreman(t).to_string(), force, now: t.max(start) };
     let mut circuit_entries = Vec::new();
     for (ci, d) in designs.iter().enumerate() {
         for o in &outages[ci] {
-            circuit_entries.push((
-                Entry::Outage {
-                    circuit: d.name.clone(),
-                    from: o.from,
-                    to: o.to,
-                },
-                opts(o.to, false),
-            ));
+            circuit_entries.push((Entry::Outage { circuit: d.name.clone(), from: o.from, to: o.to }, opts(o.to, false)));
         }
     }
     // Planned ahead: an outage on R1 in five days, a lower current on R2 from the day after tomorrow.
     let planned = to_slot(now + Duration::days(5));
-    circuit_entries.push((
-        Entry::Outage {
-            circuit: designs[0].name.clone(),
-            from: planned,
-            to: planned + Duration::hours(4),
-        },
-        opts(now, false),
-    ));
-    outages[0].push(Span {
-        from: planned,
-        to: planned + Duration::hours(4),
-    });
+    circuit_entries
+        .push((Entry::Outage { circuit: designs[0].name.clone(), from: planned, to: planned + Duration::hours(4) }, opts(now, false)));
+    outages[0].push(Span { from: planned, to: planned + Duration::hours(4) });
     if designs.len() > 1 {
         let amps = designs[1].amps - 1_000.0;
-        circuit_entries.push((
-            Entry::Setpoint {
-                circuit: designs[1].name.clone(),
-                from: to_slot(now + Duration::days(2)),
-                amps,
-            },
-            opts(now, false),
-        ));
+        circuit_entries
+            .push((Entry::Setpoint { circuit: designs[1].name.clone(), from: to_slot(now + Duration::days(2)), amps }, opts(now, false)));
     }
     plant.record_batch(&circuit_entries)?;
-    let curves: Vec<MemoryCurve> = readings
-        .iter()
-        .zip(&outages)
-        .map(|(r, o)| MemoryCurve::build(r, o, &[], now))
-        .collect();
+    let curves: Vec<MemoryCurve> = readings.iter().zip(&outages).map(|(r, o)| MemoryCurve::build(r, o, &[], now)).collect();
 
     let mut plans = plan_cells(&designs, spec, start, now);
     let mut entries: Vec<(Time, u8, Entry, Opts)> = Vec::new();
@@ -355,12 +276,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     if crop_start.is_none() {
                         crop_start = Some(t);
                     }
-                    Entry::Anodes {
-                        cell: p.cell.clone(),
-                        at: t,
-                        count,
-                        mean_kg,
-                    }
+                    Entry::Anodes { cell: p.cell.clone(), at: t, count, mean_kg }
                 }
                 Work::Harvest => {
                     let Some(s) = crop_start else { continue };
@@ -369,44 +285,23 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     let kg = (ECE_KG_PER_AH * q * (eta * (1.0 + 0.012 * rng.normal())).min(0.985)).round();
                     // the next crop starts while anodes are in; an anode change's scrap came just before
                     crop_start = load.map(|_| t);
-                    Entry::Harvest {
-                        cell: p.cell.clone(),
-                        at: t,
-                        total_kg: kg,
-                    }
+                    Entry::Harvest { cell: p.cell.clone(), at: t, total_kg: kg }
                 }
                 Work::Scrap => {
                     let Some((set, count, mean)) = load.take() else { continue };
                     let q = cell_charge(curve, &p.cutouts, set, t).unwrap_or_else(|e| match e {}).total();
-                    let a = AnodeLoad {
-                        initial_kg: mean,
-                        count,
-                        efficiency: (eta / 0.962).min(1.01),
-                        copper_fraction: 0.995,
-                        lug_kg: 20.0,
-                    };
+                    let a =
+                        AnodeLoad { initial_kg: mean, count, efficiency: (eta / 0.962).min(1.01), copper_fraction: 0.995, lug_kg: 20.0 };
                     let kg = (a.remaining_kg(q) * f64::from(count) * (1.0 + 0.015 * rng.normal())).round();
-                    Entry::Scrap {
-                        cell: p.cell.clone(),
-                        at: t,
-                        total_kg: kg,
-                    }
+                    Entry::Scrap { cell: p.cell.clone(), at: t, total_kg: kg }
                 }
                 Work::Cutout { hours } => {
                     let to = t + Duration::minutes((hours * 60.0) as i64);
-                    Entry::Cutout {
-                        cell: p.cell.clone(),
-                        from: t,
-                        to: (to <= now).then_some(to),
-                    }
+                    Entry::Cutout { cell: p.cell.clone(), from: t, to: (to <= now).then_some(to) }
                 }
                 Work::Shorts(n) => {
                     let n = if shorted { n + 2 } else { n };
-                    Entry::Shorts {
-                        cell: p.cell.clone(),
-                        at: t,
-                        count: n,
-                    }
+                    Entry::Shorts { cell: p.cell.clone(), at: t, count: n }
                 }
                 Work::Voltage(v) => {
                     let v = if inert {
@@ -416,11 +311,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     } else {
                         v + 0.008 * rng.normal()
                     };
-                    Entry::Voltage {
-                        cell: p.cell.clone(),
-                        at: t,
-                        volts: (v * 1000.0).round() / 1000.0,
-                    }
+                    Entry::Voltage { cell: p.cell.clone(), at: t, volts: (v * 1000.0).round() / 1000.0 }
                 }
             };
             entries.push((when, rank(&w), entry, opts(when, false)));
@@ -432,11 +323,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                 entries.push((
                     to_slot(t),
                     5,
-                    Entry::Shorts {
-                        cell: p.cell.clone(),
-                        at: to_slot(t),
-                        count: 2 + (rng.unit() * 4.0) as u32,
-                    },
+                    Entry::Shorts { cell: p.cell.clone(), at: to_slot(t), count: 2 + (rng.unit() * 4.0) as u32 },
                     opts(to_slot(t), false),
                 ));
                 t += Duration::hours(50 + (rng.unit() * 30.0) as i64);
@@ -446,29 +333,13 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     // One liberator cell's last voltage reads too low for an inert-anode cell: a short or a bad reading.
     if let Some(lib) = plans.iter().rev().find(|p| p.inert) {
         let t = now;
-        entries.push((
-            t,
-            6,
-            Entry::Voltage {
-                cell: lib.cell.clone(),
-                at: t,
-                volts: 0.62,
-            },
-            opts(t, true),
-        ));
+        entries.push((t, 6, Entry::Voltage { cell: lib.cell.clone(), at: t, volts: 0.62 }, opts(t, true)));
     }
     entries.sort_by_key(|a| (a.0, a.1));
     let batch: Vec<(Entry, Opts)> = entries.into_iter().map(|(_, _, e, o)| (e, o)).collect();
     let n = batch.len() + circuit_entries.len();
     plant.record_batch(&batch)?;
-    Ok(DemoSummary {
-        circuits: designs.len(),
-        cells: plans.len(),
-        readings: imported.added,
-        entries: n,
-        from: start,
-        to: now,
-    })
+    Ok(DemoSummary { circuits: designs.len(), cells: plans.len(), readings: imported.added, entries: n, from: start, to: now })
 }
 
 fn rank(w: &Work) -> u8 {
@@ -494,30 +365,15 @@ fn plan_cells(designs: &[CircuitDesign], spec: &DemoSpec, start: Time, now: Time
             for j in 0..*n {
                 let cell = format!("{name}{:0w$}", j + 1, w = n.to_string().len().max(2));
                 let mut rng = Rng::new(spec.seed, 100_000 + (ci * 10_000 + k) as u64);
-                let mut p = CellPlan {
-                    cell,
-                    circuit: ci,
-                    inert: *inert,
-                    events: Vec::new(),
-                    cutouts: Vec::new(),
-                };
+                let mut p = CellPlan { cell, circuit: ci, inert: *inert, events: Vec::new(), cutouts: Vec::new() };
                 let cut = |p: &mut CellPlan, t: Time, hours: f64| {
                     p.events.push((t, Work::Cutout { hours }));
                     let to = t + Duration::minutes((hours * 60.0) as i64);
-                    p.cutouts.push(OpenSpan {
-                        from: t,
-                        to: (to <= now).then_some(to),
-                    });
+                    p.cutouts.push(OpenSpan { from: t, to: (to <= now).then_some(to) });
                 };
                 if *inert {
                     let set = to_slot(start + Duration::hours((rng.unit() * 20.0) as i64));
-                    p.events.push((
-                        set,
-                        Work::Anodes {
-                            count: LIBERATOR_ANODES,
-                            mean_kg: 250.0,
-                        },
-                    ));
+                    p.events.push((set, Work::Anodes { count: LIBERATOR_ANODES, mean_kg: 250.0 }));
                     let mut t = set + Duration::hours((LIBERATOR_CROP_DAYS * 24.0 * (0.3 + 0.7 * rng.unit())) as i64);
                     while to_slot(t) < now {
                         let h = to_slot(t);

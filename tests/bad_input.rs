@@ -5,23 +5,7 @@ mod common;
 use common::*;
 
 fn plant() -> Tk {
-    let tk = Tk::with_layout("2026-03-02T00:00:00Z", "plant_check.toml");
-    let pts: Vec<(f64, f64)> = (0..=24).map(|h| (h as f64, 30_000.0)).collect();
-    let csv = tk.file("c.csv", &current_csv(&pts));
-    tk.ok(&["import", "current", &csv]);
-    tk.ok(&[
-        "log",
-        "anodes",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T02:00:00Z",
-        "--count",
-        "50",
-        "--mean-kg",
-        "380",
-    ]);
-    tk
+    plant_check_day("2026-03-01T02:00:00Z")
 }
 
 /// Runs a command that must be rejected: exit 1, every fragment in the message, nothing changed.
@@ -56,10 +40,7 @@ fn bad_current_files() {
     let csv = tk.file("conflict.csv", "time,circuit,amps\n2026-03-01T05:00:00Z,C1,29000\n");
     rejected(&tk, &["import", "current", &csv], &["line 2", "field amps", "stored 30000"]);
     // a good first row does not go in when a later one is bad
-    let csv = tk.file(
-        "half.csv",
-        "time,circuit,amps\n2026-03-02T01:00:00Z,C1,30000\n2026-03-02T02:00:00Z,C1,x\n",
-    );
+    let csv = tk.file("half.csv", "time,circuit,amps\n2026-03-02T01:00:00Z,C1,30000\n2026-03-02T02:00:00Z,C1,x\n");
     rejected(&tk, &["import", "current", &csv], &["line 3"]);
 }
 
@@ -86,120 +67,36 @@ fn bad_entries() {
     let tk = plant();
     let log = |rest: &[&str]| -> Vec<String> { ["log"].iter().chain(rest).map(|s| s.to_string()).collect() };
     let cases: Vec<(Vec<String>, Vec<&str>)> = vec![
+        (log(&["harvest", "--cell", "A09", "--at", "2026-03-01T12:00:00Z", "--total-kg", "500"]), vec!["--cell", "unknown cell A09"]),
+        (log(&["harvest", "--cell", "A01", "--at", "2026-03-01T01:00:00Z", "--total-kg", "500"]), vec!["--at", "before the crop began"]),
+        (log(&["harvest", "--cell", "A02", "--at", "2026-03-01T12:00:00Z", "--total-kg", "500"]), vec!["--at", "no crop is growing"]),
+        (log(&["harvest", "--cell", "A01", "--at", "yesterday", "--total-kg", "500"]), vec!["--at", "'yesterday' is not a time"]),
+        (log(&["harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "90000"]), vec!["--total-kg", "at most 15300 kg"]),
         (
-            log(&["harvest", "--cell", "A09", "--at", "2026-03-01T12:00:00Z", "--total-kg", "500"]),
-            vec!["--cell", "unknown cell A09"],
-        ),
-        (
-            log(&["harvest", "--cell", "A01", "--at", "2026-03-01T01:00:00Z", "--total-kg", "500"]),
-            vec!["--at", "before the crop began"],
-        ),
-        (
-            log(&["harvest", "--cell", "A02", "--at", "2026-03-01T12:00:00Z", "--total-kg", "500"]),
-            vec!["--at", "no crop is growing"],
-        ),
-        (
-            log(&["harvest", "--cell", "A01", "--at", "yesterday", "--total-kg", "500"]),
-            vec!["--at", "'yesterday' is not a time"],
-        ),
-        (
-            log(&["harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "90000"]),
-            vec!["--total-kg", "at most 15300 kg"],
-        ),
-        (
-            log(&[
-                "anodes",
-                "--cell",
-                "A02",
-                "--at",
-                "2026-03-01T12:00:00Z",
-                "--count",
-                "50",
-                "--mean-kg",
-                "38",
-            ]),
+            log(&["anodes", "--cell", "A02", "--at", "2026-03-01T12:00:00Z", "--count", "50", "--mean-kg", "38"]),
             vec!["--mean-kg", "100–600 kg"],
         ),
         (
-            log(&[
-                "anodes",
-                "--cell",
-                "A01",
-                "--at",
-                "2026-03-01T12:00:00Z",
-                "--count",
-                "50",
-                "--mean-kg",
-                "380",
-            ]),
+            log(&["anodes", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--count", "50", "--mean-kg", "380"]),
             vec!["already set", "scrap first"],
         ),
+        (log(&["scrap", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "20000"]), vec!["--total-kg", "at most 19000 kg"]),
+        (log(&["scrap", "--cell", "A02", "--at", "2026-03-01T12:00:00Z", "--total-kg", "2000"]), vec!["--cell", "no anodes"]),
         (
-            log(&["scrap", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "20000"]),
-            vec!["--total-kg", "at most 19000 kg"],
-        ),
-        (
-            log(&["scrap", "--cell", "A02", "--at", "2026-03-01T12:00:00Z", "--total-kg", "2000"]),
-            vec!["--cell", "no anodes"],
-        ),
-        (
-            log(&[
-                "cutout",
-                "--cell",
-                "A01",
-                "--from",
-                "2026-03-01T12:00:00Z",
-                "--to",
-                "2026-03-01T11:00:00Z",
-            ]),
+            log(&["cutout", "--cell", "A01", "--from", "2026-03-01T12:00:00Z", "--to", "2026-03-01T11:00:00Z"]),
             vec!["--to", "ends before it starts"],
         ),
         (
-            log(&[
-                "outage",
-                "--circuit",
-                "C1",
-                "--from",
-                "2026-03-01T12:00:00Z",
-                "--to",
-                "2026-03-01T11:00:00Z",
-            ]),
+            log(&["outage", "--circuit", "C1", "--from", "2026-03-01T12:00:00Z", "--to", "2026-03-01T11:00:00Z"]),
             vec!["--to", "ends before it starts"],
         ),
         (
-            log(&[
-                "outage",
-                "--circuit",
-                "C7",
-                "--from",
-                "2026-03-01T10:00:00Z",
-                "--to",
-                "2026-03-01T11:00:00Z",
-            ]),
+            log(&["outage", "--circuit", "C7", "--from", "2026-03-01T10:00:00Z", "--to", "2026-03-01T11:00:00Z"]),
             vec!["--circuit", "unknown circuit C7"],
         ),
-        (
-            log(&["setpoint", "--circuit", "C1", "--from", "2026-03-02T10:00:00Z", "--amps", "50000"]),
-            vec!["--amps", "0–45000 A"],
-        ),
-        (
-            log(&["voltage", "--cell", "A01", "--at", "2026-03-01T10:00:00Z", "--volts", "-1"]),
-            vec!["--volts"],
-        ),
-        (
-            log(&[
-                "shorts",
-                "--cell",
-                "A01",
-                "--at",
-                "2026-03-01T10:00:00Z",
-                "--count",
-                "5",
-                "--by",
-                "J D",
-            ]),
-            vec!["--by", "initials"],
-        ),
+        (log(&["setpoint", "--circuit", "C1", "--from", "2026-03-02T10:00:00Z", "--amps", "50000"]), vec!["--amps", "0–45000 A"]),
+        (log(&["voltage", "--cell", "A01", "--at", "2026-03-01T10:00:00Z", "--volts", "-1"]), vec!["--volts"]),
+        (log(&["shorts", "--cell", "A01", "--at", "2026-03-01T10:00:00Z", "--count", "5", "--by", "J D"]), vec!["--by", "initials"]),
         // questioned: heavier than the charge allows (10 h at 30 kA plates at most 355.6 kg)
         (
             log(&["harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "400"]),
@@ -215,17 +112,7 @@ fn bad_entries() {
 #[test]
 fn force_records_a_questioned_entry_and_marks_it() {
     let tk = plant();
-    let out = tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--total-kg",
-        "400",
-        "--force",
-    ]);
+    let out = tk.ok(&["log", "harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "400", "--force"]);
     assert!(out.contains("accepted with --force"), "{out}");
     let ev = tk.json(&["events", "--json"]);
     assert_eq!(ev["events"][0]["forced"], true);

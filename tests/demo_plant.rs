@@ -60,12 +60,7 @@ fn demo_is_plausible_against_the_trade() {
     assert!(!flagged.is_empty() && flagged.len() <= refining.len() / 10, "{flagged:?}");
     for c in &refining {
         if c["shorts"].as_u64().unwrap_or(0) >= 6 {
-            assert!(
-                flagged.contains(&c["cell"].as_str().unwrap()),
-                "{} has {} shorts but no flag",
-                c["cell"],
-                c["shorts"]
-            );
+            assert!(flagged.contains(&c["cell"].as_str().unwrap()), "{} has {} shorts but no flag", c["cell"], c["shorts"]);
         }
     }
 
@@ -79,11 +74,8 @@ fn demo_is_plausible_against_the_trade() {
              FROM reading r JOIN circuit c ON c.id = r.circuit_id WHERE r.valid = 1 AND r.amps > 0 GROUP BY c.id",
         )
         .unwrap();
-    let rows: Vec<(String, f64, String)> = st
-        .query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)))
-        .unwrap()
-        .map(Result::unwrap)
-        .collect();
+    let rows: Vec<(String, f64, String)> =
+        st.query_map([], |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?))).unwrap().map(Result::unwrap).collect();
     assert!(rows.len() >= 2);
     for (name, amps, params) in rows {
         let p: serde_json::Value = serde_json::from_str(&params).unwrap();
@@ -115,11 +107,7 @@ fn demo_refuses_a_real_plant_database() {
 #[test]
 fn demo_again_replaces_the_demo_database() {
     let tk = demo(&["--cells", "20", "--days", "21"]);
-    let out = tk
-        .cmd()
-        .args(["demo", "--no-tui", "--cells", "20", "--days", "21"])
-        .output()
-        .unwrap();
+    let out = tk.cmd().args(["demo", "--no-tui", "--cells", "20", "--days", "21"]).output().unwrap();
     assert!(out.status.success());
     assert!(String::from_utf8_lossy(&out.stderr).contains("replacing the demo database"));
 }

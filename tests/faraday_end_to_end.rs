@@ -19,18 +19,7 @@ fn plant_check_through_the_cli() {
     let pts: Vec<(f64, f64)> = (0..=470 * 4).map(|i| (i as f64 / 4.0, 30_000.0)).collect();
     let csv = tk.file("c.csv", &current_csv(&pts));
     tk.ok(&["import", "current", &csv]);
-    tk.ok(&[
-        "log",
-        "anodes",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T00:00:00Z",
-        "--count",
-        "50",
-        "--mean-kg",
-        "380",
-    ]);
+    tk.ok(&["log", "anodes", "--cell", "A01", "--at", "2026-03-01T00:00:00Z", "--count", "50", "--mean-kg", "380"]);
 
     let f = tk.json(&["forecast", "--cell", "A01", "--at", "2026-03-08T11:15:00Z", "--json"]);
     let c = &f["cells"][0];
@@ -60,52 +49,14 @@ fn hand_built_scenario_agrees_with_a_hand_calculation() {
     pts[22].1 = 5_000.0;
     let csv = tk.file("c.csv", &current_csv(&pts));
     tk.ok(&["import", "current", &csv]);
-    tk.ok(&[
-        "log",
-        "outage",
-        "--circuit",
-        "C1",
-        "--from",
-        "2026-03-01T20:00:00Z",
-        "--to",
-        "2026-03-02T02:00:00Z",
-    ]);
-    tk.ok(&[
-        "log",
-        "anodes",
-        "--cell",
-        "A02",
-        "--at",
-        "2026-03-01T02:00:00Z",
-        "--count",
-        "50",
-        "--mean-kg",
-        "380",
-    ]);
-    tk.ok(&[
-        "log",
-        "cutout",
-        "--cell",
-        "A02",
-        "--from",
-        "2026-03-01T10:00:00Z",
-        "--to",
-        "2026-03-01T13:00:00Z",
-    ]);
+    tk.ok(&["log", "outage", "--circuit", "C1", "--from", "2026-03-01T20:00:00Z", "--to", "2026-03-02T02:00:00Z"]);
+    tk.ok(&["log", "anodes", "--cell", "A02", "--at", "2026-03-01T02:00:00Z", "--count", "50", "--mean-kg", "380"]);
+    tk.ok(&["log", "cutout", "--cell", "A02", "--from", "2026-03-01T10:00:00Z", "--to", "2026-03-01T13:00:00Z"]);
 
     // By hand, crop 1 (2 h → 30 h): 28 h less the outage (6 h) and the cut-out (3 h) = 19 h at 30 kA = 570 000 A·h.
     let crop1_ah = 19.0 * 30_000.0;
     let weighed = 0.95 * ECE_G / 1000.0 * crop1_ah; // what 95 % efficiency would plate: 641.9 kg
-    tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A02",
-        "--at",
-        "2026-03-02T06:00:00Z",
-        "--total-kg",
-        &format!("{weighed:.3}"),
-    ]);
+    tk.ok(&["log", "harvest", "--cell", "A02", "--at", "2026-03-02T06:00:00Z", "--total-kg", &format!("{weighed:.3}")]);
 
     // As of 48 h: measured to 40 h, then the estimate at the mean of the last 24 h of readings.
     let f = tk.json(&["forecast", "--cell", "A02", "--at", "2026-03-03T00:00:00Z", "--json"]);
@@ -120,11 +71,7 @@ fn hand_built_scenario_agrees_with_a_hand_calculation() {
     let charge = c["charge_ah"].as_f64().unwrap();
     let est = c["estimated_ah"].as_f64().unwrap();
     assert!(close(est, estimated, 1e-3), "estimated {est} vs {estimated}");
-    assert!(
-        close(charge, measured + estimated, 1e-3),
-        "charge {charge} vs {}",
-        measured + estimated
-    );
+    assert!(close(charge, measured + estimated, 1e-3), "charge {charge} vs {}", measured + estimated);
 
     // Anode remaining by hand: 380 − ECE·(Q/50)/0.995.
     let remaining = 380.0 - ECE_G / 1000.0 * ((measured + estimated) / 50.0) / 0.995;
@@ -134,11 +81,7 @@ fn hand_built_scenario_agrees_with_a_hand_calculation() {
     assert!(close(c["last_crop_efficiency"].as_f64().unwrap(), 0.95, 1e-3));
     let crop2 = 150_000.0 + 31_500.0 + 132_000.0 + estimated;
     let mass = ECE_G / 1000.0 * crop2 * 0.96 / 51.0;
-    assert!(
-        close(c["cathode"]["mass_kg"].as_f64().unwrap(), mass, 1e-3),
-        "{} vs {mass}",
-        c["cathode"]["mass_kg"]
-    );
+    assert!(close(c["cathode"]["mass_kg"].as_f64().unwrap(), mass, 1e-3), "{} vs {mass}", c["cathode"]["mass_kg"]);
 
     // A00-style data warning: the stray 5 kA reading inside the outage is reported.
     let w = f["warnings"].as_array().unwrap();
@@ -160,18 +103,7 @@ fn back_fill_recomputes_the_charge() {
     two.ok(&["import", "current", &late]);
     two.ok(&["import", "current", &early]);
     for tk in [&one, &two] {
-        tk.ok(&[
-            "log",
-            "anodes",
-            "--cell",
-            "A01",
-            "--at",
-            "2026-03-01T01:00:00Z",
-            "--count",
-            "50",
-            "--mean-kg",
-            "380",
-        ]);
+        tk.ok(&["log", "anodes", "--cell", "A01", "--at", "2026-03-01T01:00:00Z", "--count", "50", "--mean-kg", "380"]);
     }
     let a = one.json(&["forecast", "--cell", "A01", "--json"]);
     let b = two.json(&["forecast", "--cell", "A01", "--json"]);
@@ -187,30 +119,8 @@ fn inert_cells_do_not_consume_anodes() {
     let pts: Vec<(f64, f64)> = (0..=24).map(|h| (h as f64, 30_000.0)).collect();
     let csv = tk.file("c.csv", &current_csv(&pts));
     tk.ok(&["import", "current", &csv]);
-    tk.ok(&[
-        "log",
-        "anodes",
-        "--cell",
-        "L1",
-        "--at",
-        "2026-03-01T00:00:00Z",
-        "--count",
-        "50",
-        "--mean-kg",
-        "380",
-        "--force",
-    ]);
-    tk.ok(&[
-        "log",
-        "voltage",
-        "--cell",
-        "L1",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--volts",
-        "0.5",
-        "--force",
-    ]);
+    tk.ok(&["log", "anodes", "--cell", "L1", "--at", "2026-03-01T00:00:00Z", "--count", "50", "--mean-kg", "380", "--force"]);
+    tk.ok(&["log", "voltage", "--cell", "L1", "--at", "2026-03-01T12:00:00Z", "--volts", "0.5", "--force"]);
     let f = tk.json(&["forecast", "--cell", "L1", "--json"]);
     let c = &f["cells"][0];
     assert_eq!(c["anode"]["remaining_fraction"].as_f64(), Some(1.0));

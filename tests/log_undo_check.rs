@@ -5,39 +5,14 @@ mod common;
 use common::*;
 
 fn plant() -> Tk {
-    let tk = Tk::with_layout("2026-03-02T00:00:00Z", "plant_check.toml");
-    let pts: Vec<(f64, f64)> = (0..=24).map(|h| (h as f64, 30_000.0)).collect();
-    let csv = tk.file("c.csv", &current_csv(&pts));
-    tk.ok(&["import", "current", &csv]);
-    tk.ok(&[
-        "log",
-        "anodes",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T00:00:00Z",
-        "--count",
-        "50",
-        "--mean-kg",
-        "380",
-    ]);
-    tk
+    plant_check_day("2026-03-01T00:00:00Z")
 }
 
 #[test]
 fn undo_appends_a_void_and_restores_the_forecast() {
     let tk = plant();
     let before = tk.json(&["forecast", "--cell", "A01", "--json"]);
-    tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--total-kg",
-        "300",
-    ]);
+    tk.ok(&["log", "harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "300"]);
     let harvested = tk.json(&["forecast", "--cell", "A01", "--json"]);
     assert_ne!(before["cells"], harvested["cells"]);
     let out = tk.ok(&["undo", "--by", "MK"]);
@@ -59,16 +34,7 @@ fn undo_appends_a_void_and_restores_the_forecast() {
 #[test]
 fn undo_that_would_break_the_history_is_refused() {
     let tk = plant();
-    tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--total-kg",
-        "300",
-    ]);
+    tk.ok(&["log", "harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "300"]);
     let before = tk.dump();
     let err = tk.fails(1, &["undo", "1"]);
     assert!(err.contains("inconsistent"), "{err}");
@@ -86,16 +52,7 @@ fn open_cutout_takes_the_cell_out_until_closed() {
     assert!(c["cathode"]["harvest_due"].is_null(), "no harvest while cut out for good");
     let err = tk.fails(1, &["log", "cutout", "--cell", "A01", "--from", "2026-03-01T13:00:00Z"]);
     assert!(err.contains("already cut out"), "{err}");
-    tk.ok(&[
-        "log",
-        "cutout",
-        "--cell",
-        "A01",
-        "--from",
-        "2026-03-01T12:00:00Z",
-        "--to",
-        "2026-03-01T18:00:00Z",
-    ]);
+    tk.ok(&["log", "cutout", "--cell", "A01", "--from", "2026-03-01T12:00:00Z", "--to", "2026-03-01T18:00:00Z"]);
     let c = &tk.json(&["forecast", "--cell", "A01", "--json"])["cells"][0];
     assert_eq!(c["in_circuit"], true);
     assert!((c["charge_ah"].as_f64().unwrap() - 18.0 * 30_000.0).abs() < 1e-6);
@@ -109,10 +66,7 @@ fn same_instant_anode_change_applies_scrap_harvest_anodes() {
     let tk = plant();
     let at = "2026-03-01T20:00:00Z";
     // entered in the "wrong" order: the new anodes first
-    tk.fails(
-        1,
-        &["log", "anodes", "--cell", "A01", "--at", at, "--count", "50", "--mean-kg", "375"],
-    );
+    tk.fails(1, &["log", "anodes", "--cell", "A01", "--at", at, "--count", "50", "--mean-kg", "375"]);
     tk.ok(&["log", "harvest", "--cell", "A01", "--at", at, "--total-kg", "650"]);
     tk.ok(&["log", "scrap", "--cell", "A01", "--at", at, "--total-kg", "17800", "--force"]);
     tk.ok(&["log", "anodes", "--cell", "A01", "--at", at, "--count", "50", "--mean-kg", "375"]);
@@ -126,16 +80,7 @@ fn same_instant_anode_change_applies_scrap_harvest_anodes() {
 #[test]
 fn check_passes_and_catches_tampering() {
     let tk = plant();
-    tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--total-kg",
-        "300",
-    ]);
+    tk.ok(&["log", "harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "300"]);
     let out = tk.ok(&["check"]);
     assert!(out.contains("ok:"), "{out}");
     {
@@ -154,11 +99,7 @@ fn backup_copies_a_live_database() {
     let dest = tk.dir.path().join("copy.db");
     let out = tk.ok(&["backup", dest.to_str().unwrap()]);
     assert!(out.contains("integrity checked"), "{out}");
-    let copy = Tk {
-        dir: tempfile::tempdir().unwrap(),
-        db: dest.clone(),
-        now: tk.now.clone(),
-    };
+    let copy = Tk { dir: tempfile::tempdir().unwrap(), db: dest.clone(), now: tk.now.clone() };
     assert_eq!(copy.json(&["forecast", "--json"]), tk.json(&["forecast", "--json"]));
     let err = tk.fails(1, &["backup", dest.to_str().unwrap()]);
     assert!(err.contains("already exists"), "{err}");
@@ -167,14 +108,9 @@ fn backup_copies_a_live_database() {
 #[test]
 fn a_layout_update_applies_from_its_load_time() {
     let tk = plant();
-    let text = std::fs::read_to_string(fixture("plant_check.toml"))
-        .unwrap()
-        .replace("cathode_efficiency = 0.96", "cathode_efficiency = 0.94");
-    let later = Tk {
-        dir: tempfile::tempdir().unwrap(),
-        db: tk.db.clone(),
-        now: "2026-03-02T06:00:00Z".into(),
-    };
+    let text =
+        std::fs::read_to_string(fixture("plant_check.toml")).unwrap().replace("cathode_efficiency = 0.96", "cathode_efficiency = 0.94");
+    let later = Tk { dir: tempfile::tempdir().unwrap(), db: tk.db.clone(), now: "2026-03-02T06:00:00Z".into() };
     let f = later.file("l2.toml", &text);
     let out = later.ok(&["layout", "load", &f]);
     assert!(out.contains("5 with changed parameters"), "{out}");
@@ -187,35 +123,12 @@ fn a_layout_update_applies_from_its_load_time() {
 #[test]
 fn a_late_cutout_inside_a_harvested_crop_changes_its_efficiency() {
     let tk = plant();
-    tk.ok(&[
-        "log",
-        "harvest",
-        "--cell",
-        "A01",
-        "--at",
-        "2026-03-01T12:00:00Z",
-        "--total-kg",
-        "400",
-        "--force",
-    ]);
-    let eff = |tk: &Tk| {
-        tk.json(&["forecast", "--cell", "A01", "--json"])["cells"][0]["last_crop_efficiency"]
-            .as_f64()
-            .unwrap()
-    };
+    tk.ok(&["log", "harvest", "--cell", "A01", "--at", "2026-03-01T12:00:00Z", "--total-kg", "400", "--force"]);
+    let eff = |tk: &Tk| tk.json(&["forecast", "--cell", "A01", "--json"])["cells"][0]["last_crop_efficiency"].as_f64().unwrap();
     // by hand: 12 h at 30 kA = 360 000 A·h → 426.8 kg at 100 % (ECE 1.18549 g/(A·h), CODATA/IUPAC)
     let before = eff(&tk);
     assert!((before - 400.0 / (1.185_486e-3 * 360_000.0)).abs() < 1e-4, "{before}");
-    tk.ok(&[
-        "log",
-        "cutout",
-        "--cell",
-        "A01",
-        "--from",
-        "2026-03-01T03:00:00Z",
-        "--to",
-        "2026-03-01T05:00:00Z",
-    ]);
+    tk.ok(&["log", "cutout", "--cell", "A01", "--from", "2026-03-01T03:00:00Z", "--to", "2026-03-01T05:00:00Z"]);
     let after = eff(&tk);
     assert!((after - 400.0 / (1.185_486e-3 * 300_000.0)).abs() < 1e-4, "{after}");
     assert!(tk.ok(&["check"]).contains("ok:"));

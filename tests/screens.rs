@@ -94,10 +94,8 @@ fn harvest_a_range_of_cells_through_the_form() {
     let mut f = session();
     start(&mut f);
     // weigh what the charge predicts, less 1 %: plausible, so not questioned
-    let weights: Vec<String> = ["A01", "A02", "A03"]
-        .iter()
-        .map(|c| format!("{:.0}", forecast_of(&f.s, c).cathode.unwrap().mass_kg * 51.0 * 0.99))
-        .collect();
+    let weights: Vec<String> =
+        ["A01", "A02", "A03"].iter().map(|c| format!("{:.0}", forecast_of(&f.s, c).cathode.unwrap().mass_kg * 51.0 * 0.99)).collect();
     let before = f.s.plant.recent_events(None, 1).unwrap()[0].id;
     f.s.type_str("/A01");
     f.s.press(Key::Enter);
@@ -114,17 +112,10 @@ fn harvest_a_range_of_cells_through_the_form() {
         "{:?}",
         f.s.app.overlay
     );
-    assert_eq!(
-        f.s.plant.recent_events(None, 1).unwrap()[0].id,
-        before,
-        "nothing is written before the yes"
-    );
+    assert_eq!(f.s.plant.recent_events(None, 1).unwrap()[0].id, before, "nothing is written before the yes");
     f.s.press(Key::Char('y'));
     let ev = f.s.plant.recent_events(None, 3).unwrap();
-    assert_eq!(
-        ev.iter().map(|e| e.cell.clone().unwrap()).collect::<Vec<_>>(),
-        ["A03", "A02", "A01"]
-    );
+    assert_eq!(ev.iter().map(|e| e.cell.clone().unwrap()).collect::<Vec<_>>(), ["A03", "A02", "A01"]);
     assert!(ev.iter().all(|e| e.by == "AK" && !e.forced));
     for c in ["A01", "A02", "A03"] {
         let fc = forecast_of(&f.s, c);
@@ -147,9 +138,7 @@ fn a_questioned_entry_needs_a_second_explicit_yes() {
     f.s.type_str("99999");
     f.s.press(Key::Enter);
     // 99 999 kg is over the hard limit for 51 cathodes: rejected beside the field
-    let Some(Overlay::Form(form)) = &f.s.app.overlay else {
-        panic!("{:?}", f.s.app.overlay)
-    };
+    let Some(Overlay::Form(form)) = &f.s.app.overlay else { panic!("{:?}", f.s.app.overlay) };
     assert!(form.fields[1].error.as_deref().unwrap_or("").contains("at most 15300"), "{form:?}");
     clear_field(&mut f.s);
     f.s.type_str("12000");
@@ -157,11 +146,7 @@ fn a_questioned_entry_needs_a_second_explicit_yes() {
     assert!(matches!(&f.s.app.overlay, Some(Overlay::Review(r)) if !r.questions.is_empty()));
     let before = f.s.plant.recent_events(None, 1).unwrap()[0].id;
     f.s.press(Key::Char('y'));
-    assert_eq!(
-        f.s.plant.recent_events(None, 1).unwrap()[0].id,
-        before,
-        "y alone does not record a questioned entry"
-    );
+    assert_eq!(f.s.plant.recent_events(None, 1).unwrap()[0].id, before, "y alone does not record a questioned entry");
     f.s.press(Key::Char('F'));
     f.s.press(Key::Char('y'));
     let e = &f.s.plant.recent_events(None, 1).unwrap()[0];
@@ -224,19 +209,8 @@ fn moving_jumping_and_views() {
 fn an_entry_that_fails_to_save_is_kept() {
     let mut f = session();
     start(&mut f);
-    let entry = tankbook::domain::entry::Entry::Shorts {
-        cell: "A01".into(),
-        at: fixed(),
-        count: 1,
-    };
-    let batch = vec![(
-        entry,
-        tankbook::plant::Opts {
-            by: "AK".into(),
-            force: false,
-            now: fixed(),
-        },
-    )];
+    let entry = tankbook::domain::entry::Entry::Shorts { cell: "A01".into(), at: fixed(), count: 1 };
+    let batch = vec![(entry, tankbook::plant::Opts { by: "AK".into(), force: false, now: fixed() })];
     assert_eq!(f.s.app.committed(batch.clone(), Err("disk I/O error".into())), None);
     assert_eq!(f.s.app.unsaved, Some(batch.clone()));
     assert!(f.s.app.status.as_ref().unwrap().text.contains("NOT SAVED"));
@@ -305,24 +279,15 @@ fn an_anode_change_is_one_confirmed_entry_of_scrap_crop_and_anodes() {
     start(&mut f);
     f.s.press(Key::Char('d'));
     let cell = f.s.app.selected().unwrap().clone();
-    assert!(
-        tankbook::domain::outlook::states(&cell, fixed(), f.s.app.day_end())
-            .iter()
-            .any(|s| matches!(
-                s,
-                tankbook::domain::outlook::CellState::AnodesDue
-                    | tankbook::domain::outlook::CellState::HarvestDue
-                    | tankbook::domain::outlook::CellState::HarvestOverdue
-            ))
-    );
+    assert!(tankbook::domain::outlook::states(&cell, fixed(), f.s.app.day_end()).iter().any(|s| matches!(
+        s,
+        tankbook::domain::outlook::CellState::AnodesDue
+            | tankbook::domain::outlook::CellState::HarvestDue
+            | tankbook::domain::outlook::CellState::HarvestOverdue
+    )));
     // go to a cell due for anodes
     let due =
-        f.s.app
-            .cells
-            .iter()
-            .find(|c| c.anode.as_ref().and_then(|a| a.pull_due).is_some_and(|t| t < f.s.app.day_end()))
-            .unwrap()
-            .clone();
+        f.s.app.cells.iter().find(|c| c.anode.as_ref().and_then(|a| a.pull_due).is_some_and(|t| t < f.s.app.day_end())).unwrap().clone();
     f.s.type_str(&format!("/{}", due.cell));
     f.s.press(Key::Enter);
     let a = due.anode.as_ref().unwrap();

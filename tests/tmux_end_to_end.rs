@@ -12,11 +12,8 @@ fn release_binary() -> PathBuf {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
     let bin = root.join("target/release/tankbook");
     if !bin.exists() {
-        let ok = Command::new(env!("CARGO"))
-            .args(["build", "--release", "--quiet"])
-            .current_dir(root)
-            .status()
-            .expect("cargo build --release");
+        let ok =
+            Command::new(env!("CARGO")).args(["build", "--release", "--quiet"]).current_dir(root).status().expect("cargo build --release");
         assert!(ok.success(), "cargo build --release failed");
     }
     bin
@@ -26,10 +23,7 @@ struct Tmux(String);
 
 impl Tmux {
     fn run(&self, args: &[&str]) -> String {
-        let out = Command::new("tmux")
-            .args(args)
-            .output()
-            .expect("tmux is needed for this test (apt-get install tmux)");
+        let out = Command::new("tmux").args(args).output().expect("tmux is needed for this test (apt-get install tmux)");
         String::from_utf8_lossy(&out.stdout).into_owned()
     }
     fn keys(&self, keys: &[&str]) {
@@ -48,10 +42,7 @@ impl Tmux {
             if s.contains(text) {
                 return s;
             }
-            assert!(
-                start.elapsed() < Duration::from_secs(20),
-                "waited for '{text}'; the screen shows:\n{s}"
-            );
+            assert!(start.elapsed() < Duration::from_secs(20), "waited for '{text}'; the screen shows:\n{s}");
             std::thread::sleep(Duration::from_millis(100));
         }
     }
@@ -68,11 +59,7 @@ fn log_a_harvest_in_the_real_terminal() {
     let bin = release_binary();
     let dir = tempfile::tempdir().unwrap();
     let db = dir.path().join("demo.db");
-    let st = Command::new(&bin)
-        .args(["--db", db.to_str().unwrap(), "demo", "--no-tui"])
-        .env("TANKBOOK_NOW", NOW)
-        .output()
-        .unwrap();
+    let st = Command::new(&bin).args(["--db", db.to_str().unwrap(), "demo", "--no-tui"]).env("TANKBOOK_NOW", NOW).output().unwrap();
     assert!(st.status.success(), "{}", String::from_utf8_lossy(&st.stderr));
     let forecast = |cell: &str| -> serde_json::Value {
         let out = Command::new(&bin)
@@ -111,12 +98,7 @@ fn log_a_harvest_in_the_real_terminal() {
     t.wait_for("recorded harvest for B02");
     t.keys(&["q"]);
     let start = Instant::now();
-    while Command::new("tmux")
-        .args(["has-session", "-t", &t.0])
-        .output()
-        .map(|o| o.status.success())
-        .unwrap_or(false)
-    {
+    while Command::new("tmux").args(["has-session", "-t", &t.0]).output().map(|o| o.status.success()).unwrap_or(false) {
         assert!(start.elapsed() < Duration::from_secs(10), "tankbook did not quit");
         std::thread::sleep(Duration::from_millis(100));
     }

@@ -81,11 +81,7 @@ pub fn run(cli: Cli) -> Result<()> {
                 s.cells,
                 s.new_cells,
                 s.params_changed,
-                if s.retired_cells.is_empty() {
-                    String::new()
-                } else {
-                    format!(", retired: {}", s.retired_cells.join(" "))
-                }
+                if s.retired_cells.is_empty() { String::new() } else { format!(", retired: {}", s.retired_cells.join(" ")) }
             );
         }
         Command::Import(ImportCmd::Current { file }) => {
@@ -94,20 +90,11 @@ pub fn run(cli: Cli) -> Result<()> {
                 (Some(a), Some(b)) => format!(" from {} to {}", plant.show_time(a), plant.show_time(b)),
                 _ => String::new(),
             };
-            println!(
-                "imported {}: {} readings added{span}, {} identical rows skipped",
-                file.display(),
-                s.added,
-                s.skipped
-            );
+            println!("imported {}: {} readings added{span}, {} identical rows skipped", file.display(), s.added, s.skipped);
         }
         Command::Log(cmd) => {
             let (entry, who) = entry(&plant, cmd)?;
-            let opts = Opts {
-                by: who.by,
-                force: who.force,
-                now,
-            };
+            let opts = Opts { by: who.by, force: who.force, now };
             let r = plant.record(&entry, &opts)?;
             let what = entry.kind().name();
             let whom = entry.cell().map(|c| format!(" for {c}")).unwrap_or_default();
@@ -117,21 +104,9 @@ pub fn run(cli: Cli) -> Result<()> {
             }
         }
         Command::Undo(a) => {
-            let e = plant.undo(
-                a.event,
-                &Opts {
-                    by: a.by,
-                    force: false,
-                    now,
-                },
-            )?;
+            let e = plant.undo(a.event, &Opts { by: a.by, force: false, now })?;
             let whom = e.cell.clone().or(e.circuit.clone()).unwrap_or_default();
-            println!(
-                "undid entry {} ({} {whom} at {}); the undo is recorded in the event log",
-                e.id,
-                e.kind.name(),
-                plant.show_time(e.at)
-            );
+            println!("undid entry {} ({} {whom} at {}); the undo is recorded in the event log", e.id, e.kind.name(), plant.show_time(e.at));
         }
         Command::Events(a) => print::events(&plant, a.cell.as_deref(), a.limit, a.json)?,
         Command::Forecast(a) => {
@@ -191,11 +166,7 @@ fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
         }
     }
     let mut plant = Plant::open(&path).with_context(|| format!("creating {}", path.display()))?;
-    let spec = crate::demo::DemoSpec {
-        cells: a.cells as usize,
-        days: a.days,
-        seed: a.seed,
-    };
+    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed };
     let s = crate::demo::build(&mut plant, &spec, now)?;
     eprintln!(
         "wrote the demo plant to {}: {} circuits, {} cells, {} readings and {} entries from {} to {}",
@@ -229,82 +200,19 @@ fn screens(plant: Plant) -> Result<()> {
 fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
     let t = |field: &str, s: &str| plant.parse_time(field, s);
     Ok(match cmd {
-        LogCmd::Anodes {
-            cell,
-            at,
-            count,
-            mean_kg,
-            who,
-        } => (
-            Entry::Anodes {
-                cell,
-                at: t("--at", &at)?,
-                count,
-                mean_kg,
-            },
-            who,
-        ),
-        LogCmd::Harvest { cell, at, total_kg, who } => (
-            Entry::Harvest {
-                cell,
-                at: t("--at", &at)?,
-                total_kg,
-            },
-            who,
-        ),
-        LogCmd::Scrap { cell, at, total_kg, who } => (
-            Entry::Scrap {
-                cell,
-                at: t("--at", &at)?,
-                total_kg,
-            },
-            who,
-        ),
+        LogCmd::Anodes { cell, at, count, mean_kg, who } => (Entry::Anodes { cell, at: t("--at", &at)?, count, mean_kg }, who),
+        LogCmd::Harvest { cell, at, total_kg, who } => (Entry::Harvest { cell, at: t("--at", &at)?, total_kg }, who),
+        LogCmd::Scrap { cell, at, total_kg, who } => (Entry::Scrap { cell, at: t("--at", &at)?, total_kg }, who),
         LogCmd::Cutout { cell, from, to, who } => {
             let to = match to {
                 Some(s) => Some(t("--to", &s)?),
                 None => None,
             };
-            (
-                Entry::Cutout {
-                    cell,
-                    from: t("--from", &from)?,
-                    to,
-                },
-                who,
-            )
+            (Entry::Cutout { cell, from: t("--from", &from)?, to }, who)
         }
-        LogCmd::Outage { circuit, from, to, who } => (
-            Entry::Outage {
-                circuit,
-                from: t("--from", &from)?,
-                to: t("--to", &to)?,
-            },
-            who,
-        ),
-        LogCmd::Shorts { cell, at, count, who } => (
-            Entry::Shorts {
-                cell,
-                at: t("--at", &at)?,
-                count,
-            },
-            who,
-        ),
-        LogCmd::Setpoint { circuit, from, amps, who } => (
-            Entry::Setpoint {
-                circuit,
-                from: t("--from", &from)?,
-                amps,
-            },
-            who,
-        ),
-        LogCmd::Voltage { cell, at, volts, who } => (
-            Entry::Voltage {
-                cell,
-                at: t("--at", &at)?,
-                volts,
-            },
-            who,
-        ),
+        LogCmd::Outage { circuit, from, to, who } => (Entry::Outage { circuit, from: t("--from", &from)?, to: t("--to", &to)? }, who),
+        LogCmd::Shorts { cell, at, count, who } => (Entry::Shorts { cell, at: t("--at", &at)?, count }, who),
+        LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t("--from", &from)?, amps }, who),
+        LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t("--at", &at)?, volts }, who),
     })
 }

@@ -24,11 +24,7 @@ pub fn forecast(plant: &Plant, f: &Forecast) {
     );
     for c in &f.cells {
         let (frac, mm, pull) = match &c.anode {
-            Some(a) => (
-                format!("{:.0}%", a.remaining_fraction * 100.0),
-                format!("{:.1}", a.thickness_mm),
-                due(plant, a.pull_due, f.as_of),
-            ),
+            Some(a) => (format!("{:.0}%", a.remaining_fraction * 100.0), format!("{:.1}", a.thickness_mm), due(plant, a.pull_due, f.as_of)),
             None => ("-".into(), "-".into(), "-".into()),
         };
         let (kg, harvest) = match &c.cathode {
@@ -62,10 +58,7 @@ pub fn forecast(plant: &Plant, f: &Forecast) {
 pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Result<()> {
     let ev = plant.recent_events(cell, limit)?;
     if json {
-        println!(
-            "{}",
-            serde_json::to_string_pretty(&serde_json::json!({ "schema": 1, "events": ev }))?
-        );
+        println!("{}", serde_json::to_string_pretty(&serde_json::json!({ "schema": 1, "events": ev }))?);
         return Ok(());
     }
     println!("{:>6} {:<9} {:<8} {:<17} {:<5} what", "entry", "kind", "where", "at", "by");
@@ -88,14 +81,7 @@ pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Re
         if e.forced {
             flags.push_str(" [forced]");
         }
-        println!(
-            "{:>6} {:<9} {:<8} {:<17} {:<5} {what}{flags}",
-            e.id,
-            e.kind.name(),
-            place,
-            plant.show_time(e.at),
-            e.by
-        );
+        println!("{:>6} {:<9} {:<8} {:<17} {:<5} {what}{flags}", e.id, e.kind.name(), place, plant.show_time(e.at), e.by);
     }
     Ok(())
 }

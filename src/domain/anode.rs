@@ -66,13 +66,7 @@ mod tests {
     // DOMAIN.md plant check (derived from CODATA F and IUPAC M, not a plant's data):
     // 50 anodes × 380 kg at 30 kA, w_Cu 0.995, η_a 1.00.
     fn plant_check() -> AnodeLoad {
-        AnodeLoad {
-            initial_kg: 380.0,
-            count: 50,
-            efficiency: 1.0,
-            copper_fraction: 0.995,
-            lug_kg: 20.0,
-        }
+        AnodeLoad { initial_kg: 380.0, count: 50, efficiency: 1.0, copper_fraction: 0.995, lug_kg: 20.0 }
     }
 
     #[test]

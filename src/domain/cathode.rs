@@ -40,11 +40,7 @@ mod tests {
     use super::*;
 
     // DOMAIN.md plant check (derived): 51 cathodes, 50 anodes, 30 kA, η_c 0.96.
-    const C: Cathodes = Cathodes {
-        count: 51,
-        anodes: 50,
-        efficiency: 0.96,
-    };
+    const C: Cathodes = Cathodes { count: 51, anodes: 50, efficiency: 0.96 };
 
     #[test]
     fn daily_copper_and_gain_per_cathode() {

@@ -117,10 +117,7 @@ pub fn segment_ah(p0: &Point, p1: &Point, outages: &[Span], x: Time, y: Time) ->
     if y <= x {
         return 0.0;
     }
-    uncovered(x, y, outages)
-        .iter()
-        .map(|s| hours(s.from, s.to) * (amps_at(p0, p1, s.from) + amps_at(p0, p1, s.to)) / 2.0)
-        .sum()
+    uncovered(x, y, outages).iter().map(|s| hours(s.from, s.to) * (amps_at(p0, p1, s.from) + amps_at(p0, p1, s.to)) / 2.0).sum()
 }
 
 /// Earliest instant in the segment at which the segment's charge since `p0`
@@ -168,19 +165,9 @@ pub fn accumulate(prev: Option<Point>, readings: &[RawReading], outages: &[Span]
         .map(|r| {
             if strictly_inside(r.t, outages) {
                 let cum_ah = last.map_or(0.0, |p| p.cum_ah);
-                return Accumulated {
-                    t: r.t,
-                    amps: r.amps,
-                    cum_ah,
-                    valid: false,
-                    gap_before: false,
-                };
+                return Accumulated { t: r.t, amps: r.amps, cum_ah, valid: false, gap_before: false };
             }
-            let here = Point {
-                t: r.t,
-                amps: r.amps,
-                cum_ah: 0.0,
-            };
+            let here = Point { t: r.t, amps: r.amps, cum_ah: 0.0 };
             let (cum_ah, gap_before) = match last {
                 None => (0.0, false),
                 Some(p) => {
@@ -189,13 +176,7 @@ pub fn accumulate(prev: Option<Point>, readings: &[RawReading], outages: &[Span]
                 }
             };
             last = Some(Point { cum_ah, ..here });
-            Accumulated {
-                t: r.t,
-                amps: r.amps,
-                cum_ah,
-                valid: true,
-                gap_before,
-            }
+            Accumulated { t: r.t, amps: r.amps, cum_ah, valid: true, gap_before }
         })
         .collect()
 }
@@ -231,20 +212,11 @@ impl Projection {
             Some(p) => recent_mean.unwrap_or(p.amps),
             None => 0.0,
         };
-        Projection {
-            start,
-            base_amps,
-            setpoints: sp,
-            outages,
-        }
+        Projection { start, base_amps, setpoints: sp, outages }
     }
 
     fn rate_at(&self, t: Time) -> f64 {
-        self.setpoints
-            .iter()
-            .rev()
-            .find(|(st, _)| *st <= t)
-            .map_or(self.base_amps, |(_, a)| *a)
+        self.setpoints.iter().rev().find(|(st, _)| *st <= t).map_or(self.base_amps, |(_, a)| *a)
     }
 
     /// Breakpoints (setpoint starts, outage bounds) strictly inside `(a, b)`.
@@ -320,16 +292,10 @@ impl Cum {
         self.measured + self.estimated
     }
     fn minus(self, o: Cum) -> Cum {
-        Cum {
-            measured: self.measured - o.measured,
-            estimated: self.estimated - o.estimated,
-        }
+        Cum { measured: self.measured - o.measured, estimated: self.estimated - o.estimated }
     }
     fn plus(self, o: Cum) -> Cum {
-        Cum {
-            measured: self.measured + o.measured,
-            estimated: self.estimated + o.estimated,
-        }
+        Cum { measured: self.measured + o.measured, estimated: self.estimated + o.estimated }
     }
 }
 
@@ -359,18 +325,9 @@ pub enum Around {
 /// Cumulative charge at `t` given what lies around it.
 pub fn cum_from(around: Around, t: Time, outages: &[Span], proj: &Projection) -> Cum {
     match around {
-        Around::BeforeFirst => Cum {
-            measured: 0.0,
-            estimated: proj.ah_between(proj.start.unwrap_or(t), t),
-        },
-        Around::Between(p0, p1) => Cum {
-            measured: p0.cum_ah + segment_ah(&p0, &p1, outages, p0.t, t),
-            estimated: 0.0,
-        },
-        Around::AfterLast(p) => Cum {
-            measured: p.cum_ah,
-            estimated: proj.ah_between(p.t, t),
-        },
+        Around::BeforeFirst => Cum { measured: 0.0, estimated: proj.ah_between(proj.start.unwrap_or(t), t) },
+        Around::Between(p0, p1) => Cum { measured: p0.cum_ah + segment_ah(&p0, &p1, outages, p0.t, t), estimated: 0.0 },
+        Around::AfterLast(p) => Cum { measured: p.cum_ah, estimated: proj.ah_between(p.t, t) },
     }
 }
 
@@ -408,18 +365,11 @@ impl MemoryCurve {
         let points: Vec<Point> = accumulate(None, &rs, &outages)
             .into_iter()
             .filter(|a| a.valid)
-            .map(|a| Point {
-                t: a.t,
-                amps: a.amps,
-                cum_ah: a.cum_ah,
-            })
+            .map(|a| Point { t: a.t, amps: a.amps, cum_ah: a.cum_ah })
             .collect();
         let last = points.last().copied();
-        let mut curve = MemoryCurve {
-            points,
-            outages: outages.clone(),
-            projection: Projection::new(last, None, setpoints, outages.clone()),
-        };
+        let mut curve =
+            MemoryCurve { points, outages: outages.clone(), projection: Projection::new(last, None, setpoints, outages.clone()) };
         if let Some(p) = last {
             let a = p.t - MEAN_WINDOW;
             let cum_a = curve.around_cum(a).measured;
@@ -461,14 +411,8 @@ impl Curve for MemoryCurve {
 /// circuit, given its cut-outs (an open cut-out runs for ever).
 pub fn in_circuit(a: Time, b: Option<Time>, cutouts: &[OpenSpan]) -> Vec<(Time, Option<Time>)> {
     let far = DateTime::<Utc>::MAX_UTC;
-    let off = union(cutouts.iter().map(|c| Span {
-        from: c.from,
-        to: c.to.unwrap_or(far),
-    }));
-    uncovered(a, b.unwrap_or(far), &off)
-        .into_iter()
-        .map(|s| (s.from, (s.to != far).then_some(s.to)))
-        .collect()
+    let off = union(cutouts.iter().map(|c| Span { from: c.from, to: c.to.unwrap_or(far) }));
+    uncovered(a, b.unwrap_or(far), &off).into_iter().map(|s| (s.from, (s.to != far).then_some(s.to))).collect()
 }
 
 /// Charge through a cell over `[a, b]`: the circuit's charge less its cut-outs.
@@ -558,14 +502,8 @@ mod tests {
         let rs: Vec<RawReading> = (0..=24).map(|h| r(h as f64, 1000.0)).collect();
         let c = MemoryCurve::build(&rs, &[], &[], t(24.0));
         let cuts = [
-            OpenSpan {
-                from: t(2.0),
-                to: Some(t(4.0)),
-            },
-            OpenSpan {
-                from: t(3.0),
-                to: Some(t(5.0)),
-            },
+            OpenSpan { from: t(2.0), to: Some(t(4.0)) },
+            OpenSpan { from: t(3.0), to: Some(t(5.0)) },
             OpenSpan { from: t(20.0), to: None },
         ];
         // in circuit 0–2 and 5–20: 17 h at 1000 A

@@ -109,11 +109,7 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             if *count == 0 || *count > p.anodes_per_cell * 2 {
                 return reject(
                     "--count",
-                    format!(
-                        "{count} anodes: the cell holds {} (1 to {} accepted)",
-                        p.anodes_per_cell,
-                        p.anodes_per_cell * 2
-                    ),
+                    format!("{count} anodes: the cell holds {} (1 to {} accepted)", p.anodes_per_cell, p.anodes_per_cell * 2),
                 );
             }
             let (lo, hi) = ANODE_KG_LIMITS;
@@ -142,19 +138,13 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             if !(total_kg.is_finite() && *total_kg > 0.0 && *total_kg <= max) {
                 return reject(
                     "--total-kg",
-                    format!(
-                        "{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg",
-                        p.cathodes_per_cell
-                    ),
+                    format!("{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg", p.cathodes_per_cell),
                 );
             }
             if let Some(eff) = cx.crop_charge_ah.and_then(|q| measured_efficiency(*total_kg, q)) {
                 let (lo, hi) = HARVEST_EFFICIENCY_PLAUSIBLE;
                 if eff > hi {
-                    q.push(format!(
-                        "{total_kg} kg is heavier than the charge allows: it implies {:.1} % current efficiency",
-                        eff * 100.0
-                    ));
+                    q.push(format!("{total_kg} kg is heavier than the charge allows: it implies {:.1} % current efficiency", eff * 100.0));
                 } else if eff < lo {
                     q.push(format!("{total_kg} kg implies only {:.1} % current efficiency", eff * 100.0));
                 }
@@ -173,18 +163,12 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             }
             let lugs = f64::from(count) * p.lug_kg;
             if *total_kg < lugs {
-                q.push(format!(
-                    "{total_kg} kg is less than the lugs alone ({lugs} kg): anodes dropped in the cell?"
-                ));
+                q.push(format!("{total_kg} kg is less than the lugs alone ({lugs} kg): anodes dropped in the cell?"));
             }
             if let Some(pred) = cx.predicted_fraction {
                 let got = total_kg / max;
                 if (got - pred).abs() > SCRAP_FRACTION_TOLERANCE {
-                    q.push(format!(
-                        "scrap is {:.1} % of set mass; the charge predicts {:.1} %",
-                        got * 100.0,
-                        pred * 100.0
-                    ));
+                    q.push(format!("scrap is {:.1} % of set mass; the charge predicts {:.1} %", got * 100.0, pred * 100.0));
                 }
             }
         }
@@ -199,11 +183,7 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             if *count > p.cathodes_per_cell * 2 {
                 return reject(
                     "--count",
-                    format!(
-                        "{count} shorts: at most {} in a cell of {} cathodes",
-                        p.cathodes_per_cell * 2,
-                        p.cathodes_per_cell
-                    ),
+                    format!("{count} shorts: at most {} in a cell of {} cathodes", p.cathodes_per_cell * 2, p.cathodes_per_cell),
                 );
             }
         }
@@ -224,10 +204,9 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
 pub fn check_circuit_entry(entry: &Entry, max_amps: f64) -> Result<Vec<String>, Rejection> {
     match entry {
         Entry::Outage { from, to, .. } if to <= from => reject("--to", "the outage ends before it starts".to_string()),
-        Entry::Setpoint { amps, .. } if !(amps.is_finite() && *amps >= 0.0 && *amps <= max_amps) => reject(
-            "--amps",
-            format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"),
-        ),
+        Entry::Setpoint { amps, .. } if !(amps.is_finite() && *amps >= 0.0 && *amps <= max_amps) => {
+            reject("--amps", format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"))
+        }
         _ => Ok(Vec::new()),
     }
 }
@@ -245,47 +224,20 @@ mod tests {
     fn harvest_heavier_than_the_charge_is_questioned() {
         let p = CellParams::default();
         // 100 000 A·h plates 118.5 kg at 100 % (ECE 1.18549 g/(A·h), CODATA/IUPAC)
-        let cx = CellContext {
-            params: &p,
-            crop_charge_ah: Some(100_000.0),
-            load: None,
-            predicted_fraction: None,
-        };
-        let heavy = Entry::Harvest {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 130.0,
-        };
+        let cx = CellContext { params: &p, crop_charge_ah: Some(100_000.0), load: None, predicted_fraction: None };
+        let heavy = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 130.0 };
         assert_eq!(check_cell_entry(&heavy, &cx).unwrap().len(), 1);
-        let fine = Entry::Harvest {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 114.0,
-        };
+        let fine = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 114.0 };
         assert!(check_cell_entry(&fine, &cx).unwrap().is_empty());
-        let absurd = Entry::Harvest {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 1e9,
-        };
+        let absurd = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 1e9 };
         assert!(check_cell_entry(&absurd, &cx).unwrap_err().message.contains("at most 15300"));
     }
 
     #[test]
     fn anode_mass_range_is_stated() {
         let p = CellParams::default();
-        let cx = CellContext {
-            params: &p,
-            crop_charge_ah: None,
-            load: None,
-            predicted_fraction: None,
-        };
-        let e = Entry::Anodes {
-            cell: "A01".into(),
-            at: at(),
-            count: 50,
-            mean_kg: 38.0,
-        };
+        let cx = CellContext { params: &p, crop_charge_ah: None, load: None, predicted_fraction: None };
+        let e = Entry::Anodes { cell: "A01".into(), at: at(), count: 50, mean_kg: 38.0 };
         let r = check_cell_entry(&e, &cx).unwrap_err();
         assert_eq!(r.field, "--mean-kg");
         assert!(r.message.contains("100–600"), "{r}");
@@ -294,29 +246,12 @@ mod tests {
     #[test]
     fn scrap_is_checked_against_the_load() {
         let p = CellParams::default();
-        let cx = CellContext {
-            params: &p,
-            crop_charge_ah: None,
-            load: Some((50, 380.0)),
-            predicted_fraction: Some(0.15),
-        };
-        let ok = Entry::Scrap {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 0.15 * 50.0 * 380.0,
-        };
+        let cx = CellContext { params: &p, crop_charge_ah: None, load: Some((50, 380.0)), predicted_fraction: Some(0.15) };
+        let ok = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.15 * 50.0 * 380.0 };
         assert!(check_cell_entry(&ok, &cx).unwrap().is_empty());
-        let odd = Entry::Scrap {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 0.40 * 50.0 * 380.0,
-        };
+        let odd = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.40 * 50.0 * 380.0 };
         assert_eq!(check_cell_entry(&odd, &cx).unwrap().len(), 1);
-        let too_much = Entry::Scrap {
-            cell: "A01".into(),
-            at: at(),
-            total_kg: 20_000.0,
-        };
+        let too_much = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 20_000.0 };
         assert!(check_cell_entry(&too_much, &cx).is_err());
     }
 }

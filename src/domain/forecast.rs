@@ -89,22 +89,11 @@ pub struct CellForecast {
 /// Forecasts one cell on its circuit's curve.
 pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Result<CellForecast, C::Error> {
     let p = &input.params;
-    let cut_out_since = input
-        .cutouts
-        .iter()
-        .find(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of))
-        .map(|c| c.from);
+    let cut_out_since = input.cutouts.iter().find(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of)).map(|c| c.from);
     let in_circuit = cut_out_since.is_none();
     let mut warnings = Vec::new();
     let mut warn = |code, message: String| {
-        warnings.push(Warning {
-            code,
-            message,
-            cell: Some(input.cell.clone()),
-            circuit: None,
-            from: None,
-            to: None,
-        });
+        warnings.push(Warning { code, message, cell: Some(input.cell.clone()), circuit: None, from: None, to: None });
     };
     let eta_c = p.cathode_efficiency;
     let mut charge = None;
@@ -112,13 +101,8 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     if let Some((set_at, count, initial_kg)) = input.load {
         let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
         charge = Some(q);
-        let load = AnodeLoad {
-            initial_kg,
-            count,
-            efficiency: p.anode_efficiency,
-            copper_fraction: p.anode_copper_fraction,
-            lug_kg: p.lug_kg,
-        };
+        let load =
+            AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
         anode = Some(if p.anode_kind == AnodeKind::Inert {
             AnodeForecast {
                 set_at,
@@ -159,11 +143,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             ),
         );
     }
-    let cathodes = Cathodes {
-        count: p.cathodes_per_cell,
-        anodes: p.anodes_per_cell,
-        efficiency: eta_c,
-    };
+    let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
     let mut cathode = None;
     if let Some(started_at) = input.crop_started {
         let q = cell_charge(curve, &input.cutouts, started_at, as_of)?;
@@ -195,10 +175,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         && (v < p.voltage_min || v > p.voltage_max)
     {
         let why = if p.anode_kind == AnodeKind::Inert && v < p.voltage_min {
-            format!(
-                "below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading",
-                p.voltage_min
-            )
+            format!("below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading", p.voltage_min)
         } else {
             format!("outside the plausible {}–{} V", p.voltage_min, p.voltage_max)
         };
@@ -253,12 +230,7 @@ mod tests {
     /// DOMAIN.md plant check (derived): 50 × 380 kg anodes, 51 cathodes, 30 kA, η_c 0.96.
     #[test]
     fn plant_check_due_times() {
-        let readings: Vec<RawReading> = (0..=24)
-            .map(|h| RawReading {
-                t: t0() + Duration::hours(h),
-                amps: 30_000.0,
-            })
-            .collect();
+        let readings: Vec<RawReading> = (0..=24).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 30_000.0 }).collect();
         let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(24));
         let input = CellInput {
             cell: "A01".into(),

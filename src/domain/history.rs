@@ -145,13 +145,7 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
         match e.kind {
             EventKind::Anodes => {
                 if let Some(l) = &load {
-                    return Err(no(
-                        e,
-                        format!(
-                            "anodes were already set at {} and not yet scrapped: log the scrap first",
-                            show(l.set_at)
-                        ),
-                    ));
+                    return Err(no(e, format!("anodes were already set at {} and not yet scrapped: log the scrap first", show(l.set_at))));
                 }
                 load = Some(LoadRec {
                     set_event: e.id,
@@ -163,13 +157,7 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                     scrap_kg: None,
                 });
                 if crop.is_none() {
-                    crop = Some(CropRec {
-                        start_event: e.id,
-                        started_at: e.at,
-                        ended_at: None,
-                        harvest_event: None,
-                        harvest_kg: None,
-                    });
+                    crop = Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
                 }
             }
             EventKind::Scrap => {
@@ -185,10 +173,7 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                 let Some(mut c) = crop.take() else {
                     return Err(no(
                         e,
-                        format!(
-                            "no crop is growing at {}: a crop begins with an anode set or the previous harvest",
-                            show(e.at)
-                        ),
+                        format!("no crop is growing at {}: a crop begins with an anode set or the previous harvest", show(e.at)),
                     ));
                 };
                 c.ended_at = Some(e.at);
@@ -196,13 +181,7 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                 c.harvest_kg = e.kg;
                 h.crops.push(c);
                 if load.is_some() {
-                    crop = Some(CropRec {
-                        start_event: e.id,
-                        started_at: e.at,
-                        ended_at: None,
-                        harvest_event: None,
-                        harvest_kg: None,
-                    });
+                    crop = Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
                 }
             }
             EventKind::Cutout => {
@@ -212,25 +191,16 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                         h.cutouts[i].span.to = Some(to);
                         open_cut = None;
                     }
-                    (Some(to), None, _) => h.cutouts.push(CutoutRec {
-                        event: e.id,
-                        span: OpenSpan { from: e.at, to: Some(to) },
-                    }),
+                    (Some(to), None, _) => h.cutouts.push(CutoutRec { event: e.id, span: OpenSpan { from: e.at, to: Some(to) } }),
                     (None, _, Some(i)) => {
                         return Err(no(
                             e,
-                            format!(
-                                "the cell is already cut out since {}: close that cut-out first",
-                                show(h.cutouts[i].span.from)
-                            ),
+                            format!("the cell is already cut out since {}: close that cut-out first", show(h.cutouts[i].span.from)),
                         ));
                     }
                     (None, _, None) => {
                         open_cut = Some(h.cutouts.len());
-                        h.cutouts.push(CutoutRec {
-                            event: e.id,
-                            span: OpenSpan { from: e.at, to: None },
-                        });
+                        h.cutouts.push(CutoutRec { event: e.id, span: OpenSpan { from: e.at, to: None } });
                     }
                 }
             }
@@ -276,12 +246,8 @@ mod tests {
     #[test]
     fn same_instant_applies_scrap_then_harvest_then_anodes() {
         // entered out of order on purpose: anodes first, scrap last
-        let evs = vec![
-            ev(1, EventKind::Anodes, 0),
-            ev(4, EventKind::Anodes, 400),
-            ev(3, EventKind::Harvest, 400),
-            ev(2, EventKind::Scrap, 400),
-        ];
+        let evs =
+            vec![ev(1, EventKind::Anodes, 0), ev(4, EventKind::Anodes, 400), ev(3, EventKind::Harvest, 400), ev(2, EventKind::Scrap, 400)];
         let h = replay(&evs, show).unwrap();
         assert_eq!(h.loads.len(), 2);
         assert_eq!(h.loads[0].ended_at, Some(t(400)));
@@ -324,16 +290,7 @@ mod tests {
         let mut close = ev(2, EventKind::Cutout, 10);
         close.end = Some(t(12));
         let h = replay(&[open.clone(), close], show).unwrap();
-        assert_eq!(
-            h.cutouts,
-            vec![CutoutRec {
-                event: 1,
-                span: OpenSpan {
-                    from: t(10),
-                    to: Some(t(12))
-                }
-            }]
-        );
+        assert_eq!(h.cutouts, vec![CutoutRec { event: 1, span: OpenSpan { from: t(10), to: Some(t(12)) } }]);
         let mut again = ev(3, EventKind::Cutout, 11);
         again.end = None;
         assert!(replay(&[open, again], show).is_err());

@@ -164,10 +164,7 @@ impl CellParams {
             }
         }
         if !(self.anode_copper_fraction > 0.5 && self.anode_copper_fraction <= 1.0) {
-            v.push((
-                "anode_copper_fraction",
-                format!("anode_copper_fraction is {}: it must lie in (0.5, 1]", self.anode_copper_fraction),
-            ));
+            v.push(("anode_copper_fraction", format!("anode_copper_fraction is {}: it must lie in (0.5, 1]", self.anode_copper_fraction)));
         }
         for (name, x) in [
             ("face_area_m2", self.face_area_m2),
@@ -202,19 +199,10 @@ impl CellParams {
             v.push(("scrap_lower", m));
         }
         if self.crops_per_anode_cycle == Some(0) {
-            v.push((
-                "crops_per_anode_cycle",
-                "crops_per_anode_cycle is 0: at least one crop per anode cycle".into(),
-            ));
+            v.push(("crops_per_anode_cycle", "crops_per_anode_cycle is 0: at least one crop per anode cycle".into()));
         }
         if self.voltage_min.partial_cmp(&self.voltage_max) != Some(std::cmp::Ordering::Less) {
-            v.push((
-                "voltage_min",
-                format!(
-                    "voltage_min ({}) must be below voltage_max ({})",
-                    self.voltage_min, self.voltage_max
-                ),
-            ));
+            v.push(("voltage_min", format!("voltage_min ({}) must be below voltage_max ({})", self.voltage_min, self.voltage_max)));
         }
         v
     }
@@ -344,11 +332,7 @@ fn line_of(text: &str, offset: usize) -> usize {
 
 /// The line on which the `n`th occurrence (0-based) of a table header starts.
 fn header_line(text: &str, header: &str, n: usize) -> Option<usize> {
-    text.lines()
-        .enumerate()
-        .filter(|(_, l)| l.trim_start().starts_with(header))
-        .nth(n)
-        .map(|(i, _)| i + 1)
+    text.lines().enumerate().filter(|(_, l)| l.trim_start().starts_with(header)).nth(n).map(|(i, _)| i + 1)
 }
 
 /// The line of `key = …` in the table that starts at `start` (1-based), or `start`.
@@ -430,11 +414,7 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
     }
     for d in &file.plan.no_anode_work {
         chrono::NaiveDate::parse_from_str(d, "%Y-%m-%d").map_err(|_| {
-            err(
-                header_line(text, "no_anode_work", 0),
-                "plan.no_anode_work".into(),
-                format!("'{d}' is not a date (YYYY-MM-DD)"),
-            )
+            err(header_line(text, "no_anode_work", 0), "plan.no_anode_work".into(), format!("'{d}' is not a date (YYYY-MM-DD)"))
         })?;
     }
     if file.circuit.is_empty() {
@@ -461,11 +441,7 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
             return Err(err(cline, cfield, "the circuit name is used twice".into()));
         }
         if !(c.max_amps > 0.0 && c.max_amps.is_finite()) {
-            return Err(err(
-                cline,
-                format!("{cfield}.max_amps"),
-                format!("{} is not a positive current", c.max_amps),
-            ));
+            return Err(err(cline, format!("{cfield}.max_amps"), format!("{} is not a positive current", c.max_amps)));
         }
         let mut sections = Vec::new();
         for s in &c.section {
@@ -490,31 +466,14 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
                     return Err(err(sline, format!("{sfield}.cells"), format!("'{id}' is not a usable cell id")));
                 }
                 if !seen_cells.insert(id.clone()) {
-                    return Err(err(
-                        sline,
-                        format!("{sfield}.cells"),
-                        format!("cell id {id} is used twice in the plant"),
-                    ));
+                    return Err(err(sline, format!("{sfield}.cells"), format!("cell id {id} is used twice in the plant")));
                 }
             }
-            sections.push(SectionLayout {
-                name: s.name.clone(),
-                params,
-                cells,
-            });
+            sections.push(SectionLayout { name: s.name.clone(), params, cells });
         }
-        circuits.push(CircuitLayout {
-            name: c.name.clone(),
-            max_amps: c.max_amps,
-            sections,
-        });
+        circuits.push(CircuitLayout { name: c.name.clone(), max_amps: c.max_amps, sections });
     }
-    Ok(Layout {
-        header: file.plant,
-        zone,
-        plan: file.plan,
-        circuits,
-    })
+    Ok(Layout { header: file.plant, zone, plan: file.plan, circuits })
 }
 
 #[cfg(test)]

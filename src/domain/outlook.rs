@@ -125,12 +125,7 @@ pub fn trajectory<C: Curve>(
             anode_kg.push((t, a.remaining_kg(q_load)));
         }
     }
-    Ok(Trajectory {
-        charge,
-        anode_kg,
-        from,
-        until,
-    })
+    Ok(Trajectory { charge, anode_kg, from, until })
 }
 
 #[cfg(test)]
@@ -145,12 +140,7 @@ mod tests {
     }
 
     fn input(load_h: i64, crop_h: i64) -> (CellInput, MemoryCurve) {
-        let rs: Vec<RawReading> = (0..=600)
-            .map(|h| RawReading {
-                t: t0() + Duration::hours(h),
-                amps: 30_000.0,
-            })
-            .collect();
+        let rs: Vec<RawReading> = (0..=600).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 30_000.0 }).collect();
         let curve = MemoryCurve::build(&rs, &[], &[], t0() + Duration::hours(600));
         let i = CellInput {
             cell: "A01".into(),

@@ -146,10 +146,7 @@ mod tests {
     #[test]
     fn rfc3339_and_local_times() {
         let z = PlantZone::parse("Europe/Madrid").unwrap();
-        assert_eq!(
-            z.parse_time("2026-03-01T06:00:00Z").unwrap().to_rfc3339(),
-            "2026-03-01T06:00:00+00:00"
-        );
+        assert_eq!(z.parse_time("2026-03-01T06:00:00Z").unwrap().to_rfc3339(), "2026-03-01T06:00:00+00:00");
         // Madrid is UTC+1 in winter (IANA tz database)
         assert_eq!(z.parse_time("2026-03-01 07:00").unwrap().to_rfc3339(), "2026-03-01T06:00:00+00:00");
         assert!(matches!(z.parse_time("01/03/2026"), Err(TimeError::Unparsed(_))));
@@ -168,10 +165,7 @@ mod tests {
     #[test]
     fn fixed_offset_zone_and_production_day() {
         let z = PlantZone::parse("+02:00").unwrap();
-        let days = ProductionDays {
-            zone: z,
-            day_starts_at: parse_day_start("06:00").unwrap(),
-        };
+        let days = ProductionDays { zone: z, day_starts_at: parse_day_start("06:00").unwrap() };
         // 03:00 UTC is 05:00 local: still the previous production day
         let t = z.parse_time("2026-03-02T03:00:00Z").unwrap();
         assert_eq!(days.day_of(t), NaiveDate::from_ymd_opt(2026, 3, 1).unwrap());

@@ -47,15 +47,9 @@ impl Plant {
     /// One cell's forecast, history and trajectory as of `as_of`.
     pub fn cell_detail(&self, cell: &str, as_of: Time) -> Result<CellDetail> {
         let f = self.forecast(as_of, Some(cell))?;
-        let forecast = f
-            .cells
-            .into_iter()
-            .next()
-            .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+        let forecast = f.cells.into_iter().next().ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
         let db = self.store.db();
-        let row = db
-            .cell(cell)?
-            .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+        let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
         let params = db.params_at(cell, as_of)?;
         let curve = StoreCurve::new(db, row.circuit_id, as_of)?;
         let cutouts = db.cutouts(cell, as_of)?;
@@ -63,11 +57,7 @@ impl Plant {
         let from = load.map(|l| l.0).or(forecast.cathode.as_ref().map(|c| c.started_at));
         let trajectory = match from {
             Some(from) => {
-                let due = forecast
-                    .anode
-                    .as_ref()
-                    .and_then(|a| a.pull_due)
-                    .or(forecast.cathode.as_ref().and_then(|c| c.harvest_due));
+                let due = forecast.anode.as_ref().and_then(|a| a.pull_due).or(forecast.cathode.as_ref().and_then(|c| c.harvest_due));
                 let until = due.map_or(as_of + Duration::days(3), |d| d.max(as_of) + Duration::hours(12));
                 Some(trajectory(&curve, &cutouts, &params, load, from, until, 80)?)
             }
@@ -95,11 +85,7 @@ impl Plant {
             let curve = StoreCurve::new(db, c.id, as_of)?;
             let (a, b) = (curve.cum_at(day_start)?, curve.cum_at(as_of)?);
             out.push(CircuitTrend {
-                points: db
-                    .readings_between(c.id, from, as_of, 600)?
-                    .into_iter()
-                    .map(|p| (p.t, p.amps))
-                    .collect(),
+                points: db.readings_between(c.id, from, as_of, 600)?.into_iter().map(|p| (p.t, p.amps)).collect(),
                 outages: db.outages(c.id)?.into_iter().filter(|s| s.to > from).collect(),
                 gaps: db.reading_gaps(c.id, from, as_of)?,
                 today_ah: (b.measured - a.measured, b.estimated - a.estimated),

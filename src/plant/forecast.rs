@@ -20,10 +20,7 @@ impl Plant {
         if let Some(id) = only_cell {
             cells.retain(|c| c.id == id);
             if cells.is_empty() {
-                return Err(PlantError::rejected(
-                    "--cell",
-                    format!("unknown cell {id}: it is not in the layout"),
-                ));
+                return Err(PlantError::rejected("--cell", format!("unknown cell {id}: it is not in the layout")));
             }
         }
         let params = db.params_at_all(as_of)?;
@@ -59,24 +56,12 @@ impl Plant {
             let Some(curve) = curves.get(&c.circuit_id) else { continue };
             out.push(forecast_cell(&input, curve, as_of)?);
         }
-        Ok(Forecast {
-            schema: 1,
-            as_of,
-            cells: out,
-            warnings,
-        })
+        Ok(Forecast { schema: 1, as_of, cells: out, warnings })
     }
 }
 
 fn circuit_warnings(db: Db<'_>, name: &str, id: i64, curve: &StoreCurve<'_>, as_of: Time) -> Result<Vec<Warning>> {
-    let w = |code, message: String, from, to| Warning {
-        code,
-        message,
-        cell: None,
-        circuit: Some(name.to_string()),
-        from,
-        to,
-    };
+    let w = |code, message: String, from, to| Warning { code, message, cell: None, circuit: Some(name.to_string()), from, to };
     let since = as_of - WARNING_LOOKBACK;
     let mut v = Vec::new();
     for g in db.reading_gaps(id, since, as_of)? {
@@ -89,20 +74,10 @@ fn circuit_warnings(db: Db<'_>, name: &str, id: i64, curve: &StoreCurve<'_>, as_
         ));
     }
     for (t, a) in db.live_readings_in_outages(id, since, as_of)? {
-        v.push(w(
-            "reading_in_outage",
-            format!("a reading of {a} A on {name} falls inside a logged outage; it was ignored"),
-            Some(t),
-            None,
-        ));
+        v.push(w("reading_in_outage", format!("a reading of {a} A on {name} falls inside a logged outage; it was ignored"), Some(t), None));
     }
     match curve.last_reading() {
-        None => v.push(w(
-            "no_readings",
-            format!("no current readings for {name}: charge is estimated from setpoints only"),
-            None,
-            None,
-        )),
+        None => v.push(w("no_readings", format!("no current readings for {name}: charge is estimated from setpoints only"), None, None)),
         Some(p) if as_of - p.t > GAP_WARNING => {
             let h = (as_of - p.t).num_minutes() as f64 / 60.0;
             let est = curve.projection().base_amps;

@@ -36,29 +36,15 @@ impl Plant {
             field: field.to_string(),
             message,
         };
-        let circuits: HashMap<String, (i64, f64)> = self
-            .store
-            .db()
-            .circuits()?
-            .into_iter()
-            .map(|c| (c.name, (c.id, c.max_amps)))
-            .collect();
+        let circuits: HashMap<String, (i64, f64)> = self.store.db().circuits()?.into_iter().map(|c| (c.name, (c.id, c.max_amps))).collect();
         if circuits.is_empty() {
             return Err(PlantError::NoLayout);
         }
         let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(input);
-        let header: Vec<String> = rdr
-            .headers()
-            .map_err(|e| bad(1, "header", e.to_string()))?
-            .iter()
-            .map(|h| h.to_ascii_lowercase())
-            .collect();
+        let header: Vec<String> =
+            rdr.headers().map_err(|e| bad(1, "header", e.to_string()))?.iter().map(|h| h.to_ascii_lowercase()).collect();
         if header != ["time", "circuit", "amps"] {
-            return Err(bad(
-                1,
-                "header",
-                format!("expected 'time,circuit,amps', found '{}'", header.join(",")),
-            ));
+            return Err(bad(1, "header", format!("expected 'time,circuit,amps', found '{}'", header.join(","))));
         }
         let mut rows: BTreeMap<i64, BTreeMap<Time, (f64, u64)>> = BTreeMap::new();
         let mut sum = ImportSummary::default();
@@ -74,45 +60,28 @@ impl Plant {
             let line = rec.position().map_or(0, |p| p.line());
             let t = DateTime::parse_from_rfc3339(&rec[0])
                 .map_err(|_| {
-                    bad(
-                        line,
-                        "time",
-                        format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0]),
-                    )
+                    bad(line, "time", format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0]))
                 })?
                 .to_utc();
             let Some(&(cid, max)) = circuits.get(&rec[1]) else {
                 return Err(bad(line, "circuit", format!("unknown circuit '{}'", &rec[1])));
             };
-            let amps: f64 = rec[2]
-                .parse()
-                .map_err(|_| bad(line, "amps", format!("'{}' is not a number", &rec[2])))?;
+            let amps: f64 = rec[2].parse().map_err(|_| bad(line, "amps", format!("'{}' is not a number", &rec[2])))?;
             if !amps.is_finite() || amps < 0.0 {
                 return Err(bad(
                     line,
                     "amps",
-                    format!(
-                        "{} A is negative or not finite: amps are the net mean current, 0 to {max} A",
-                        &rec[2]
-                    ),
+                    format!("{} A is negative or not finite: amps are the net mean current, 0 to {max} A", &rec[2]),
                 ));
             }
             if amps > max {
-                return Err(bad(
-                    line,
-                    "amps",
-                    format!("{amps} A is above circuit {}'s max_amps of {max} A", &rec[1]),
-                ));
+                return Err(bad(line, "amps", format!("{amps} A is above circuit {}'s max_amps of {max} A", &rec[1])));
             }
             let by_circuit = rows.entry(cid).or_default();
             match by_circuit.get(&t) {
                 Some((a, _)) if *a == amps => sum.skipped += 1,
                 Some((a, l)) => {
-                    return Err(bad(
-                        line,
-                        "amps",
-                        format!("{amps} A conflicts with {a} A for the same time and circuit on line {l}"),
-                    ));
+                    return Err(bad(line, "amps", format!("{amps} A conflicts with {a} A for the same time and circuit on line {l}")));
                 }
                 None => {
                     by_circuit.insert(t, (amps, line));

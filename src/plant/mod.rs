@@ -32,12 +32,7 @@ pub enum PlantError {
     #[error("{file}: {source}")]
     Layout { file: String, source: layout::LayoutError },
     #[error("{file} line {line}, field {field}: {message}")]
-    Input {
-        file: String,
-        line: u64,
-        field: String,
-        message: String,
-    },
+    Input { file: String, line: u64, field: String, message: String },
     #[error("{field}: {message}")]
     Rejected { field: String, message: String },
     #[error("this entry needs a second look: {}. Check it, then repeat with --force to record it anyway", .0.join("; "))]
@@ -48,10 +43,7 @@ pub enum PlantError {
 
 impl PlantError {
     fn rejected(field: &str, message: impl Into<String>) -> Self {
-        PlantError::Rejected {
-            field: field.to_string(),
-            message: message.into(),
-        }
+        PlantError::Rejected { field: field.to_string(), message: message.into() }
     }
 }
 
@@ -128,10 +120,7 @@ impl Plant {
 
     /// Defines or updates the plant from a layout file's text.
     pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
-        let parsed = layout::parse(text).map_err(|e| PlantError::Layout {
-            file: source.to_string(),
-            source: e,
-        })?;
+        let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
         self.store.write(|db| Ok(db.apply_layout(&parsed, text, source, now)?))
     }
 
@@ -145,10 +134,7 @@ impl Plant {
     /// records that match a fresh replay of the event log.
     pub fn check(&mut self) -> Result<CheckReport> {
         let db = self.store.db();
-        let mut r = CheckReport {
-            problems: db.sqlite_problems()?,
-            ..Default::default()
-        };
+        let mut r = CheckReport { problems: db.sqlite_problems()?, ..Default::default() };
         let falls = db.charge_decreases()?;
         if falls > 0 {
             r.problems.push(format!("{falls} readings where the cumulative charge goes down"));
@@ -195,20 +181,14 @@ pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
 
 /// The rebuild itself; `reuse = false` recomputes every crop (for `check`).
 fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
-    let row = db
-        .cell(cell)?
-        .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
     let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
     let cuts: Vec<OpenSpan> = h.cutouts.iter().map(|c| c.span).collect();
     let old_cuts = db.cutouts(cell, far_future())?;
-    let changed: Vec<OpenSpan> = cuts
-        .iter()
-        .filter(|c| !old_cuts.contains(c))
-        .chain(old_cuts.iter().filter(|c| !cuts.contains(c)))
-        .copied()
-        .collect();
+    let changed: Vec<OpenSpan> =
+        cuts.iter().filter(|c| !old_cuts.contains(c)).chain(old_cuts.iter().filter(|c| !cuts.contains(c))).copied().collect();
     let stored = db.crop_figures(cell)?;
     let mut curve = None;
     let mut figures = Vec::with_capacity(h.crops.len());
@@ -228,11 +208,7 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
         }
         let Some(curve) = curve.as_ref() else { continue };
         let q = cell_charge(curve, &cuts, c.started_at, end)?;
-        figures.push(Some(CropFigures {
-            charge_ah: q.total(),
-            estimated_ah: q.estimated,
-            efficiency: measured_efficiency(kg, q.total()),
-        }));
+        figures.push(Some(CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) }));
     }
     db.write_history(cell, &h, &figures)?;
     Ok(())
@@ -248,11 +224,7 @@ pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<(
         db.set_crop_figures(
             &cell,
             start,
-            CropFigures {
-                charge_ah: q.total(),
-                estimated_ah: q.estimated,
-                efficiency: measured_efficiency(kg, q.total()),
-            },
+            CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) },
         )?;
     }
     Ok(())

@@ -20,10 +20,7 @@ pub struct Recorded {
 fn initials(by: &str) -> Result<String> {
     let by = by.trim();
     if by.is_empty() || by.chars().count() > 8 || by.chars().any(char::is_whitespace) {
-        return Err(PlantError::rejected(
-            "--by",
-            format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces"),
-        ));
+        return Err(PlantError::rejected("--by", format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces")));
     }
     Ok(by.to_uppercase())
 }
@@ -43,17 +40,9 @@ impl Plant {
             let mut out = Vec::with_capacity(entries.len());
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by)?;
-                let place = format!(
-                    "entry {} of the batch ({} {})",
-                    i + 1,
-                    entry.kind().name(),
-                    entry.cell().unwrap_or("circuit")
-                );
+                let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
                 out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
-                    PlantError::Rejected { field, message } => PlantError::Rejected {
-                        field,
-                        message: format!("{place}: {message}"),
-                    },
+                    PlantError::Rejected { field, message } => PlantError::Rejected { field, message: format!("{place}: {message}") },
                     PlantError::Questioned(mut q) => {
                         q.insert(0, place);
                         PlantError::Questioned(q)
@@ -84,9 +73,7 @@ impl Plant {
         let by = initials(&opts.by)?;
         self.store.write(|db| {
             let target = match event {
-                Some(id) => db
-                    .event(id)?
-                    .ok_or_else(|| PlantError::rejected("EVENT", format!("there is no entry {id}")))?,
+                Some(id) => db.event(id)?.ok_or_else(|| PlantError::rejected("EVENT", format!("there is no entry {id}")))?,
                 None => db
                     .recent_events(None, 200)?
                     .into_iter()
@@ -125,10 +112,7 @@ impl Plant {
                 rebuild_cell(db, cell).map_err(|e| match e {
                     PlantError::Rejected { message, .. } => PlantError::rejected(
                         "EVENT",
-                        format!(
-                            "undoing entry {} would leave the history of {cell} inconsistent: {message}",
-                            target.id
-                        ),
+                        format!("undoing entry {} would leave the history of {cell} inconsistent: {message}", target.id),
                     ),
                     e => e,
                 })?;
@@ -157,35 +141,22 @@ fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorde
     }
     let event = db.append_event(&new_event(db, entry, by, !questions.is_empty(), opts.now)?)?;
     apply(db, entry)?;
-    Ok(Recorded {
-        event,
-        forced_past: questions,
-    })
+    Ok(Recorded { event, forced_past: questions })
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
-    let row = db
-        .cell(cell)?
-        .ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}: it is not in the layout")))?;
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}: it is not in the layout")))?;
     let at = entry.at();
     let params = db.params_at(cell, at)?;
     let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
     let cuts = db.cutouts(cell, far_future())?;
-    let mut cx = CellContext {
-        params: &params,
-        crop_charge_ah: None,
-        load: None,
-        predicted_fraction: None,
-    };
+    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None };
     match entry {
         Entry::Harvest { .. } => {
             let start = db.crop_at(cell, at)?.ok_or_else(|| {
                 PlantError::rejected(
                     "--at",
-                    format!(
-                        "no crop is growing in {cell} at {}: a harvest before the crop began",
-                        db_show(db, at)
-                    ),
+                    format!("no crop is growing in {cell} at {}: a harvest before the crop began", db_show(db, at)),
                 )
             })?;
             cx.crop_charge_ah = Some(cell_charge(&curve, &cuts, start, at)?.total());
@@ -221,9 +192,8 @@ fn check_for_circuit(db: Db<'_>, entry: &Entry) -> Result<Vec<String>> {
         Entry::Outage { circuit, .. } | Entry::Setpoint { circuit, .. } => circuit,
         _ => return Ok(Vec::new()),
     };
-    let c = db
-        .circuit(name)?
-        .ok_or_else(|| PlantError::rejected("--circuit", format!("unknown circuit {name}: it is not in the layout")))?;
+    let c =
+        db.circuit(name)?.ok_or_else(|| PlantError::rejected("--circuit", format!("unknown circuit {name}: it is not in the layout")))?;
     check_circuit_entry(entry, c.max_amps).map_err(|r| PlantError::rejected(r.field, r.message))
 }
 

@@ -48,13 +48,7 @@ const CELL_SELECT: &str = "SELECT cell.id, circuit.id, circuit.name, section.nam
      FROM cell JOIN section ON section.id = cell.section_id JOIN circuit ON circuit.id = section.circuit_id";
 
 fn cell_row(r: &rusqlite::Row<'_>) -> rusqlite::Result<CellRow> {
-    Ok(CellRow {
-        id: r.get(0)?,
-        circuit_id: r.get(1)?,
-        circuit: r.get(2)?,
-        section: r.get(3)?,
-        position: r.get(4)?,
-    })
+    Ok(CellRow { id: r.get(0)?, circuit_id: r.get(1)?, circuit: r.get(2)?, section: r.get(3)?, position: r.get(4)? })
 }
 
 fn corrupt(e: impl std::fmt::Display) -> StoreError {
@@ -63,10 +57,7 @@ fn corrupt(e: impl std::fmt::Display) -> StoreError {
 
 impl Db<'_> {
     fn meta(&self, key: &str) -> Result<Option<String>> {
-        Ok(self
-            .c
-            .query_row("SELECT value FROM plant_meta WHERE key = ?1", [key], |r| r.get(0))
-            .optional()?)
+        Ok(self.c.query_row("SELECT value FROM plant_meta WHERE key = ?1", [key], |r| r.get(0)).optional()?)
     }
 
     fn set_meta(&self, key: &str, value: &str) -> Result<()> {
@@ -86,11 +77,7 @@ impl Db<'_> {
             Some(j) => serde_json::from_str(&j).map_err(corrupt)?,
             None => PlanKeys::default(),
         };
-        Ok(Some(PlantInfo {
-            name,
-            days: ProductionDays { zone, day_starts_at },
-            plan,
-        }))
+        Ok(Some(PlantInfo { name, days: ProductionDays { zone, day_starts_at }, plan }))
     }
 
     /// Defines or updates the plant from a layout: new circuits, sections and
@@ -101,10 +88,7 @@ impl Db<'_> {
         self.set_meta("time_zone", &layout.zone.name())?;
         self.set_meta("day_starts_at", &layout.header.day_starts_at)?;
         self.set_meta("plan", &serde_json::to_string(&layout.plan).map_err(corrupt)?)?;
-        self.c.execute(
-            "INSERT INTO layout_version(loaded_at, source, text) VALUES (?1, ?2, ?3)",
-            params![secs(now), source, text],
-        )?;
+        self.c.execute("INSERT INTO layout_version(loaded_at, source, text) VALUES (?1, ?2, ?3)", params![secs(now), source, text])?;
         let layout_id = self.c.last_insert_rowid();
         let mut sum = LayoutSummary::default();
         let current = self.params_at_all(now)?;
@@ -115,9 +99,7 @@ impl Db<'_> {
                  ON CONFLICT(name) DO UPDATE SET max_amps = excluded.max_amps, position = excluded.position",
                 params![c.name, c.max_amps, ci as i64],
             )?;
-            let cid: i64 = self
-                .c
-                .query_row("SELECT id FROM circuit WHERE name = ?1", [&c.name], |r| r.get(0))?;
+            let cid: i64 = self.c.query_row("SELECT id FROM circuit WHERE name = ?1", [&c.name], |r| r.get(0))?;
             sum.circuits += 1;
             for (si, s) in c.sections.iter().enumerate() {
                 self.c.execute(
@@ -125,19 +107,13 @@ impl Db<'_> {
                      ON CONFLICT(circuit_id, name) DO UPDATE SET position = excluded.position",
                     params![cid, s.name, si as i64],
                 )?;
-                let sid: i64 = self.c.query_row(
-                    "SELECT id FROM section WHERE circuit_id = ?1 AND name = ?2",
-                    params![cid, s.name],
-                    |r| r.get(0),
-                )?;
+                let sid: i64 =
+                    self.c.query_row("SELECT id FROM section WHERE circuit_id = ?1 AND name = ?2", params![cid, s.name], |r| r.get(0))?;
                 sum.sections += 1;
                 let pj = serde_json::to_string(&s.params).map_err(corrupt)?;
                 for (pos, id) in s.cells.iter().enumerate() {
                     listed.insert(id.clone());
-                    let existed: bool = self
-                        .c
-                        .query_row("SELECT count(*) FROM cell WHERE id = ?1", [id], |r| r.get::<_, i64>(0))?
-                        > 0;
+                    let existed: bool = self.c.query_row("SELECT count(*) FROM cell WHERE id = ?1", [id], |r| r.get::<_, i64>(0))? > 0;
                     self.c.execute(
                         "INSERT INTO cell(id, section_id, position, active) VALUES (?1, ?2, ?3, 1)
                          ON CONFLICT(id) DO UPDATE SET section_id = excluded.section_id, position = excluded.position, active = 1",
@@ -170,16 +146,8 @@ impl Db<'_> {
     }
 
     pub fn circuits(&self) -> Result<Vec<CircuitRow>> {
-        let mut st = self
-            .c
-            .prepare_cached("SELECT id, name, max_amps FROM circuit ORDER BY position, name")?;
-        let rows = st.query_map([], |r| {
-            Ok(CircuitRow {
-                id: r.get(0)?,
-                name: r.get(1)?,
-                max_amps: r.get(2)?,
-            })
-        })?;
+        let mut st = self.c.prepare_cached("SELECT id, name, max_amps FROM circuit ORDER BY position, name")?;
+        let rows = st.query_map([], |r| Ok(CircuitRow { id: r.get(0)?, name: r.get(1)?, max_amps: r.get(2)? }))?;
         Ok(rows.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -189,18 +157,16 @@ impl Db<'_> {
 
     /// The active cells in plant order (circuit, section, position).
     pub fn cells(&self) -> Result<Vec<CellRow>> {
-        let mut st = self.c.prepare_cached(&format!(
-            "{CELL_SELECT} WHERE cell.active = 1 ORDER BY circuit.position, section.position, cell.position"
-        ))?;
+        let mut st = self
+            .c
+            .prepare_cached(&format!("{CELL_SELECT} WHERE cell.active = 1 ORDER BY circuit.position, section.position, cell.position"))?;
         let rows = st.query_map([], cell_row)?;
         Ok(rows.collect::<rusqlite::Result<_>>()?)
     }
 
     /// One active cell.
     pub fn cell(&self, id: &str) -> Result<Option<CellRow>> {
-        let mut st = self
-            .c
-            .prepare_cached(&format!("{CELL_SELECT} WHERE cell.active = 1 AND cell.id = ?1"))?;
+        let mut st = self.c.prepare_cached(&format!("{CELL_SELECT} WHERE cell.active = 1 AND cell.id = ?1"))?;
         Ok(st.query_row([id], cell_row).optional()?)
     }
 

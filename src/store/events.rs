@@ -132,15 +132,7 @@ impl Db<'_> {
             "INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
         )?;
         for l in &h.loads {
-            st.execute(params![
-                l.set_event,
-                cell,
-                secs(l.set_at),
-                l.count,
-                l.mean_kg,
-                l.ended_at.map(secs),
-                l.scrap_kg
-            ])?;
+            st.execute(params![l.set_event, cell, secs(l.set_at), l.count, l.mean_kg, l.ended_at.map(secs), l.scrap_kg])?;
         }
         let mut st = self.c.prepare_cached(
             "INSERT INTO crop(cell_id, started_at, ended_at, harvest_event, harvest_kg, charge_ah, efficiency, estimated_ah) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
@@ -158,9 +150,7 @@ impl Db<'_> {
                 f.map(|f| f.estimated_ah)
             ])?;
         }
-        let mut st = self
-            .c
-            .prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
+        let mut st = self.c.prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
         for c in &h.cutouts {
             st.execute(params![c.event, cell, secs(c.span.from), c.span.to.map(secs)])?;
         }
@@ -175,14 +165,7 @@ impl Db<'_> {
         )?;
         let v = st.query_map([cell], |r| {
             let key = (time(r.get(0)?), time(r.get(1)?), r.get::<_, f64>(2)?);
-            Ok((
-                key,
-                CropFigures {
-                    charge_ah: r.get(3)?,
-                    estimated_ah: r.get::<_, Option<f64>>(4)?.unwrap_or(0.0),
-                    efficiency: r.get(5)?,
-                },
-            ))
+            Ok((key, CropFigures { charge_ah: r.get(3)?, estimated_ah: r.get::<_, Option<f64>>(4)?.unwrap_or(0.0), efficiency: r.get(5)? }))
         })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -194,9 +177,7 @@ impl Db<'_> {
              JOIN cell ON cell.id = crop.cell_id JOIN section ON section.id = cell.section_id
              WHERE section.circuit_id = ?1 AND crop.ended_at >= ?2 AND crop.harvest_kg IS NOT NULL",
         )?;
-        let v = st.query_map(params![circuit_id, secs(t)], |r| {
-            Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?))
-        })?;
+        let v = st.query_map(params![circuit_id, secs(t)], |r| Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -210,15 +191,10 @@ impl Db<'_> {
 
     /// The cell's cut-outs known at `as_of` (one closed after `as_of` counts as still open).
     pub fn cutouts(&self, cell: &str, as_of: Time) -> Result<Vec<OpenSpan>> {
-        let mut st = self
-            .c
-            .prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
+        let mut st = self.c.prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
         let v = st.query_map(params![cell, secs(as_of)], |r| {
             let to: Option<i64> = r.get(1)?;
-            Ok(OpenSpan {
-                from: time(r.get(0)?),
-                to: to.filter(|&x| x <= secs(as_of)).map(time),
-            })
+            Ok(OpenSpan { from: time(r.get(0)?), to: to.filter(|&x| x <= secs(as_of)).map(time) })
         })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -229,11 +205,7 @@ impl Db<'_> {
             "SELECT set_event, set_at, count, mean_kg FROM anode_load WHERE cell_id = ?1 AND set_at <= ?2
              AND (ended_at IS NULL OR ended_at > ?2) ORDER BY set_at DESC LIMIT 1",
         )?;
-        Ok(st
-            .query_row(params![cell, secs(as_of)], |r| {
-                Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))
-            })
-            .optional()?)
+        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))).optional()?)
     }
 
     /// When the crop growing at `as_of` began.
@@ -267,17 +239,11 @@ impl Db<'_> {
             "SELECT at, count, volts FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at <= ?3
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at DESC, id DESC LIMIT 1",
         )?;
-        Ok(st
-            .query_row(params![cell, kind.name(), secs(as_of)], |r| {
-                Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))
-            })
-            .optional()?)
+        Ok(st.query_row(params![cell, kind.name(), secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))).optional()?)
     }
 
     pub fn last_voltage(&self, cell: &str, as_of: Time) -> Result<Option<(Time, f64)>> {
-        Ok(self
-            .latest_cell_event(cell, EventKind::Voltage, as_of)?
-            .and_then(|(t, _, v)| v.map(|v| (t, v))))
+        Ok(self.latest_cell_event(cell, EventKind::Voltage, as_of)?.and_then(|(t, _, v)| v.map(|v| (t, v))))
     }
 
     /// Shorts found in `[since, as_of]`: total count and the last time.
@@ -286,9 +252,8 @@ impl Db<'_> {
             "SELECT sum(count), max(at) FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at >= ?3 AND at <= ?4
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
         )?;
-        let (n, t): (Option<u32>, Option<i64>) = st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| {
-            Ok((r.get(0)?, r.get(1)?))
-        })?;
+        let (n, t): (Option<u32>, Option<i64>) =
+            st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| Ok((r.get(0)?, r.get(1)?)))?;
         Ok(n.zip(t.map(time)))
     }
 
@@ -312,9 +277,7 @@ impl Db<'_> {
     /// Cells whose derived records disagree with a fresh replay are found by the
     /// plant; this lists the cells that have any events at all.
     pub fn cells_with_events(&self) -> Result<Vec<String>> {
-        let mut st = self
-            .c
-            .prepare("SELECT DISTINCT cell_id FROM event WHERE cell_id IS NOT NULL ORDER BY cell_id")?;
+        let mut st = self.c.prepare("SELECT DISTINCT cell_id FROM event WHERE cell_id IS NOT NULL ORDER BY cell_id")?;
         let v = st.query_map([], |r| r.get(0))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -342,9 +305,7 @@ impl Db<'_> {
 
     /// Whether an event has already been voided.
     pub fn is_voided(&self, id: i64) -> Result<bool> {
-        Ok(self
-            .c
-            .query_row("SELECT EXISTS (SELECT 1 FROM event WHERE voids = ?1)", [id], |r| r.get(0))?)
+        Ok(self.c.query_row("SELECT EXISTS (SELECT 1 FROM event WHERE voids = ?1)", [id], |r| r.get(0))?)
     }
 
     pub fn event_count(&self) -> Result<i64> {

@@ -6,10 +6,8 @@ use rusqlite::{Connection, TransactionBehavior};
 use super::Result;
 
 /// The migrations in order; `user_version` counts how many have run.
-pub const MIGRATIONS: &[(&str, &str)] = &[
-    ("001_initial", include_str!("migrations/001_initial.sql")),
-    ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
-];
+pub const MIGRATIONS: &[(&str, &str)] =
+    &[("001_initial", include_str!("migrations/001_initial.sql")), ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql"))];
 
 /// How many migrations the database has had.
 pub fn schema_version(c: &Connection) -> Result<i64> {
@@ -66,9 +64,7 @@ mod tests {
         assert_eq!(n, 2);
         let est: Option<f64> = c.query_row("SELECT estimated_ah FROM crop", [], |r| r.get(0)).unwrap();
         assert_eq!(est, None);
-        let idx: i64 = c
-            .query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0))
-            .unwrap();
+        let idx: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap();
         assert_eq!(idx, 1);
     }
 
@@ -80,9 +76,6 @@ mod tests {
             let c = Connection::open(&path).unwrap();
             c.pragma_update(None, "user_version", 99).unwrap();
         }
-        assert!(matches!(
-            crate::store::Store::open(&path),
-            Err(crate::store::StoreError::TooNew(..))
-        ));
+        assert!(matches!(crate::store::Store::open(&path), Err(crate::store::StoreError::TooNew(..))));
     }
 }

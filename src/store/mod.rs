@@ -68,10 +68,7 @@ impl Store {
             std::fs::create_dir_all(dir).map_err(|e| StoreError::Folder(dir.to_path_buf(), e))?;
         }
         let conn = Connection::open_with_flags(path, OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_CREATE)?;
-        let mut store = Store {
-            conn,
-            path: path.to_path_buf(),
-        };
+        let mut store = Store { conn, path: path.to_path_buf() };
         store.configure()?;
         let known = MIGRATIONS.len();
         let v = schema_version(&store.conn)?;
@@ -109,10 +106,7 @@ impl Store {
     /// Runs `f` in one `BEGIN IMMEDIATE` transaction: committed if `f` succeeds,
     /// rolled back (nothing changed) if it fails.
     pub fn write<T, E: From<StoreError>>(&mut self, f: impl FnOnce(Db<'_>) -> Result<T, E>) -> Result<T, E> {
-        let tx = self
-            .conn
-            .transaction_with_behavior(TransactionBehavior::Immediate)
-            .map_err(StoreError::from)?;
+        let tx = self.conn.transaction_with_behavior(TransactionBehavior::Immediate).map_err(StoreError::from)?;
         let out = f(Db { c: &tx })?;
         tx.commit().map_err(StoreError::from)?;
         Ok(out)
@@ -121,10 +115,7 @@ impl Store {
     /// Runs `f` in a transaction that is always rolled back: to see what a
     /// change would do without making it.
     pub fn preview<T, E: From<StoreError>>(&mut self, f: impl FnOnce(Db<'_>) -> Result<T, E>) -> Result<T, E> {
-        let tx = self
-            .conn
-            .transaction_with_behavior(TransactionBehavior::Immediate)
-            .map_err(StoreError::from)?;
+        let tx = self.conn.transaction_with_behavior(TransactionBehavior::Immediate).map_err(StoreError::from)?;
         let out = f(Db { c: &tx });
         tx.rollback().map_err(StoreError::from)?;
         out
@@ -171,9 +162,7 @@ impl Db<'_> {
     /// database before and after a command that must change nothing.
     pub fn dump(&self) -> Result<String> {
         let mut out = String::new();
-        let mut st = self
-            .c
-            .prepare("SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")?;
+        let mut st = self.c.prepare("SELECT name FROM sqlite_master WHERE type = 'table' ORDER BY name")?;
         let tables: Vec<String> = st.query_map([], |r| r.get(0))?.collect::<rusqlite::Result<_>>()?;
         for t in tables {
             out.push_str(&format!("## {t}\n"));
@@ -181,9 +170,8 @@ impl Db<'_> {
             let n = st.column_count();
             let mut rows = st.query([])?;
             while let Some(r) = rows.next()? {
-                let cols: Vec<String> = (0..n)
-                    .map(|i| format!("{:?}", r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default()))
-                    .collect();
+                let cols: Vec<String> =
+                    (0..n).map(|i| format!("{:?}", r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default())).collect();
                 out.push_str(&cols.join("|"));
                 out.push('\n');
             }

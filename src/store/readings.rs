@@ -11,11 +11,7 @@ use crate::domain::charge::{
 use crate::domain::history::EventKind;
 
 fn point(r: &rusqlite::Row<'_>) -> rusqlite::Result<Point> {
-    Ok(Point {
-        t: time(r.get(0)?),
-        amps: r.get(1)?,
-        cum_ah: r.get(2)?,
-    })
+    Ok(Point { t: time(r.get(0)?), amps: r.get(1)?, cum_ah: r.get(2)? })
 }
 
 impl Db<'_> {
@@ -31,9 +27,8 @@ impl Db<'_> {
         let Some(first) = rows.iter().map(|r| r.t).min() else {
             return Ok(());
         };
-        let mut st = self
-            .c
-            .prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
+        let mut st =
+            self.c.prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
         for r in rows {
             st.execute(params![circuit_id, secs(r.t), r.amps])?;
         }
@@ -49,20 +44,12 @@ impl Db<'_> {
             .prepare_cached("SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t < ?2 ORDER BY t DESC LIMIT 1")?
             .query_row(params![circuit_id, secs(from)], point)
             .optional()?;
-        let mut st = self
-            .c
-            .prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
+        let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
         let later: Vec<RawReading> = st
-            .query_map(params![circuit_id, secs(from)], |r| {
-                Ok(RawReading {
-                    t: time(r.get(0)?),
-                    amps: r.get(1)?,
-                })
-            })?
+            .query_map(params![circuit_id, secs(from)], |r| Ok(RawReading { t: time(r.get(0)?), amps: r.get(1)? }))?
             .collect::<rusqlite::Result<_>>()?;
-        let mut up = self
-            .c
-            .prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
+        let mut up =
+            self.c.prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
         for a in accumulate(prev, &later, &outages) {
             up.execute(params![circuit_id, secs(a.t), a.cum_ah, a.valid, a.gap_before])?;
         }
@@ -76,12 +63,7 @@ impl Db<'_> {
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
         )?;
         let spans: Vec<Span> = st
-            .query_map(params![circuit_id, EventKind::Outage.name()], |r| {
-                Ok(Span {
-                    from: time(r.get(0)?),
-                    to: time(r.get(1)?),
-                })
-            })?
+            .query_map(params![circuit_id, EventKind::Outage.name()], |r| Ok(Span { from: time(r.get(0)?), to: time(r.get(1)?) }))?
             .collect::<rusqlite::Result<_>>()?;
         Ok(union(spans))
     }
@@ -92,9 +74,7 @@ impl Db<'_> {
             "SELECT at, amps FROM event e WHERE circuit_id = ?1 AND kind = ?2
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at, id",
         )?;
-        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| {
-            Ok((time(r.get(0)?), r.get(1)?))
-        })?;
+        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -132,9 +112,8 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t",
         )?;
-        let ends: Vec<Time> = st
-            .query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?
-            .collect::<rusqlite::Result<_>>()?;
+        let ends: Vec<Time> =
+            st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?.collect::<rusqlite::Result<_>>()?;
         let mut v = Vec::new();
         for end in ends {
             if let Some(p) = self.valid_before(circuit_id, end)? {
@@ -207,19 +186,11 @@ impl<'c> StoreCurve<'c> {
         let outages = db.outages(circuit_id)?;
         let setpoints = db.setpoints(circuit_id)?;
         let last = db.last_valid(circuit_id, as_of)?;
-        let mut curve = StoreCurve {
-            db,
-            circuit_id,
-            as_of,
-            last,
-            projection: Projection::new(last, None, &setpoints, outages.clone()),
-            outages,
-        };
+        let mut curve =
+            StoreCurve { db, circuit_id, as_of, last, projection: Projection::new(last, None, &setpoints, outages.clone()), outages };
         if let Some(p) = last {
             let a = p.t - MEAN_WINDOW;
-            let first = db
-                .first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?
-                .map_or(a, |f| f.t);
+            let first = db.first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?.map_or(a, |f| f.t);
             let a = a.max(first);
             let cum_a = curve.cum_at(a)?.measured;
             let mean = mean_in_service_amps(a, cum_a, p.t, p.cum_ah, &curve.outages);

@@ -234,17 +234,11 @@ impl App {
     }
 
     fn say(&mut self, text: impl Into<String>) {
-        self.status = Some(Status {
-            text: text.into(),
-            bad: false,
-        });
+        self.status = Some(Status { text: text.into(), bad: false });
     }
 
     fn warn(&mut self, text: impl Into<String>) {
-        self.status = Some(Status {
-            text: text.into(),
-            bad: true,
-        });
+        self.status = Some(Status { text: text.into(), bad: true });
     }
 
     /// Columns the tile grid uses: all of them, less the side panel on a wide terminal.
@@ -271,13 +265,7 @@ impl App {
         let rows = self.body_rows();
         if line < self.scroll + 1 {
             // show the section header above the first tile line too
-            self.scroll = line
-                .saturating_sub(if line > 0 && matches!(g[line - 1], GridLine::Section(..)) {
-                    2
-                } else {
-                    0
-                })
-                .min(line);
+            self.scroll = line.saturating_sub(if line > 0 && matches!(g[line - 1], GridLine::Section(..)) { 2 } else { 0 }).min(line);
         } else if line >= self.scroll + rows {
             self.scroll = line + 1 - rows;
         }
@@ -285,10 +273,7 @@ impl App {
 
     fn move_vertical(&mut self, dy: i32) {
         let g = grid(&self.cells, self.per_row());
-        let rows: Vec<&Vec<usize>> = g
-            .iter()
-            .filter_map(|l| if let GridLine::Tiles(t) = l { Some(t) } else { None })
-            .collect();
+        let rows: Vec<&Vec<usize>> = g.iter().filter_map(|l| if let GridLine::Tiles(t) = l { Some(t) } else { None }).collect();
         let Some(r) = rows.iter().position(|t| t.contains(&self.cursor)) else {
             return;
         };
@@ -300,9 +285,7 @@ impl App {
 
     fn move_section(&mut self, d: i32) {
         let same = |a: &CellForecast, b: &CellForecast| a.circuit == b.circuit && a.section == b.section;
-        let starts: Vec<usize> = (0..self.cells.len())
-            .filter(|&i| i == 0 || !same(&self.cells[i], &self.cells[i - 1]))
-            .collect();
+        let starts: Vec<usize> = (0..self.cells.len()).filter(|&i| i == 0 || !same(&self.cells[i], &self.cells[i - 1])).collect();
         if starts.is_empty() {
             return;
         }
@@ -461,12 +444,7 @@ impl App {
     }
 
     fn form_context<'a>(&'a self, cut: &'a dyn Fn(&str) -> Option<Time>, ids: &'a [String]) -> FormContext<'a> {
-        FormContext {
-            cells: ids,
-            circuits: &self.circuits,
-            zone: self.days.zone,
-            cut_out_since: cut,
-        }
+        FormContext { cells: ids, circuits: &self.circuits, zone: self.days.zone, cut_out_since: cut }
     }
 
     fn cell_ids(&self) -> Vec<String> {
@@ -478,11 +456,7 @@ impl App {
             Some(c) => (c.cell.clone(), c.circuit.clone(), c.anode.as_ref().map_or(0, |a| a.count)),
             None => (String::new(), self.circuits.first().cloned().unwrap_or_default(), 0),
         };
-        let anodes = if anodes == 0 {
-            self.detail.as_ref().map_or(50, |d| d.params.anodes_per_cell)
-        } else {
-            anodes
-        };
+        let anodes = if anodes == 0 { self.detail.as_ref().map_or(50, |d| d.params.anodes_per_cell) } else { anodes };
         let now = self.days.zone.show(self.as_of);
         let mut form = Form::new(kind, &cell, &circuit, &now, anodes);
         self.validate(&mut form);
@@ -496,11 +470,7 @@ impl App {
     }
 
     fn opts(&self, force: bool) -> Opts {
-        Opts {
-            by: self.who.clone().unwrap_or_default(),
-            force,
-            now: self.as_of,
-        }
+        Opts { by: self.who.clone().unwrap_or_default(), force, now: self.as_of }
     }
 
     /// A key while an overlay has the keyboard.
@@ -525,11 +495,10 @@ impl App {
             Overlay::Jump(mut s) => {
                 match key {
                     Key::Enter => {
-                        let hit = self.cells.iter().position(|c| c.cell.eq_ignore_ascii_case(&s)).or_else(|| {
-                            self.cells
-                                .iter()
-                                .position(|c| c.cell.to_ascii_uppercase().starts_with(&s.to_ascii_uppercase()))
-                        });
+                        let hit =
+                            self.cells.iter().position(|c| c.cell.eq_ignore_ascii_case(&s)).or_else(|| {
+                                self.cells.iter().position(|c| c.cell.to_ascii_uppercase().starts_with(&s.to_ascii_uppercase()))
+                            });
                         match hit {
                             Some(i) if !s.is_empty() => {
                                 self.cursor = i;
@@ -645,17 +614,10 @@ impl App {
         match key {
             Key::Char('y') | Key::Enter if r.questions.is_empty() || r.forced => {
                 if let Some((circuit, at, amps)) = r.reading.clone() {
-                    return Some(Effect::ImportReading {
-                        circuit,
-                        at,
-                        amps,
-                        by: self.who.clone().unwrap_or_default(),
-                    });
+                    return Some(Effect::ImportReading { circuit, at, amps, by: self.who.clone().unwrap_or_default() });
                 }
                 let forced = r.forced;
-                Some(Effect::Commit(
-                    r.entries.into_iter().map(|(e, o)| (e, Opts { force: forced, ..o })).collect(),
-                ))
+                Some(Effect::Commit(r.entries.into_iter().map(|(e, o)| (e, Opts { force: forced, ..o })).collect()))
             }
             Key::Char('y') | Key::Enter => {
                 self.overlay = Some(Overlay::Review(r));
@@ -722,31 +684,13 @@ impl App {
         let summary: Vec<String> = entries.iter().map(|(e, _)| describe(e, self)).collect();
         match verdict {
             Ok(()) => {
-                self.overlay = Some(Overlay::Review(Review {
-                    form,
-                    entries,
-                    reading: None,
-                    summary,
-                    questions: Vec::new(),
-                    forced: false,
-                }))
+                self.overlay = Some(Overlay::Review(Review { form, entries, reading: None, summary, questions: Vec::new(), forced: false }))
             }
             Err(CheckVerdict::Questioned(questions)) => {
-                self.overlay = Some(Overlay::Review(Review {
-                    form,
-                    entries,
-                    reading: None,
-                    summary,
-                    questions,
-                    forced: false,
-                }))
+                self.overlay = Some(Overlay::Review(Review { form, entries, reading: None, summary, questions, forced: false }))
             }
             Err(CheckVerdict::Rejected { field, message }) => {
-                match form
-                    .fields
-                    .iter_mut()
-                    .find(|f| f.key.option() == field || (field == "--cell" && f.key == FieldKey::Cells))
-                {
+                match form.fields.iter_mut().find(|f| f.key.option() == field || (field == "--cell" && f.key == FieldKey::Cells)) {
                     Some(f) => f.error = Some(message.clone()),
                     None => form.message = Some(message.clone()),
                 }

@@ -20,11 +20,7 @@ type Series = Vec<(f64, f64)>;
 
 fn when(app: &App, t: Time) -> String {
     let d = (t - app.as_of).num_minutes() as f64 / 1440.0;
-    let rel = if d >= 0.0 {
-        format!("in {d:.1} d")
-    } else {
-        format!("{:.1} d ago", -d)
-    };
+    let rel = if d >= 0.0 { format!("in {d:.1} d") } else { format!("{:.1} d ago", -d) };
     format!("{} ({rel})", short(app, t))
 }
 
@@ -38,10 +34,7 @@ fn short(app: &App, t: Time) -> String {
 pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail>, wide: bool, rows: usize) -> Vec<Line<'a>> {
     let mut l: Vec<Line> = Vec::new();
     let st = states(c, app.as_of, app.day_end());
-    let mut head = vec![
-        Span::styled(format!("{} ", c.cell), bold()),
-        Span::raw(format!("circuit {} · section {} ", c.circuit, c.section)),
-    ];
+    let mut head = vec![Span::styled(format!("{} ", c.cell), bold()), Span::raw(format!("circuit {} · section {} ", c.circuit, c.section))];
     for s in &st {
         let (m, col) = state_mark(Some(*s));
         head.push(Span::styled(format!("{m} "), bold().patch(fg(app, col))));
@@ -51,18 +44,12 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
         l.push(Line::styled(format!("  {}", s.meaning()), fg(app, state_mark(Some(*s)).1)));
     }
     if let Some(since) = c.cut_out_since {
-        l.push(Line::styled(
-            format!("Cut out since {}", short(app, since)),
-            fg(app, Color::DarkGray),
-        ));
+        l.push(Line::styled(format!("Cut out since {}", short(app, since)), fg(app, Color::DarkGray)));
     }
     match &c.anode {
         Some(a) => {
             let age = (app.as_of - a.set_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(
-                format!("Anodes set {} ({age:.1} d ago)", short(app, a.set_at)),
-                bold(),
-            ));
+            l.push(Line::styled(format!("Anodes set {} ({age:.1} d ago)", short(app, a.set_at)), bold()));
             l.push(Line::raw(format!("  {} × {:.0} kg at set", a.count, a.initial_kg)));
             if c.anode_kind == crate::domain::layout::AnodeKind::Soluble {
                 l.push(Line::raw(format!(
@@ -71,10 +58,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
                     a.remaining_fraction * 100.0,
                     a.thickness_mm
                 )));
-                l.push(Line::raw(format!(
-                    "  pull due {}",
-                    a.pull_due.map_or("not in sight".into(), |t| when(app, t))
-                )));
+                l.push(Line::raw(format!("  pull due {}", a.pull_due.map_or("not in sight".into(), |t| when(app, t)))));
             } else {
                 l.push(Line::raw("  inert anodes: not consumed"));
             }
@@ -84,48 +68,24 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     match &c.cathode {
         Some(k) => {
             let age = (app.as_of - k.started_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(
-                format!("Crop since {} ({age:.1} d)", short(app, k.started_at)),
-                bold(),
-            ));
+            l.push(Line::styled(format!("Crop since {} ({age:.1} d)", short(app, k.started_at)), bold()));
             l.push(Line::raw(format!("  {:.1} kg/cathode, inner {:.1} kg", k.mass_kg, k.inner_mass_kg)));
-            l.push(Line::raw(format!(
-                "  harvest due {}",
-                k.harvest_due.map_or("not in sight".into(), |t| when(app, t))
-            )));
+            l.push(Line::raw(format!("  harvest due {}", k.harvest_due.map_or("not in sight".into(), |t| when(app, t)))));
         }
         None => l.push(Line::raw("No crop growing")),
     }
     let last = c.last_crop_efficiency.map_or("-".into(), |e| format!("{:.1} %", e * 100.0));
-    l.push(Line::raw(format!(
-        "Efficiency used {:.1} %, last crop {last}",
-        c.cathode_efficiency * 100.0
-    )));
+    l.push(Line::raw(format!("Efficiency used {:.1} %, last crop {last}", c.cathode_efficiency * 100.0)));
     if let Some(d) = detail {
-        let hist: Vec<String> = d
-            .efficiencies
-            .iter()
-            .rev()
-            .take(if wide { 10 } else { 6 })
-            .rev()
-            .map(|(_, e, _)| format!("{:.1}", e * 100.0))
-            .collect();
+        let hist: Vec<String> =
+            d.efficiencies.iter().rev().take(if wide { 10 } else { 6 }).rev().map(|(_, e, _)| format!("{:.1}", e * 100.0)).collect();
         if !hist.is_empty() {
             l.push(Line::raw(format!("  crops: {}", hist.join(" "))));
         }
     }
-    let est = if c.estimated_ah > 0.0 {
-        format!(" ({:.0} kA·h estimated)", c.estimated_ah / 1000.0)
-    } else {
-        String::new()
-    };
+    let est = if c.estimated_ah > 0.0 { format!(" ({:.0} kA·h estimated)", c.estimated_ah / 1000.0) } else { String::new() };
     l.push(Line::raw(format!("Charge {:.0} kA·h{est}", c.charge_ah / 1000.0)));
-    let volts = detail.and_then(|d| {
-        d.events
-            .iter()
-            .find(|e| e.volts.is_some() && !e.voided)
-            .map(|e| (e.at, e.volts.unwrap_or(0.0)))
-    });
+    let volts = detail.and_then(|d| d.events.iter().find(|e| e.volts.is_some() && !e.voided).map(|e| (e.at, e.volts.unwrap_or(0.0))));
     match (volts, c.energy_kwh_per_t) {
         (Some((t, v)), Some(e)) => l.push(Line::raw(format!("Voltage {v} V ({}), {e:.0} kWh/t", short(app, t)))),
         (_, Some(e)) => l.push(Line::raw(format!("Energy {e:.0} kWh/t at the last voltage"))),
@@ -138,12 +98,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     if let Some(d) = detail {
         l.push(Line::styled("Entries", bold()));
         // voltages are many and summed up above; the work entries matter here
-        for e in d
-            .events
-            .iter()
-            .filter(|e| e.kind != crate::domain::history::EventKind::Voltage)
-            .take(rows)
-        {
+        for e in d.events.iter().filter(|e| e.kind != crate::domain::history::EventKind::Voltage).take(rows) {
             let what = match (e.kind.name(), e.kg, e.count, e.volts) {
                 ("void", ..) => format!("undoes {}", e.voids.unwrap_or(0)),
                 (_, Some(kg), _, _) => format!("{kg} kg"),
@@ -179,9 +134,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         let charts = if tr.anode_kg.is_empty() {
             vec![right]
         } else {
-            Layout::vertical([Constraint::Percentage(50), Constraint::Percentage(50)])
-                .split(right)
-                .to_vec()
+            Layout::vertical([Constraint::Percentage(50), Constraint::Percentage(50)]).split(right).to_vec()
         };
         let now_x = h(app.as_of);
         let (q_meas, q_proj) = split(&tr.charge, 1e-3);
@@ -200,23 +153,13 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
                 .graph_type(GraphType::Line)
                 .style(fg(app, Color::DarkGray))
                 .data(&q_proj),
-            Dataset::default()
-                .name("now")
-                .marker(Marker::Braille)
-                .graph_type(GraphType::Line)
-                .style(fg(app, Color::Gray))
-                .data(&now_line),
+            Dataset::default().name("now").marker(Marker::Braille).graph_type(GraphType::Line).style(fg(app, Color::Gray)).data(&now_line),
         ];
         let axes = |max: f64, title: &str| {
-            Axis::default()
-                .title(title.to_string())
-                .bounds([0.0, max])
-                .labels(vec![Line::raw("0"), Line::raw(format!("{max:.0}"))])
+            Axis::default().title(title.to_string()).bounds([0.0, max]).labels(vec![Line::raw("0"), Line::raw(format!("{max:.0}"))])
         };
-        let xaxis = Axis::default()
-            .title("h")
-            .bounds([0.0, x_max])
-            .labels(vec![Line::raw("0"), Line::raw(format!("{:.0} d", x_max / 24.0))]);
+        let xaxis =
+            Axis::default().title("h").bounds([0.0, x_max]).labels(vec![Line::raw("0"), Line::raw(format!("{:.0} d", x_max / 24.0))]);
         f.render_widget(
             Chart::new(ds)
                 .legend_position(None)
@@ -231,12 +174,8 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             let initial = c.anode.as_ref().map_or(top, |a| a.initial_kg);
             let target = p.scrap_target * initial;
             let target_line = vec![(0.0, target), (x_max, target)];
-            let due_line: Vec<(f64, f64)> = c
-                .anode
-                .as_ref()
-                .and_then(|a| a.pull_due)
-                .map(|t| vec![(h(t), 0.0), (h(t), top)])
-                .unwrap_or_default();
+            let due_line: Vec<(f64, f64)> =
+                c.anode.as_ref().and_then(|a| a.pull_due).map(|t| vec![(h(t), 0.0), (h(t), top)]).unwrap_or_default();
             let ds = vec![
                 Dataset::default()
                     .name("anode kg")
@@ -278,9 +217,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         }
     } else {
         f.render_widget(
-            Paragraph::new("no anode load or crop to chart")
-                .style(Style::default())
-                .block(Block::default().borders(Borders::ALL)),
+            Paragraph::new("no anode load or crop to chart").style(Style::default()).block(Block::default().borders(Borders::ALL)),
             right,
         );
     }

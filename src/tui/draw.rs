@@ -37,13 +37,8 @@ pub fn state_mark(s: Option<CellState>) -> (char, Color) {
 }
 
 pub fn draw(f: &mut Frame, app: &App) {
-    let [title, body, status, hints] = Layout::vertical([
-        Constraint::Length(1),
-        Constraint::Min(1),
-        Constraint::Length(1),
-        Constraint::Length(1),
-    ])
-    .areas(f.area());
+    let [title, body, status, hints] =
+        Layout::vertical([Constraint::Length(1), Constraint::Min(1), Constraint::Length(1), Constraint::Length(1)]).areas(f.area());
     draw_title(f, app, title);
     match app.view {
         View::Tankhouse => tankhouse::draw(f, app, body),
@@ -71,10 +66,7 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     let line = Line::from(vec![
         Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow))),
         Span::raw(format!("│ {} │ {} │ ", shorten(&app.plant_name, 24), app.view.title())),
-        Span::styled(
-            format!("today: {} harvest, {} anodes", counts[0], counts[1]),
-            fg(app, Color::Yellow),
-        ),
+        Span::styled(format!("today: {} harvest, {} anodes", counts[0], counts[1]), fg(app, Color::Yellow)),
         Span::raw(format!(" · {} low η · {} out", counts[2], counts[3])),
     ]);
     f.render_widget(Paragraph::new(line).style(Style::default().add_modifier(Modifier::REVERSED)), area);
@@ -84,9 +76,7 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
 /// logging and the "as of" time always on the right.
 fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     let who = app.who.clone().unwrap_or_else(|| "—".into());
-    let file = std::path::Path::new(&app.db_path)
-        .file_name()
-        .map_or(app.db_path.clone(), |n| n.to_string_lossy().into_owned());
+    let file = std::path::Path::new(&app.db_path).file_name().map_or(app.db_path.clone(), |n| n.to_string_lossy().into_owned());
     let right = format!(" {} │ by {who} │ as of {} ", shorten(&file, 20), app.days.zone.show(app.as_of));
     let room = (area.width as usize).saturating_sub(right.chars().count());
     let mut left = Vec::new();
@@ -97,11 +87,7 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
         left.push(Span::styled(t, bold().patch(fg(app, Color::Red))));
     }
     if let Some(s) = &app.status {
-        let style = if s.bad {
-            bold().patch(fg(app, Color::Red))
-        } else {
-            fg(app, Color::Green)
-        };
+        let style = if s.bad { bold().patch(fg(app, Color::Red)) } else { fg(app, Color::Green) };
         let text: String = s.text.chars().take(room.saturating_sub(used + 1)).collect();
         used += text.chars().count();
         left.push(Span::styled(text, style));
@@ -114,11 +100,7 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
 /// Keeps the end of a long path, which names the file.
 pub fn shorten(s: &str, max: usize) -> String {
     let n = s.chars().count();
-    if n <= max {
-        s.to_string()
-    } else {
-        format!("…{}", s.chars().skip(n + 1 - max).collect::<String>())
-    }
+    if n <= max { s.to_string() } else { format!("…{}", s.chars().skip(n + 1 - max).collect::<String>()) }
 }
 
 fn draw_hints(f: &mut Frame, app: &App, area: Rect) {
@@ -134,12 +116,7 @@ fn draw_hints(f: &mut Frame, app: &App, area: Rect) {
 pub fn centered(area: Rect, w: u16, h: u16) -> Rect {
     let w = w.min(area.width);
     let h = h.min(area.height);
-    Rect {
-        x: area.x + (area.width - w) / 2,
-        y: area.y + (area.height - h) / 2,
-        width: w,
-        height: h,
-    }
+    Rect { x: area.x + (area.width - w) / 2, y: area.y + (area.height - h) / 2, width: w, height: h }
 }
 
 /// Draws a bordered box; `area`'s height grows to fit wrapped lines where the screen allows.
@@ -174,16 +151,10 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
             ];
             for s in CellState::ALL {
                 let (c, col) = state_mark(Some(s));
-                lines.push(Line::from(vec![
-                    Span::styled(format!("  {c}  "), bold().patch(fg(app, col))),
-                    Span::raw(s.meaning()),
-                ]));
+                lines.push(Line::from(vec![Span::styled(format!("  {c}  "), bold().patch(fg(app, col))), Span::raw(s.meaning())]));
             }
             let (c, col) = state_mark(None);
-            lines.push(Line::from(vec![
-                Span::styled(format!("  {c}  "), fg(app, col)),
-                Span::raw("nothing due today"),
-            ]));
+            lines.push(Line::from(vec![Span::styled(format!("  {c}  "), fg(app, col)), Span::raw("nothing due today")]));
             lines.push(Line::raw("The first state that applies is shown; the cell screen lists them all."));
             lines.push(Line::raw("Any key closes the legend."));
             let h = lines.len() as u16 + 2;
@@ -192,21 +163,15 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
         Overlay::Menu => {
             let mut lines = vec![Line::raw("Record what happened. Press a letter:")];
             for (k, _, label) in MENU {
-                lines.push(Line::from(vec![
-                    Span::styled(format!("  {k}  "), bold().patch(fg(app, Color::Cyan))),
-                    Span::raw(*label),
-                ]));
+                lines.push(Line::from(vec![Span::styled(format!("  {k}  "), bold().patch(fg(app, Color::Cyan))), Span::raw(*label)]));
             }
             lines.push(Line::raw("  Esc  cancel"));
             let h = lines.len() as u16 + 2;
             popup(f, centered(full, 50, h), "New entry", lines);
         }
-        Overlay::Jump(s) => popup(
-            f,
-            centered(full, 40, 4),
-            "Go to cell",
-            vec![Line::raw(format!("Cell id: {s}▏")), Line::raw("Enter go · Esc cancel")],
-        ),
+        Overlay::Jump(s) => {
+            popup(f, centered(full, 40, 4), "Go to cell", vec![Line::raw(format!("Cell id: {s}▏")), Line::raw("Enter go · Esc cancel")])
+        }
         Overlay::Initials(s) => popup(
             f,
             centered(full, 56, 6),
@@ -226,10 +191,7 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
                 let style = if focus { bold() } else { Style::default() };
                 lines.push(Line::from(vec![
                     Span::styled(format!("{marker}{:>20}: ", fl.label), style),
-                    Span::styled(
-                        format!("{}{}", fl.value, if focus { "▏" } else { "" }),
-                        style.add_modifier(Modifier::UNDERLINED),
-                    ),
+                    Span::styled(format!("{}{}", fl.value, if focus { "▏" } else { "" }), style.add_modifier(Modifier::UNDERLINED)),
                 ]));
                 match &fl.error {
                     Some(e) => lines.push(Line::styled(format!("{:>23}✗ {e}", ""), fg(app, Color::Red))),
@@ -277,13 +239,7 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
                 centered(full, 64, 6),
                 "Undo",
                 vec![
-                    Line::raw(format!(
-                        "Undo entry {} — {} {place} at {}, by {}?",
-                        e.id,
-                        e.kind.name(),
-                        app.days.zone.show(e.at),
-                        e.by
-                    )),
+                    Line::raw(format!("Undo entry {} — {} {place} at {}, by {}?", e.id, e.kind.name(), app.days.zone.show(e.at), e.by)),
                     Line::raw("The entry stays in the log, marked undone."),
                     Line::raw(""),
                     Line::styled("y undo · any other key keeps it", bold()),

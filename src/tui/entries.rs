@@ -12,10 +12,7 @@ use super::draw::{bold, fg};
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let rows = area.height.saturating_sub(1) as usize;
-    let mut lines = vec![Line::styled(
-        format!("{:>6} {:<9} {:<8} {:<17} {:<5} what", "entry", "kind", "where", "at", "by"),
-        bold(),
-    )];
+    let mut lines = vec![Line::styled(format!("{:>6} {:<9} {:<8} {:<17} {:<5} what", "entry", "kind", "where", "at", "by"), bold())];
     let first = app.entry_sel.saturating_sub(rows.saturating_sub(1));
     for (i, e) in app.recent.iter().enumerate().skip(first).take(rows) {
         let place = e.cell.clone().or(e.circuit.clone()).unwrap_or_default();
@@ -29,24 +26,13 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             (_, _, _, _, _, Some(end)) => format!("until {}", app.days.zone.show(end)),
             _ => String::new(),
         };
-        let flags = format!(
-            "{}{}",
-            if e.voided { " [undone]" } else { "" },
-            if e.forced { " [forced]" } else { "" }
-        );
+        let flags = format!("{}{}", if e.voided { " [undone]" } else { "" }, if e.forced { " [forced]" } else { "" });
         let mut style = if e.voided { fg(app, Color::DarkGray) } else { Default::default() };
         if i == app.entry_sel {
             style = style.add_modifier(Modifier::REVERSED);
         }
         lines.push(Line::styled(
-            format!(
-                "{:>6} {:<9} {:<8} {:<17} {:<5} {what}{flags}",
-                e.id,
-                e.kind.name(),
-                place,
-                app.days.zone.show(e.at),
-                e.by
-            ),
+            format!("{:>6} {:<9} {:<8} {:<17} {:<5} {what}{flags}", e.id, e.kind.name(), place, app.days.zone.show(e.at), e.by),
             style,
         ));
     }

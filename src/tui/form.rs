@@ -184,25 +184,11 @@ impl Form {
                     Count if matches!(kind, FormKind::Anodes | FormKind::AnodeChange) => anodes.to_string(),
                     _ => String::new(),
                 };
-                Field {
-                    key,
-                    label: key.label(kind),
-                    hint: key.hint(),
-                    value,
-                    error: None,
-                }
+                Field { key, label: key.label(kind), hint: key.hint(), value, error: None }
             })
             .collect();
-        let focus = keys
-            .iter()
-            .position(|k| matches!(k, TotalKg | MeanKg | Count | Amps | Volts | To))
-            .unwrap_or(0);
-        Form {
-            kind,
-            fields,
-            focus,
-            message: None,
-        }
+        let focus = keys.iter().position(|k| matches!(k, TotalKg | MeanKg | Count | Amps | Volts | To)).unwrap_or(0);
+        Form { kind, fields, focus, message: None }
     }
 
     pub fn field_mut(&mut self, key: FieldKey) -> Option<&mut Field> {
@@ -224,10 +210,7 @@ impl Form {
                 FieldKey::Cells => parse_cells(v, cx.cells).err().or_else(|| {
                     let cells = parse_cells(v, cx.cells).unwrap_or_default();
                     if kind == FormKind::CutoutEnd {
-                        cells
-                            .iter()
-                            .find(|c| (cx.cut_out_since)(c).is_none())
-                            .map(|c| format!("{c} is not cut out"))
+                        cells.iter().find(|c| (cx.cut_out_since)(c).is_none()).map(|c| format!("{c} is not cut out"))
                     } else if kind == FormKind::Voltage && cells.len() > 1 {
                         Some("one cell at a time".into())
                     } else {
@@ -240,22 +223,16 @@ impl Form {
                 FieldKey::CropKg if v.is_empty() => None,
                 FieldKey::CropKg => parse_weights(v, n_cells.unwrap_or(1)).err(),
                 FieldKey::Count => v.parse::<u32>().err().map(|_| "a whole number".to_string()),
-                FieldKey::MeanKg | FieldKey::Amps | FieldKey::Volts => v
-                    .parse::<f64>()
-                    .ok()
-                    .filter(|x| x.is_finite() && *x >= 0.0)
-                    .is_none()
-                    .then(|| "a number, 0 or more".to_string()),
+                FieldKey::MeanKg | FieldKey::Amps | FieldKey::Volts => {
+                    v.parse::<f64>().ok().filter(|x| x.is_finite() && *x >= 0.0).is_none().then(|| "a number, 0 or more".to_string())
+                }
             };
             self.fields[i].error = err;
         }
-        if let (Some(from), Some(to)) = (
-            self.fields.iter().position(|f| f.key == FieldKey::From),
-            self.fields.iter().position(|f| f.key == FieldKey::To),
-        ) && let (Ok(a), Ok(b)) = (
-            cx.zone.parse_time(&self.fields[from].value),
-            cx.zone.parse_time(&self.fields[to].value),
-        ) && b <= a
+        if let (Some(from), Some(to)) =
+            (self.fields.iter().position(|f| f.key == FieldKey::From), self.fields.iter().position(|f| f.key == FieldKey::To))
+            && let (Ok(a), Ok(b)) = (cx.zone.parse_time(&self.fields[from].value), cx.zone.parse_time(&self.fields[to].value))
+            && b <= a
             && self.fields[to].error.is_none()
         {
             self.fields[to].error = Some("ends before it starts".into());
@@ -270,16 +247,8 @@ impl Form {
     pub fn submission(&self, cx: &FormContext) -> Result<Submission, String> {
         let cells = parse_cells(self.value(FieldKey::Cells), cx.cells);
         let time = |k: FieldKey| cx.zone.parse_time(self.value(k)).map_err(|e| e.to_string());
-        let num = |k: FieldKey| {
-            self.value(k)
-                .parse::<f64>()
-                .map_err(|_| format!("{}: not a number", k.label(self.kind)))
-        };
-        let count = || {
-            self.value(FieldKey::Count)
-                .parse::<u32>()
-                .map_err(|_| "not a whole number".to_string())
-        };
+        let num = |k: FieldKey| self.value(k).parse::<f64>().map_err(|_| format!("{}: not a number", k.label(self.kind)));
+        let count = || self.value(FieldKey::Count).parse::<u32>().map_err(|_| "not a whole number".to_string());
         let circuit = self.value(FieldKey::Circuit).to_string();
         let per_cell = |f: &dyn Fn(String) -> Result<Entry, String>| -> Result<Submission, String> {
             Ok(Submission::Entries(cells.clone()?.into_iter().map(f).collect::<Result<_, _>>()?))
@@ -294,13 +263,11 @@ impl Form {
                     cells
                         .into_iter()
                         .zip(kg)
-                        .map(|(cell, total_kg)| {
-                            if harvest {
-                                Entry::Harvest { cell, at, total_kg }
-                            } else {
-                                Entry::Scrap { cell, at, total_kg }
-                            }
-                        })
+                        .map(
+                            |(cell, total_kg)| {
+                                if harvest { Entry::Harvest { cell, at, total_kg } } else { Entry::Scrap { cell, at, total_kg } }
+                            },
+                        )
                         .collect(),
                 ))
             }
@@ -315,37 +282,17 @@ impl Form {
                 let (at, n, kg) = (time(FieldKey::At)?, count()?, num(FieldKey::MeanKg)?);
                 let mut out = Vec::new();
                 for (i, cell) in cells.into_iter().enumerate() {
-                    out.push(Entry::Scrap {
-                        cell: cell.clone(),
-                        at,
-                        total_kg: scrap[i],
-                    });
+                    out.push(Entry::Scrap { cell: cell.clone(), at, total_kg: scrap[i] });
                     if let Some(c) = &crop {
-                        out.push(Entry::Harvest {
-                            cell: cell.clone(),
-                            at,
-                            total_kg: c[i],
-                        });
+                        out.push(Entry::Harvest { cell: cell.clone(), at, total_kg: c[i] });
                     }
-                    out.push(Entry::Anodes {
-                        cell,
-                        at,
-                        count: n,
-                        mean_kg: kg,
-                    });
+                    out.push(Entry::Anodes { cell, at, count: n, mean_kg: kg });
                 }
                 Ok(Submission::Entries(out))
             }
             FormKind::Anodes => {
                 let (at, n, kg) = (time(FieldKey::At)?, count()?, num(FieldKey::MeanKg)?);
-                per_cell(&|cell| {
-                    Ok(Entry::Anodes {
-                        cell,
-                        at,
-                        count: n,
-                        mean_kg: kg,
-                    })
-                })
+                per_cell(&|cell| Ok(Entry::Anodes { cell, at, count: n, mean_kg: kg }))
             }
             FormKind::Shorts => {
                 let (at, n) = (time(FieldKey::At)?, count()?);
@@ -366,21 +313,13 @@ impl Form {
                 let (at, v) = (time(FieldKey::At)?, num(FieldKey::Volts)?);
                 per_cell(&|cell| Ok(Entry::Voltage { cell, at, volts: v }))
             }
-            FormKind::Outage => Ok(Submission::Entries(vec![Entry::Outage {
-                circuit,
-                from: time(FieldKey::From)?,
-                to: time(FieldKey::To)?,
-            }])),
-            FormKind::Setpoint => Ok(Submission::Entries(vec![Entry::Setpoint {
-                circuit,
-                from: time(FieldKey::From)?,
-                amps: num(FieldKey::Amps)?,
-            }])),
-            FormKind::Reading => Ok(Submission::Reading {
-                circuit,
-                at: time(FieldKey::At)?,
-                amps: num(FieldKey::Amps)?,
-            }),
+            FormKind::Outage => {
+                Ok(Submission::Entries(vec![Entry::Outage { circuit, from: time(FieldKey::From)?, to: time(FieldKey::To)? }]))
+            }
+            FormKind::Setpoint => {
+                Ok(Submission::Entries(vec![Entry::Setpoint { circuit, from: time(FieldKey::From)?, amps: num(FieldKey::Amps)? }]))
+            }
+            FormKind::Reading => Ok(Submission::Reading { circuit, at: time(FieldKey::At)?, amps: num(FieldKey::Amps)? }),
         }
     }
 }
@@ -388,11 +327,7 @@ impl Form {
 /// Cell ids from `A01`, `A01-A12` (in plant order) or `A01,A03`.
 pub fn parse_cells(s: &str, all: &[String]) -> Result<Vec<String>, String> {
     let mut out: Vec<String> = Vec::new();
-    let find = |id: &str| {
-        all.iter()
-            .position(|c| c.eq_ignore_ascii_case(id.trim()))
-            .ok_or_else(|| format!("no cell '{}'", id.trim()))
-    };
+    let find = |id: &str| all.iter().position(|c| c.eq_ignore_ascii_case(id.trim())).ok_or_else(|| format!("no cell '{}'", id.trim()));
     for part in s.split(',').map(str::trim).filter(|p| !p.is_empty()) {
         match part.split_once('-') {
             Some((a, b)) => {
@@ -460,21 +395,14 @@ mod tests {
     fn a_harvest_form_becomes_one_entry_per_cell() {
         let zone = PlantZone::parse("UTC").unwrap();
         let none = |_: &str| None;
-        let cx = FormContext {
-            cells: &ids(),
-            circuits: &["C1".to_string()],
-            zone,
-            cut_out_since: &none,
-        };
+        let cx = FormContext { cells: &ids(), circuits: &["C1".to_string()], zone, cut_out_since: &none };
         let mut f = Form::new(FormKind::Harvest, "A01-A03", "C1", "2026-03-01 12:00", 50);
         f.validate(&cx);
         assert!(!f.is_valid(), "the weight is still empty");
         f.field_mut(FieldKey::TotalKg).unwrap().value = "650".into();
         f.validate(&cx);
         assert!(f.is_valid(), "{f:?}");
-        let Submission::Entries(e) = f.submission(&cx).unwrap() else {
-            panic!()
-        };
+        let Submission::Entries(e) = f.submission(&cx).unwrap() else { panic!() };
         assert_eq!(e.len(), 3);
         assert!(matches!(&e[2], Entry::Harvest { cell, total_kg, .. } if cell == "A03" && *total_kg == 650.0));
     }

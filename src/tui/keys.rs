@@ -93,12 +93,7 @@ use Key::*;
 
 /// Keys every screen shares (after the screen's own).
 pub const GLOBAL: &[Binding] = &[
-    b(
-        &[Char('n')],
-        Action::EntryMenu,
-        "new shift-log entry (harvest, anodes, scrap, …)",
-        Some("new entry"),
-    ),
+    b(&[Char('n')], Action::EntryMenu, "new shift-log entry (harvest, anodes, scrap, …)", Some("new entry")),
     b(&[Char('u')], Action::UndoLast, "undo the newest entry (asks first)", Some("undo")),
     b(&[Char('t')], Action::ShowView(View::Tankhouse), "tankhouse: every cell", None),
     b(&[Char('r')], Action::ShowView(View::Rectifier), "rectifiers: circuit current", None),
@@ -120,18 +115,8 @@ pub const TANKHOUSE: &[Binding] = &[
     b(&[Tab], Action::Section(1), "next section", None),
     b(&[BackTab], Action::Section(-1), "previous section", None),
     b(&[Enter], Action::OpenCell, "open the cell", Some("cell")),
-    b(
-        &[Char('d')],
-        Action::NextDue,
-        "next cell due today (harvest, anodes, thin anodes)",
-        Some("next due"),
-    ),
-    b(
-        &[Char('/'), Char('g')],
-        Action::StartJump,
-        "go to a cell: type its id, then Enter",
-        Some("go to"),
-    ),
+    b(&[Char('d')], Action::NextDue, "next cell due today (harvest, anodes, thin anodes)", Some("next due")),
+    b(&[Char('/'), Char('g')], Action::StartJump, "go to a cell: type its id, then Enter", Some("go to")),
     b(&[Char('L')], Action::Legend, "legend of the cell symbols", Some("legend")),
 ];
 
@@ -153,12 +138,7 @@ pub const RECTIFIER: &[Binding] = &[
 pub const ENTRIES: &[Binding] = &[
     b(&[Up, Char('k')], Action::Move(0, -1), "previous entry", None),
     b(&[Down, Char('j')], Action::Move(0, 1), "next entry", None),
-    b(
-        &[Char('x')],
-        Action::UndoSelected,
-        "undo the selected entry (asks first)",
-        Some("undo this"),
-    ),
+    b(&[Char('x')], Action::UndoSelected, "undo the selected entry (asks first)", Some("undo this")),
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
 ];
 
@@ -184,11 +164,7 @@ pub fn keys_label(b: &Binding) -> String {
 
 /// The hint bar's items for a screen.
 pub fn hints(view: View) -> Vec<(String, &'static str)> {
-    table(view)
-        .iter()
-        .chain(GLOBAL)
-        .filter_map(|b| b.hint.map(|h| (keys_label(b), h)))
-        .collect()
+    table(view).iter().chain(GLOBAL).filter_map(|b| b.hint.map(|h| (keys_label(b), h))).collect()
 }
 
 #[cfg(test)]

@@ -45,11 +45,7 @@ impl Session {
 
     /// One key, as the terminal would deliver it.
     pub fn press(&mut self, key: Key) {
-        let action = if self.app.overlay.is_some() {
-            Some(Action::Input(key))
-        } else {
-            keys::resolve(self.app.view, key)
-        };
+        let action = if self.app.overlay.is_some() { Some(Action::Input(key)) } else { keys::resolve(self.app.view, key) };
         if let Some(a) = action {
             self.act(a);
         }
@@ -123,10 +119,7 @@ impl Session {
                     Ok(_) => Ok(()),
                     Err(PlantError::Questioned(q)) => Err(CheckVerdict::Questioned(q)),
                     Err(PlantError::Rejected { field, message }) => Err(CheckVerdict::Rejected { field, message }),
-                    Err(e) => Err(CheckVerdict::Rejected {
-                        field: String::new(),
-                        message: e.to_string(),
-                    }),
+                    Err(e) => Err(CheckVerdict::Rejected { field: String::new(), message: e.to_string() }),
                 };
                 app.checked(batch, verdict);
                 None
@@ -139,10 +132,7 @@ impl Session {
                 let csv = format!("time,circuit,amps\n{},{circuit},{amps}\n", at.to_rfc3339());
                 match plant.import_current(csv.as_bytes(), &format!("reading typed by {by}"), app.as_of) {
                     Ok(s) if s.added == 1 => {
-                        app.status = Some(app::Status {
-                            text: format!("recorded {amps} A on {circuit}"),
-                            bad: false,
-                        });
+                        app.status = Some(app::Status { text: format!("recorded {amps} A on {circuit}"), bad: false });
                         Some(Effect::Reload)
                     }
                     Ok(_) => {
@@ -157,20 +147,13 @@ impl Session {
             }
             Effect::OfferUndo => {
                 match plant.recent_events(None, 200) {
-                    Ok(ev) => app.offer_undo(
-                        ev.into_iter()
-                            .find(|e| e.kind != crate::domain::history::EventKind::Void && !e.voided),
-                    ),
+                    Ok(ev) => app.offer_undo(ev.into_iter().find(|e| e.kind != crate::domain::history::EventKind::Void && !e.voided)),
                     Err(e) => app.failed(e.to_string()),
                 }
                 None
             }
             Effect::Undo(id) => {
-                let opts = crate::plant::Opts {
-                    by: app.who.clone().unwrap_or_default(),
-                    force: false,
-                    now: app.as_of,
-                };
+                let opts = crate::plant::Opts { by: app.who.clone().unwrap_or_default(), force: false, now: app.as_of };
                 let r = plant.undo(Some(id), &opts).map_err(|e| e.to_string());
                 app.undone(r)
             }

@@ -16,29 +16,16 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         f.render_widget(Paragraph::new("loading…"), area);
         return;
     }
-    let warn_lines: Vec<Line> = app
-        .plant_warnings
-        .iter()
-        .map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red)))
-        .collect();
+    let warn_lines: Vec<Line> = app.plant_warnings.iter().map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red))).collect();
     let list_h = (app.trends.len() as u16 + 2 + warn_lines.len() as u16).min(area.height / 2);
     let [list, chart] = Layout::vertical([Constraint::Length(list_h), Constraint::Min(5)]).areas(area);
-    let mut lines = vec![Line::styled(
-        format!(
-            "{:<6} {:>10} {:>16} {:>14}  notes",
-            "circuit", "now, A", "last reading", "today, kA·h"
-        ),
-        bold(),
-    )];
+    let mut lines =
+        vec![Line::styled(format!("{:<6} {:>10} {:>16} {:>14}  notes", "circuit", "now, A", "last reading", "today, kA·h"), bold())];
     let first = app.trend_sel.saturating_sub(list_h.saturating_sub(2) as usize - 1);
     for (i, t) in app.trends.iter().enumerate().skip(first).take((list_h as usize).saturating_sub(1)) {
         let last = t.last_reading.map_or("none".into(), |p| app.days.zone.show(p.t));
         let now = t.last_reading.map_or("-".into(), |p| format!("{:.0}", p.amps));
-        let est = if t.today_ah.1 > 0.0 {
-            format!(" (+{:.1} est.)", t.today_ah.1 / 1000.0)
-        } else {
-            String::new()
-        };
+        let est = if t.today_ah.1 > 0.0 { format!(" (+{:.1} est.)", t.today_ah.1 / 1000.0) } else { String::new() };
         let mut notes = Vec::new();
         let planned = t.outages.iter().filter(|o| o.from > app.as_of).count();
         if t.outages.len() > planned {
@@ -50,19 +37,9 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         if !t.gaps.is_empty() {
             notes.push(format!("{} gap(s)", t.gaps.len()));
         }
-        let text = format!(
-            "{:<6} {:>10} {:>16} {:>14}  {}{est}",
-            t.name,
-            now,
-            last,
-            format!("{:.1}", t.today_ah.0 / 1000.0),
-            notes.join(", ")
-        );
-        let style = if i == app.trend_sel {
-            bold().add_modifier(Modifier::REVERSED)
-        } else {
-            Default::default()
-        };
+        let text =
+            format!("{:<6} {:>10} {:>16} {:>14}  {}{est}", t.name, now, last, format!("{:.1}", t.today_ah.0 / 1000.0), notes.join(", "));
+        let style = if i == app.trend_sel { bold().add_modifier(Modifier::REVERSED) } else { Default::default() };
         lines.push(Line::styled(text, style));
     }
     lines.extend(warn_lines);
@@ -71,12 +48,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let from = app.as_of - chrono::Duration::days(app.span_days);
     let h = |x: crate::domain::charge::Time| (x - from).num_minutes() as f64 / 60.0;
     let span_h = (app.span_days * 24) as f64;
-    let pts: Vec<(f64, f64)> = t
-        .points
-        .iter()
-        .filter(|(x, _)| *x >= from)
-        .map(|(x, a)| (h(*x), a / 1000.0))
-        .collect();
+    let pts: Vec<(f64, f64)> = t.points.iter().filter(|(x, _)| *x >= from).map(|(x, a)| (h(*x), a / 1000.0)).collect();
     let top = (t.max_amps / 1000.0).max(1.0);
     let outage: Vec<(f64, f64)> = t
         .outages
@@ -86,37 +58,13 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             (0..=20).map(move |k| (a + (b - a) * k as f64 / 20.0, 0.5))
         })
         .collect();
-    let gaps: Vec<(f64, f64)> = t
-        .gaps
-        .iter()
-        .flat_map(|s| [(h(s.from).max(0.0), top * 0.98), (h(s.to).max(0.0), top * 0.98)])
-        .collect();
+    let gaps: Vec<(f64, f64)> = t.gaps.iter().flat_map(|s| [(h(s.from).max(0.0), top * 0.98), (h(s.to).max(0.0), top * 0.98)]).collect();
     let day = vec![(h(t.day_start), 0.0), (h(t.day_start), top)];
     let ds = vec![
-        Dataset::default()
-            .name("kA")
-            .marker(Marker::Braille)
-            .graph_type(GraphType::Line)
-            .style(fg(app, Color::Green))
-            .data(&pts),
-        Dataset::default()
-            .name("outage")
-            .marker(Marker::Block)
-            .graph_type(GraphType::Scatter)
-            .style(fg(app, Color::Red))
-            .data(&outage),
-        Dataset::default()
-            .name("gap")
-            .marker(Marker::Dot)
-            .graph_type(GraphType::Scatter)
-            .style(fg(app, Color::Blue))
-            .data(&gaps),
-        Dataset::default()
-            .name("day start")
-            .marker(Marker::Braille)
-            .graph_type(GraphType::Line)
-            .style(fg(app, Color::DarkGray))
-            .data(&day),
+        Dataset::default().name("kA").marker(Marker::Braille).graph_type(GraphType::Line).style(fg(app, Color::Green)).data(&pts),
+        Dataset::default().name("outage").marker(Marker::Block).graph_type(GraphType::Scatter).style(fg(app, Color::Red)).data(&outage),
+        Dataset::default().name("gap").marker(Marker::Dot).graph_type(GraphType::Scatter).style(fg(app, Color::Blue)).data(&gaps),
+        Dataset::default().name("day start").marker(Marker::Braille).graph_type(GraphType::Line).style(fg(app, Color::DarkGray)).data(&day),
     ];
     let title = Line::from(vec![
         Span::raw(format!(" {} · last {} d · ", t.name, app.span_days)),
@@ -124,18 +72,10 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         Span::styled("gap • ", fg(app, Color::Blue)),
         Span::raw(format!("estimate after last reading {:.0} A ", t.projected_amps)),
     ]);
-    let x = Axis::default()
-        .bounds([0.0, span_h])
-        .labels(vec![Line::raw(format!("-{} d", app.span_days)), Line::raw("now")]);
-    let y = Axis::default()
-        .bounds([0.0, top])
-        .labels(vec![Line::raw("0"), Line::raw(format!("{top:.0} kA"))]);
+    let x = Axis::default().bounds([0.0, span_h]).labels(vec![Line::raw(format!("-{} d", app.span_days)), Line::raw("now")]);
+    let y = Axis::default().bounds([0.0, top]).labels(vec![Line::raw("0"), Line::raw(format!("{top:.0} kA"))]);
     f.render_widget(
-        Chart::new(ds)
-            .legend_position(None)
-            .block(Block::default().borders(Borders::ALL).title(title))
-            .x_axis(x)
-            .y_axis(y),
+        Chart::new(ds).legend_position(None).block(Block::default().borders(Borders::ALL).title(title)).x_axis(x).y_axis(y),
         chart,
     );
 }

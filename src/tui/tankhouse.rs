@@ -31,10 +31,7 @@ pub fn tile_text(c: &CellForecast, mark: char, app: &App) -> String {
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     if app.cells.is_empty() {
-        f.render_widget(
-            Paragraph::new("No cells: load a layout with `tankbook layout load FILE.toml`, or run `tankbook demo`."),
-            area,
-        );
+        f.render_widget(Paragraph::new("No cells: load a layout with `tankbook layout load FILE.toml`, or run `tankbook demo`."), area);
         return;
     }
     let area = if area.width >= WIDE {
@@ -80,12 +77,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         if area.width > w {
             f.render_widget(
                 Paragraph::new(pos).style(fg(app, Color::DarkGray)),
-                Rect {
-                    x: area.x + area.width - w,
-                    y: area.y,
-                    width: w,
-                    height: 1,
-                },
+                Rect { x: area.x + area.width - w, y: area.y, width: w, height: 1 },
             );
         }
     }

@@ -19,11 +19,7 @@ impl Tk {
     pub fn new(now: &str) -> Tk {
         let dir = tempfile::tempdir().expect("temp dir");
         let db = dir.path().join("plant.db");
-        Tk {
-            dir,
-            db,
-            now: now.to_string(),
-        }
+        Tk { dir, db, now: now.to_string() }
     }
 
     /// A plant with the plant-check layout loaded.
@@ -35,10 +31,7 @@ impl Tk {
 
     pub fn cmd(&self) -> Command {
         let mut c = Command::cargo_bin("tankbook").expect("binary");
-        c.env("TANKBOOK_DB", &self.db)
-            .env("TANKBOOK_NOW", &self.now)
-            .env("TANKBOOK_BY", "JD")
-            .env_remove("NO_COLOR");
+        c.env("TANKBOOK_DB", &self.db).env("TANKBOOK_NOW", &self.now).env("TANKBOOK_BY", "JD").env_remove("NO_COLOR");
         c
     }
 
@@ -76,6 +69,17 @@ impl Tk {
         std::fs::write(&p, text).expect("write");
         p.to_string_lossy().into_owned()
     }
+}
+
+/// The plant check: layout, 24 h at 30 kA from 2026-03-01T00:00Z on C1, and
+/// 50 × 380 kg anodes set in A01 at `set_at`; the clock at the end of the day.
+pub fn plant_check_day(set_at: &str) -> Tk {
+    let tk = Tk::with_layout("2026-03-02T00:00:00Z", "plant_check.toml");
+    let pts: Vec<(f64, f64)> = (0..=24).map(|h| (h as f64, 30_000.0)).collect();
+    let csv = tk.file("c.csv", &current_csv(&pts));
+    tk.ok(&["import", "current", &csv]);
+    tk.ok(&["log", "anodes", "--cell", "A01", "--at", set_at, "--count", "50", "--mean-kg", "380"]);
+    tk
 }
 
 /// A current CSV for circuit C1: `(hours after start, amps)` pairs from 2026-03-01T00:00Z.
