@@ -215,7 +215,9 @@ fn an_entry_that_fails_to_save_is_kept() {
     assert_eq!(f.s.app.unsaved, Some(batch.clone()));
     assert!(f.s.app.status.as_ref().unwrap().text.contains("NOT SAVED"));
     assert!(screen(&f.s, 80, 24).contains("UNSAVED"));
-    // w retries with the same entry; q asks before losing it
+    // the failure also opens as a notice; then w retries with the same entry and q asks before losing it
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Notice(_))));
+    f.s.press(Key::Esc);
     f.s.press(Key::Char('q'));
     assert!(matches!(f.s.app.overlay, Some(Overlay::ConfirmQuit)) && !f.s.app.quit);
     f.s.press(Key::Char('n'));
@@ -253,6 +255,10 @@ fn snapshots_of_every_view() {
     f.s.press(Key::Esc);
     f.s.type_str("nh");
     snap("harvest_form", &f.s);
+    f.s.press(Key::Esc);
+    f.s.app.status = None;
+    f.s.press(Key::Char('p'));
+    snap("plan", &f.s);
 }
 
 #[test]
@@ -315,4 +321,65 @@ fn an_anode_change_is_one_confirmed_entry_of_scrap_crop_and_anodes() {
     let ev = f.s.plant.recent_events(Some(&due.cell), 3).unwrap();
     let kinds: Vec<&str> = ev.iter().map(|e| e.kind.name()).collect();
     assert_eq!(kinds, ["anodes", "harvest", "scrap"]);
+}
+
+#[test]
+fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('p'));
+    assert_eq!(f.s.app.view, View::Plan);
+    let plan = f.s.app.plan.clone().expect("a plan");
+    assert!(plan.days.iter().all(|d| d.crew_load <= d.crew_capacity));
+    // a change of the running load whose window opens after the first day and has another day with crew to spare
+    let (day, job, target) = plan
+        .days
+        .iter()
+        .enumerate()
+        .find_map(|(i, d)| {
+            d.anode_changes.iter().enumerate().filter(|(_, c)| c.cycle == 0 && c.window.earliest > plan.days[0].date).find_map(|(j, c)| {
+                plan.days
+                    .iter()
+                    .enumerate()
+                    .find(|(k, o)| {
+                        *k != i
+                            && o.crew_load < o.crew_capacity
+                            && o.date >= c.window.earliest
+                            && c.window.latest.is_some_and(|l| o.date <= l)
+                    })
+                    .map(|(k, _)| (i, j, k))
+            })
+        })
+        .expect("some change can move");
+    let cell = plan.days[day].anode_changes[job].cell.clone();
+    for _ in 0..day {
+        f.s.press(Key::Down);
+    }
+    for _ in 0..job {
+        f.s.press(Key::Right);
+    }
+    assert_eq!(f.s.app.selected_change().unwrap().cell, cell);
+    f.s.press(Key::Char('m'));
+    assert!(matches!(&f.s.app.overlay, Some(Overlay::PlanMove(c)) if *c == cell));
+    while f.s.app.plan_day != target {
+        f.s.press(if f.s.app.plan_day < target { Key::Down } else { Key::Up });
+    }
+    f.s.press(Key::Enter);
+    let p = f.s.app.plan.clone().unwrap();
+    let job = p.days[target].anode_changes.iter().position(|c| c.cell == cell && c.cycle == 0).expect("moved to the chosen day");
+    assert!(p.days[target].anode_changes[job].moved);
+    assert!(p.days.iter().all(|d| d.crew_load <= d.crew_capacity));
+    // the first day is before the window opens: refused, with a notice, and the earlier move stays
+    f.s.app.plan_day = target;
+    f.s.app.plan_job = job;
+    f.s.press(Key::Char('m'));
+    while f.s.app.plan_day != 0 {
+        f.s.press(Key::Up);
+    }
+    f.s.press(Key::Enter);
+    assert!(matches!(&f.s.app.overlay, Some(Overlay::Notice(t)) if t.contains(&cell)), "{:?} {:?}", f.s.app.overlay, f.s.app.status);
+    assert_eq!(f.s.app.plan_moves, vec![(cell.clone(), p.days[target].date)], "the refused move is taken back");
+    f.s.press(Key::Esc);
+    f.s.press(Key::Char('z'));
+    assert!(f.s.app.plan_moves.is_empty());
 }

@@ -1,5 +1,6 @@
 //! The command line, as clap parses it: the scripting contract of DESIGN.md.
 
+use chrono::NaiveDate;
 use clap::{Args, Parser, Subcommand};
 use std::path::PathBuf;
 
@@ -34,6 +35,8 @@ pub enum Command {
     Events(EventsArgs),
     /// Every cell's anodes, crop and due times as of a time
     Forecast(ForecastArgs),
+    /// Plan anode changes and harvests over the coming production days (advisory)
+    Plan(PlanArgs),
     /// Check the database's integrity
     Check(CheckArgs),
     /// Copy the database safely while it is in use
@@ -205,6 +208,49 @@ pub struct ForecastArgs {
     /// JSON output (schema 1)
     #[arg(long)]
     pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct PlanArgs {
+    /// First production day, YYYY-MM-DD (default: today's production day)
+    #[arg(long, value_name = "DATE", value_parser = parse_date)]
+    pub from: Option<NaiveDate>,
+    /// Production days to plan
+    #[arg(long, default_value_t = 14)]
+    pub days: u32,
+    /// Cells the crew can change a day (default: the layout's crew_cells_per_day)
+    #[arg(long, value_name = "K")]
+    pub crew_cells_per_day: Option<u32>,
+    /// Cathodes the stripping machine handles a day (default: the layout's harvest_cathodes_per_day)
+    #[arg(long, value_name = "C")]
+    pub harvest_cathodes_per_day: Option<u32>,
+    /// New anodes on hand at the start of the first day (default: the layout's anode_stock)
+    #[arg(long, value_name = "N")]
+    pub anode_stock: Option<u64>,
+    /// New anodes prepared each day (default: the layout's anodes_per_day)
+    #[arg(long, value_name = "N")]
+    pub anodes_per_day: Option<u64>,
+    /// Move a cell's anode change to another day inside its window; repeat for more cells
+    #[arg(long = "move", value_name = "CELL=DATE", value_parser = parse_move)]
+    pub moves: Vec<(String, NaiveDate)>,
+    /// JSON output (schema 1)
+    #[arg(long)]
+    pub json: bool,
+    /// Also write one row per planned job to this CSV file
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+}
+
+fn parse_date(s: &str) -> Result<NaiveDate, String> {
+    NaiveDate::parse_from_str(s.trim(), "%Y-%m-%d").map_err(|_| format!("'{s}' is not a date: use YYYY-MM-DD"))
+}
+
+fn parse_move(s: &str) -> Result<(String, NaiveDate), String> {
+    let (cell, date) = s.split_once('=').ok_or_else(|| format!("'{s}' is not CELL=YYYY-MM-DD"))?;
+    if cell.trim().is_empty() {
+        return Err(format!("'{s}' names no cell: use CELL=YYYY-MM-DD"));
+    }
+    Ok((cell.trim().to_string(), parse_date(date)?))
 }
 
 #[derive(Debug, Args)]

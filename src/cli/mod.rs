@@ -2,6 +2,7 @@
 //! Exit codes: 0 done, 2 a command-line usage error, 1 anything rejected or failed.
 
 mod args;
+mod plan;
 mod print;
 
 use anyhow::{Context, Result, anyhow};
@@ -121,6 +122,7 @@ pub fn run(cli: Cli) -> Result<()> {
                 print::forecast(&plant, &f);
             }
         }
+        Command::Plan(a) => plan::run(&plant, a, now)?,
         Command::Check(a) => {
             let r = plant.check()?;
             if a.json {

@@ -9,5 +9,7 @@ pub mod entry;
 pub mod forecast;
 pub mod history;
 pub mod layout;
+pub mod levelling;
 pub mod outlook;
+pub mod plan;
 pub mod plant_time;

@@ -7,6 +7,7 @@
 mod detail;
 mod forecast;
 mod import;
+mod plan;
 mod record;
 
 use chrono::{DateTime, Utc};
@@ -14,6 +15,7 @@ use std::path::{Path, PathBuf};
 
 pub use detail::{CellDetail, CircuitTrend};
 pub use import::ImportSummary;
+pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};

@@ -2,7 +2,7 @@
 //! needs the database returns an [`Effect`], which the runner performs against
 //! the plant and reports back; drawing reads the state only.
 
-use chrono::Duration;
+use chrono::{Duration, NaiveDate};
 
 use super::form::{FieldKey, Form, FormContext, FormKind, MENU, Submission};
 use super::keys::Key;
@@ -10,6 +10,7 @@ use crate::domain::charge::Time;
 use crate::domain::entry::Entry;
 use crate::domain::forecast::{CellForecast, Forecast, Warning};
 use crate::domain::history::{Event, EventKind};
+use crate::domain::plan::Plan;
 use crate::domain::plant_time::ProductionDays;
 use crate::plant::{CellDetail, CircuitTrend, Opts, Recorded};
 
@@ -20,6 +21,7 @@ pub enum View {
     Cell,
     Rectifier,
     Entries,
+    Plan,
 }
 
 impl View {
@@ -29,6 +31,7 @@ impl View {
             View::Cell => "Cell",
             View::Rectifier => "Rectifiers",
             View::Entries => "Entries",
+            View::Plan => "Plan",
         }
     }
 }
@@ -46,6 +49,9 @@ pub enum Action {
     Back,
     Span(i32),
     UndoSelected,
+    PlanJob(i32),
+    PlanMove,
+    PlanReset,
     EntryMenu,
     UndoLast,
     ShowView(View),
@@ -66,6 +72,8 @@ pub enum Effect {
     LoadDetail(String),
     LoadTrends,
     LoadRecent,
+    /// Plan the coming days with the hand moves made so far.
+    LoadPlan,
     /// The review step: run the checks, write nothing.
     Check(Vec<(Entry, Opts)>),
     Commit(Vec<(Entry, Opts)>),
@@ -92,6 +100,10 @@ pub enum Overlay {
     Review(Review),
     ConfirmUndo(Event),
     ConfirmQuit,
+    /// Choosing the day for a cell's anode change: ↑↓ pick, Enter place, Esc cancel.
+    PlanMove(String),
+    /// A message too long for the status line; any key closes it.
+    Notice(String),
 }
 
 /// A checked entry waiting for the foreman's yes.
@@ -136,6 +148,14 @@ pub struct App {
     pub span_days: i64,
     pub recent: Vec<Event>,
     pub entry_sel: usize,
+    pub plan: Option<Plan>,
+    /// Anode changes moved by hand (cell, day), re-checked at every replan.
+    pub plan_moves: Vec<(String, NaiveDate)>,
+    /// The hand move a new one replaced, put back if the new one is refused.
+    pub plan_replaced: Option<(String, NaiveDate)>,
+    pub plan_day: usize,
+    pub plan_job: usize,
+    pub plan_days: u32,
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
@@ -206,6 +226,12 @@ impl App {
             span_days: 3,
             recent: Vec::new(),
             entry_sel: 0,
+            plan: None,
+            plan_moves: Vec::new(),
+            plan_replaced: None,
+            plan_day: 0,
+            plan_job: 0,
+            plan_days: 21,
             status: None,
             unsaved: None,
             width: 80,
@@ -237,8 +263,14 @@ impl App {
         self.status = Some(Status { text: text.into(), bad: false });
     }
 
+    /// A warning on the status line; one too long for it also opens as a notice,
+    /// so nothing the foreman must read is cut off.
     fn warn(&mut self, text: impl Into<String>) {
-        self.status = Some(Status { text: text.into(), bad: true });
+        let text = text.into();
+        if text.chars().count() > 40 && self.overlay.is_none() {
+            self.overlay = Some(Overlay::Notice(text.clone()));
+        }
+        self.status = Some(Status { text, bad: true });
     }
 
     /// Columns the tile grid uses: all of them, less the side panel on a wide terminal.
@@ -352,6 +384,7 @@ impl App {
                 match v {
                     View::Rectifier => Some(Effect::LoadTrends),
                     View::Entries => Some(Effect::LoadRecent),
+                    View::Plan => Some(Effect::LoadPlan),
                     View::Cell => self.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
                     View::Tankhouse => None,
                 }
@@ -413,8 +446,39 @@ impl App {
                 }
                 None
             }
+            Action::PlanJob(d) => {
+                let n = self.plan_day_jobs();
+                self.plan_job = (self.plan_job as i64 + i64::from(d)).clamp(0, n.saturating_sub(1) as i64) as usize;
+                None
+            }
+            Action::PlanMove => {
+                match self.selected_change() {
+                    Some(c) => {
+                        let cell = c.cell.clone();
+                        self.say(format!("moving {cell}: ↑↓ choose the day, Enter to place it there, Esc to leave it"));
+                        self.overlay = Some(Overlay::PlanMove(cell));
+                    }
+                    None => self.warn("select an anode change first (←→ on the day's list)"),
+                }
+                None
+            }
+            Action::PlanReset => {
+                self.plan_moves.clear();
+                self.say("hand moves dropped: the plan is levelled afresh");
+                Some(Effect::LoadPlan)
+            }
             Action::Input(_) | Action::Resize(..) => None,
         }
+    }
+
+    /// Jobs listed for the selected plan day: anode changes, then harvests.
+    pub fn plan_day_jobs(&self) -> usize {
+        self.plan.as_ref().and_then(|p| p.days.get(self.plan_day)).map_or(0, |d| d.anode_changes.len() + d.harvests.len())
+    }
+
+    /// The anode change selected on the plan screen, if the selection is one.
+    pub fn selected_change(&self) -> Option<&crate::domain::plan::AnodeChange> {
+        self.plan.as_ref()?.days.get(self.plan_day)?.anode_changes.get(self.plan_job)
     }
 
     fn moved(&mut self, dx: i32, dy: i32) -> Option<Effect> {
@@ -438,6 +502,12 @@ impl App {
             }
             View::Entries => {
                 self.entry_sel = (self.entry_sel as i64 + i64::from(dy)).clamp(0, self.recent.len().saturating_sub(1) as i64) as usize;
+                None
+            }
+            View::Plan => {
+                let n = self.plan.as_ref().map_or(0, |p| p.days.len());
+                self.plan_day = (self.plan_day as i64 + i64::from(dy)).clamp(0, n.saturating_sub(1) as i64) as usize;
+                self.plan_job = 0;
                 None
             }
         }
@@ -477,7 +547,7 @@ impl App {
     fn input(&mut self, key: Key) -> Option<Effect> {
         let overlay = self.overlay.take()?;
         match overlay {
-            Overlay::Help | Overlay::Legend => None,
+            Overlay::Help | Overlay::Legend | Overlay::Notice(_) => None,
             Overlay::ConfirmQuit => {
                 if key == Key::Char('y') {
                     self.quit = true;
@@ -545,6 +615,27 @@ impl App {
             }
             Overlay::Form(form) => self.form_key(form, key),
             Overlay::Review(r) => self.review_key(r, key),
+            Overlay::PlanMove(cell) => {
+                let n = self.plan.as_ref().map_or(0, |p| p.days.len());
+                match key {
+                    Key::Up | Key::Char('k') => self.plan_day = self.plan_day.saturating_sub(1),
+                    Key::Down | Key::Char('j') => self.plan_day = (self.plan_day + 1).min(n.saturating_sub(1)),
+                    Key::Enter => {
+                        let date = self.plan.as_ref().and_then(|p| p.days.get(self.plan_day)).map(|d| d.date)?;
+                        self.plan_replaced = self.plan_moves.iter().position(|(c, _)| c == &cell).map(|i| self.plan_moves.remove(i));
+                        self.plan_moves.push((cell.clone(), date));
+                        self.say(format!("{cell} placed on {date}: re-checked against its window and the crew"));
+                        return Some(Effect::LoadPlan);
+                    }
+                    Key::Esc => {
+                        self.say("not moved");
+                        return None;
+                    }
+                    _ => {}
+                }
+                self.overlay = Some(Overlay::PlanMove(cell));
+                None
+            }
             Overlay::ConfirmUndo(e) => match key {
                 Key::Char('y') => Some(Effect::Undo(e.id)),
                 _ => {
@@ -718,6 +809,28 @@ impl App {
             Err(e) => {
                 self.unsaved = Some(entries);
                 self.warn(format!("NOT SAVED: {e}. The entry is kept here: press w to try again"));
+                None
+            }
+        }
+    }
+
+    pub fn loaded_plan(&mut self, p: Plan) {
+        self.plan_day = self.plan_day.min(p.days.len().saturating_sub(1));
+        self.plan_replaced = None;
+        self.plan = Some(p);
+        self.plan_job = self.plan_job.min(self.plan_day_jobs().saturating_sub(1));
+    }
+
+    /// A replan was refused (a hand move outside its window, over capacity…): the last move is taken back.
+    pub fn plan_refused(&mut self, msg: String) -> Option<Effect> {
+        match self.plan_moves.pop() {
+            Some((cell, day)) => {
+                self.plan_moves.extend(self.plan_replaced.take());
+                self.warn(format!("{cell} cannot go on {day}: {msg}"));
+                Some(Effect::LoadPlan)
+            }
+            None => {
+                self.warn(format!("no plan: {msg}"));
                 None
             }
         }

@@ -10,7 +10,7 @@ use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
 use super::app::{App, Overlay, View};
 use super::form::MENU;
 use super::keys::{self, GLOBAL};
-use super::{cell, entries, rectifier, tankhouse};
+use super::{cell, entries, plan, rectifier, tankhouse};
 use crate::domain::outlook::CellState;
 
 /// A style with `fg`, or plain when colour is off (`NO_COLOR`).
@@ -45,6 +45,7 @@ pub fn draw(f: &mut Frame, app: &App) {
         View::Cell => cell::draw(f, app, body),
         View::Rectifier => rectifier::draw(f, app, body),
         View::Entries => entries::draw(f, app, body),
+        View::Plan => plan::draw(f, app, body),
     }
     draw_status(f, app, status);
     draw_hints(f, app, hints);
@@ -245,6 +246,11 @@ fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
                     Line::styled("y undo · any other key keeps it", bold()),
                 ],
             );
+        }
+        // the board stays in view while a day is chosen; the status line says what to do
+        Overlay::PlanMove(_) => {}
+        Overlay::Notice(text) => {
+            popup(f, centered(full, 70, 5), "Note · any key closes", vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red)))])
         }
         Overlay::ConfirmQuit => popup(
             f,

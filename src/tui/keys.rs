@@ -98,6 +98,7 @@ pub const GLOBAL: &[Binding] = &[
     b(&[Char('t')], Action::ShowView(View::Tankhouse), "tankhouse: every cell", None),
     b(&[Char('r')], Action::ShowView(View::Rectifier), "rectifiers: circuit current", None),
     b(&[Char('e')], Action::ShowView(View::Entries), "entries: the event log", None),
+    b(&[Char('p')], Action::ShowView(View::Plan), "plan: anode changes and harvests, day by day", Some("plan")),
     b(&[Char('i')], Action::AskInitials, "change who is logging (initials)", None),
     b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
     b(&[F(5)], Action::Reload, "reload from the database", None),
@@ -142,6 +143,16 @@ pub const ENTRIES: &[Binding] = &[
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
 ];
 
+pub const PLAN: &[Binding] = &[
+    b(&[Up, Char('k')], Action::Move(0, -1), "previous day", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "next day", None),
+    b(&[Left, Char('h')], Action::PlanJob(-1), "previous job of the day", None),
+    b(&[Right, Char('l')], Action::PlanJob(1), "next job of the day", None),
+    b(&[Char('m')], Action::PlanMove, "move the selected anode change to another day (re-checked)", Some("move")),
+    b(&[Char('z')], Action::PlanReset, "drop the moves made by hand", None),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+];
+
 /// The table of a screen.
 pub fn table(view: View) -> &'static [Binding] {
     match view {
@@ -149,6 +160,7 @@ pub fn table(view: View) -> &'static [Binding] {
         View::Cell => CELL,
         View::Rectifier => RECTIFIER,
         View::Entries => ENTRIES,
+        View::Plan => PLAN,
     }
 }
 
@@ -173,7 +185,7 @@ mod tests {
 
     #[test]
     fn no_key_is_bound_twice_on_a_screen() {
-        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries] {
+        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries, View::Plan] {
             let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
             for (i, k) in all.iter().enumerate() {
                 assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");

@@ -8,6 +8,7 @@ mod draw;
 mod entries;
 pub mod form;
 pub mod keys;
+mod plan;
 mod rectifier;
 mod tankhouse;
 
@@ -89,6 +90,7 @@ impl Session {
                     app::View::Cell => return app.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
                     app::View::Rectifier => return Some(Effect::LoadTrends),
                     app::View::Entries => return Some(Effect::LoadRecent),
+                    app::View::Plan => return Some(Effect::LoadPlan),
                     app::View::Tankhouse => {}
                 }
                 None
@@ -113,6 +115,16 @@ impl Session {
                     Err(e) => app.failed(format!("could not read the entries: {e}")),
                 }
                 None
+            }
+            Effect::LoadPlan => {
+                let opts = crate::plant::PlanOptions { days: app.plan_days, moves: app.plan_moves.clone(), ..Default::default() };
+                match plant.plan(&opts, app.as_of) {
+                    Ok(p) => {
+                        app.loaded_plan(p);
+                        None
+                    }
+                    Err(e) => app.plan_refused(e.to_string()),
+                }
             }
             Effect::Check(batch) => {
                 let verdict = match plant.check_batch(&batch) {

@@ -1,0 +1,1501 @@
+//! The anode-change and harvest plan: each cell's change windows and crop dues
+//! from its charge curve, levelled over production days against crew, stripping machine and anodes.
+//!
+//! How a plan is made, in three steps:
+//!
+//! 1. **Outlook** ([`outlook`]): for each cell, from its running anode load, the
+//!    times its remaining anode fraction reaches `scrap_upper` (the window
+//!    opens), `scrap_target` (the ideal change) and `scrap_lower` (the window
+//!    closes), found with [`cell_time_reaching`] on the circuit's curve (the
+//!    projection after the last reading is the estimate). Over a horizon longer
+//!    than one anode life, the next load is assumed set at the first change's
+//!    ideal time, with `anodes_per_cell` new anodes of `new_anode_kg` each, and
+//!    its window follows from that: **the second window assumes the first
+//!    change happens on its ideal day**, whatever day the levelling gives it.
+//!    Between changes come the cathode crops: each at its target mass
+//!    (`cathode_target_kg` mean per cathode), or, where `crops_per_anode_cycle`
+//!    = k is set, at k equal parts of the anode life's charge (set → ideal
+//!    change); the last crop is pulled with the anodes. Each crop is assumed
+//!    pulled at its due time (an overdue one at the start of the plan) and the
+//!    next starts then. Inert-anode cells have no anode changes, only crops at
+//!    their target mass. Work whose due time has already passed is overdue and
+//!    is planned from the first day.
+//! 2. **Levelling** ([`plan`]): anode changes go through
+//!    [`levelling::level`] (crew per day, days without anode work, anode
+//!    supply, whole sections as groups), then the hand moves are applied to
+//!    the levelled plan one by one and each is re-checked. Harvests are
+//!    levelled next against the stripping machine, with the last crop of each
+//!    cycle fixed to its anode-change day.
+//! 3. **Prediction**: every planned job is given the instant of its day nearest
+//!    its due time (never before now), and the anode fraction, scrap and
+//!    cathode mass are predicted there on the same curve.
+
+use chrono::{Duration, NaiveDate};
+use serde::Serialize;
+use std::collections::{BTreeMap, HashMap};
+
+use super::anode::AnodeLoad;
+use super::cathode::Cathodes;
+use super::charge::{Curve, OpenSpan, Span, Time, cell_charge, cell_time_reaching};
+use super::layout::{AnodeKind, CellParams};
+use super::levelling::{self, Capacity, LevelError, Task, Unplaced, Weights};
+use super::plant_time::ProductionDays;
+
+/// The caution every plan carries (DOMAIN.md, "Cautions the tool must carry").
+pub const ADVISORY: &str = "This plan is advisory: it is predicted from the logged current and the layout's rules and does not \
+replace the foreman's judgement. Anode lifts, lock-out and acid handling follow site procedures, local codes and qualified engineers.";
+
+/// Harvest lateness costs twice a day early: an over-heavy crop grows nodules
+/// and shorts (common practice, no source).
+pub const HARVEST_WEIGHTS: Weights = Weights { early: 1.0, late: 2.0 };
+
+/// Days a harvest may move from its due day, either way.
+pub const HARVEST_SLACK_DAYS: i64 = 1;
+
+/// Days beyond the horizon that a window's far end is clipped to. Only days
+/// inside the horizon can be chosen, and a common shift of the ideal day
+/// beyond the horizon changes every in-horizon cost of that task by the same
+/// amount, so the clip never changes which plan is best.
+const BEYOND_HORIZON_DAYS: i64 = 366;
+
+/// Anode changes are levelled over the plan's days and up to this many days
+/// after it, under the same crew, supply and no-work rules, so that a change
+/// whose best day lies just after the plan goes there (and is reported as
+/// after the plan) instead of being crowded onto the plan's last days early.
+pub const LOOKAHEAD_DAYS: usize = 14;
+
+/// One cell as the plan needs it, as of now.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanCell {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    pub params: CellParams,
+    /// The running anode load: set time, count, mean mass per anode at set, kg.
+    pub load: Option<(Time, u32, f64)>,
+    /// When the running crop began.
+    pub crop_started: Option<Time>,
+    /// Cut-outs known now (one still open has no end).
+    pub cutouts: Vec<OpenSpan>,
+}
+
+/// The plan's production days: `len` days from `from`, each starting at the
+/// layout's `day_starts_at` in the plant's zone (and [`LOOKAHEAD_DAYS`] more after them).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Calendar {
+    pub days: ProductionDays,
+    pub from: NaiveDate,
+    len: usize,
+    starts: Vec<Time>,
+}
+
+impl Calendar {
+    pub fn new(days: ProductionDays, from: NaiveDate, len: usize) -> Calendar {
+        let starts = (0..=len + LOOKAHEAD_DAYS).map(|i| days.start_of(from + Duration::days(i as i64))).collect();
+        Calendar { days, from, len, starts }
+    }
+
+    /// Days in the horizon.
+    pub fn len(&self) -> usize {
+        self.len
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The date of day index `i` (which may lie outside the horizon).
+    pub fn date(&self, i: i64) -> NaiveDate {
+        self.from + Duration::days(i)
+    }
+
+    /// The instant day `i` starts (`i == len()`: the end of the horizon; up to
+    /// [`LOOKAHEAD_DAYS`] more are known).
+    pub fn start(&self, i: usize) -> Time {
+        self.starts[i.min(self.starts.len() - 1)]
+    }
+
+    /// The day index of an instant: negative before the horizon, `len()` or more after it.
+    pub fn index(&self, t: Time) -> i64 {
+        (self.days.day_of(t) - self.from).num_days()
+    }
+
+    /// The instant of day `d` nearest `wanted`, never before `now`: where a job
+    /// planned on `d` is assumed done (on its due day, at its due time).
+    pub fn instant(&self, d: usize, wanted: Time, now: Time) -> Time {
+        let lo = self.start(d).max(now);
+        let hi = self.start(d + 1) - Duration::seconds(1);
+        if hi <= lo { lo } else { wanted.clamp(lo, hi) }
+    }
+}
+
+/// What constrains the plan (the layout's `[plan]` keys after command-line overrides).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Rules {
+    /// Cells the crew can change in a day.
+    pub crew_cells_per_day: u32,
+    /// Shifts the day's crew capacity is split over (for the report only).
+    pub shifts_per_day: u32,
+    /// Cathodes the stripping machine handles in a day.
+    pub harvest_cathodes_per_day: u32,
+    /// Anode-change weights: cost per day early and per day late.
+    pub weights: Weights,
+    /// New anodes on hand at the start of the first day.
+    pub anode_stock: Option<u64>,
+    /// New anodes prepared each day, usable from that day on.
+    pub anodes_per_day: Option<u64>,
+    /// Production days without anode work.
+    pub no_anode_work: Vec<NaiveDate>,
+    /// Logged outages (past and planned), by circuit name: a production day
+    /// that overlaps one has no anode work anywhere, because the plant's one
+    /// crew and its cranes are taken up by the outage.
+    pub outages: Vec<(String, Span)>,
+    /// Change each section's cells on one common day.
+    pub whole_sections: bool,
+}
+
+impl Rules {
+    /// The anode supply as [`levelling::level`] takes it. Both unset: no limit.
+    /// Either set: the supply is limited, and the unset part counts as none
+    /// (no stock on hand, or no deliveries).
+    fn supply(&self, days: usize) -> (u64, Vec<u64>) {
+        match (self.anode_stock, self.anodes_per_day) {
+            (None, None) => (u64::MAX, vec![0; days]),
+            (s, p) => (s.unwrap_or(0), vec![p.unwrap_or(0); days]),
+        }
+    }
+}
+
+/// Everything a plan is made from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanInput {
+    pub now: Time,
+    pub calendar: Calendar,
+    pub rules: Rules,
+    pub cells: Vec<PlanCell>,
+    /// Hand moves of a cell's anode change to another day, applied in order.
+    pub moves: Vec<(String, NaiveDate)>,
+}
+
+/// When a change is due, on the days of the plan.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChangeDue {
+    /// The remaining fraction reaches `scrap_upper` (the window opens).
+    pub upper_at: Option<Time>,
+    /// It reaches `scrap_target` (the ideal change).
+    pub target_at: Time,
+    /// It reaches `scrap_lower` (the window closes); `None`: not in sight.
+    pub lower_at: Option<Time>,
+    /// Day indices of the window as planned: an overdue change opens on day 0
+    /// and prefers it; `latest` is clipped [`BEYOND_HORIZON_DAYS`] past the horizon.
+    pub earliest: i64,
+    pub ideal: i64,
+    pub latest: i64,
+    /// The ideal time had already passed when the plan begins.
+    pub overdue: bool,
+    /// Where the change is assumed done for what follows it: the ideal time,
+    /// or the start of the plan when overdue.
+    pub assumed_at: Time,
+}
+
+/// A crop due for harvest before the anode change that ends its cycle.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HarvestDue {
+    pub crop_from: Time,
+    pub due_at: Time,
+    /// Day index of the due time (0 when overdue).
+    pub day: i64,
+    pub overdue: bool,
+    /// Where the crop is assumed pulled (the next one starts then).
+    pub assumed_at: Time,
+}
+
+/// One anode load of a cell in the plan's view (inert cells have one, with no load).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Cycle {
+    pub set_at: Time,
+    pub load: Option<AnodeLoad>,
+    pub change: Option<ChangeDue>,
+    pub harvests: Vec<HarvestDue>,
+    /// When the crop that the anode change pulls began (`None`: no crop).
+    pub last_crop_from: Option<Time>,
+}
+
+/// A cell's cycles over the horizon.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Outlook {
+    pub cycles: Vec<Cycle>,
+    /// The cell is in a cut-out with no end: nothing can be predicted for it.
+    pub out_of_circuit: bool,
+}
+
+/// Time at which the cell's charge since `from` reaches the charge that takes
+/// `load` down to `fraction`; `None` if never (or not in sight).
+fn reaching<C: Curve>(curve: &C, cutouts: &[OpenSpan], from: Time, load: &AnodeLoad, fraction: f64) -> Result<Option<Time>, C::Error> {
+    match load.charge_to_fraction_ah(fraction) {
+        Some(q) => cell_time_reaching(curve, cutouts, from, q),
+        None => Ok(None),
+    }
+}
+
+fn change_due<C: Curve>(
+    curve: &C,
+    cell: &PlanCell,
+    set_at: Time,
+    load: &AnodeLoad,
+    cal: &Calendar,
+    now: Time,
+) -> Result<Option<ChangeDue>, C::Error> {
+    let p = &cell.params;
+    let Some(target_at) = reaching(curve, &cell.cutouts, set_at, load, p.scrap_target)? else {
+        return Ok(None);
+    };
+    let upper_at = reaching(curve, &cell.cutouts, set_at, load, p.scrap_upper)?;
+    let lower_at = reaching(curve, &cell.cutouts, set_at, load, p.scrap_lower)?;
+    let start = cal.start(0).max(now);
+    let overdue = target_at < start;
+    let far = cal.len() as i64 + BEYOND_HORIZON_DAYS;
+    let (earliest, ideal) = if overdue { (0, 0) } else { (cal.index(upper_at.unwrap_or(target_at)).max(0), cal.index(target_at).min(far)) };
+    let latest = lower_at.map_or(far, |t| cal.index(t)).clamp(ideal, far);
+    Ok(Some(ChangeDue {
+        upper_at,
+        target_at,
+        lower_at,
+        earliest: earliest.min(ideal),
+        ideal,
+        latest,
+        overdue,
+        assumed_at: if overdue { start } else { target_at },
+    }))
+}
+
+/// Signed charge through the cell from `a` to `b` (negative when `b` is earlier).
+fn signed_charge<C: Curve>(curve: &C, cutouts: &[OpenSpan], a: Time, b: Time) -> Result<f64, C::Error> {
+    Ok(if b >= a { cell_charge(curve, cutouts, a, b)?.total() } else { -cell_charge(curve, cutouts, b, a)?.total() })
+}
+
+/// The crops due from `crop_from` until the cycle's change (before the change's
+/// ideal day) or the end of the horizon; returns them and when the crop that
+/// the change pulls begins.
+#[allow(clippy::too_many_arguments)]
+fn crops<C: Curve>(
+    curve: &C,
+    cell: &PlanCell,
+    crop_from: Time,
+    set_at: Time,
+    load: Option<&AnodeLoad>,
+    change: Option<&ChangeDue>,
+    cal: &Calendar,
+    now: Time,
+) -> Result<(Vec<HarvestDue>, Time), C::Error> {
+    let p = &cell.params;
+    let n = cal.len() as i64;
+    let start = cal.start(0).max(now);
+    let stop = change.map_or(n, |c| c.ideal.min(n));
+    let mut out = Vec::new();
+    let mut from = crop_from;
+    let mut push = |due_at: Time, from: &mut Time| -> bool {
+        let day = cal.index(due_at);
+        if day >= stop {
+            return false;
+        }
+        let overdue = due_at < start;
+        let assumed_at = if overdue { start } else { due_at };
+        out.push(HarvestDue { crop_from: *from, due_at, day: day.max(0), overdue, assumed_at });
+        *from = assumed_at;
+        true
+    };
+    let life = match (p.crops_per_anode_cycle, load) {
+        (Some(k), Some(l)) if k > 0 => l.charge_to_fraction_ah(p.scrap_target).map(|q| (k, q)),
+        _ => None,
+    };
+    if let Some((k, q_life)) = life {
+        // Crop boundaries at i/k of the life's charge; the running crop is
+        // harvested at the first boundary at least half a crop after it began.
+        let part = q_life / f64::from(k);
+        let q0 = signed_charge(curve, &cell.cutouts, set_at, crop_from)?;
+        let first = ((q0 / part) + 0.5).ceil().max(1.0) as u32;
+        for i in first..k {
+            let Some(due) = cell_time_reaching(curve, &cell.cutouts, set_at, part * f64::from(i))? else { break };
+            if !push(due, &mut from) {
+                break;
+            }
+        }
+    } else {
+        let cathodes = cathodes_of(p);
+        let q = cathodes.charge_to_mean_ah(p.cathode_target_kg);
+        // at most one crop a day: a bound on the loop whatever the current
+        for _ in 0..=cal.len() {
+            let Some(due) = cell_time_reaching(curve, &cell.cutouts, from, q)? else { break };
+            if !push(due, &mut from) {
+                break;
+            }
+        }
+    }
+    Ok((out, from))
+}
+
+fn cathodes_of(p: &CellParams) -> Cathodes {
+    Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: p.cathode_efficiency }
+}
+
+fn anode_load(p: &CellParams, count: u32, initial_kg: f64) -> AnodeLoad {
+    AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg }
+}
+
+/// A cell's anode cycles and crops over the calendar, on its circuit's curve as of `now`.
+pub fn outlook<C: Curve>(cell: &PlanCell, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
+    let p = &cell.params;
+    let out_of_circuit = cell.cutouts.iter().any(|c| c.from <= now && c.to.is_none());
+    let mut cycles = Vec::new();
+    if p.anode_kind == AnodeKind::Inert {
+        if let Some(c0) = cell.crop_started {
+            let (harvests, _) = crops(curve, cell, c0, c0, None, None, cal, now)?;
+            cycles.push(Cycle { set_at: cell.load.map_or(c0, |l| l.0), load: None, change: None, harvests, last_crop_from: None });
+        }
+        return Ok(Outlook { cycles, out_of_circuit });
+    }
+    let Some((mut set_at, count, kg)) = cell.load else {
+        return Ok(Outlook { cycles, out_of_circuit });
+    };
+    let mut load = anode_load(p, count, kg);
+    let mut crop = cell.crop_started;
+    let end = cal.start(cal.len());
+    // at most one change a day: a bound on the loop whatever the current
+    for _ in 0..=cal.len() {
+        let change = change_due(curve, cell, set_at, &load, cal, now)?;
+        let (harvests, last_crop_from) = match crop {
+            Some(c0) => {
+                let (h, last) = crops(curve, cell, c0, set_at, Some(&load), change.as_ref(), cal, now)?;
+                (h, Some(last))
+            }
+            None => (Vec::new(), None),
+        };
+        let next = change.as_ref().map(|c| c.assumed_at).filter(|t| *t < end);
+        cycles.push(Cycle { set_at, load: Some(load), change, harvests, last_crop_from });
+        let Some(next) = next else { break };
+        set_at = next;
+        load = anode_load(p, p.anodes_per_cell, p.new_anode_kg);
+        crop = Some(next);
+    }
+    Ok(Outlook { cycles, out_of_circuit })
+}
+
+/// Why a job is not in the plan.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Reason {
+    /// A section's common window starts after the horizon.
+    WindowOutsideHorizon,
+    /// No day of the window has anode work (the window is too narrow for the working days).
+    NoWorkingDayInWindow,
+    /// The crew is full on every day of the window.
+    NoCrewCapacity,
+    /// The stripping machine is full on every day the harvest may move to.
+    NoStrippingCapacity,
+    /// The anode supply does not cover the change.
+    NoAnodes,
+    /// The change before it in the same cell is not placed, and this one depends on it.
+    EarlierChangeUnplaced,
+    /// Levelled to a day after the plan's last day (a later plan places it).
+    AfterHorizon,
+}
+
+/// Dates of a job's window as planned (`latest: None`: the window does not close in sight).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct Window {
+    pub earliest: NaiveDate,
+    pub ideal: NaiveDate,
+    pub latest: Option<NaiveDate>,
+}
+
+/// A planned anode change.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AnodeChange {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    /// Predicted remaining anode fraction (the scrap fraction) when changed.
+    pub scrap_fraction: f64,
+    /// Predicted scrap returned by the cell, kg.
+    pub scrap_kg: f64,
+    pub overdue: bool,
+    /// The instant the prediction is made for.
+    pub at: Time,
+    /// New anodes the change needs.
+    pub anodes: u32,
+    pub window: Window,
+    pub upper_at: Option<Time>,
+    pub target_at: Time,
+    pub lower_at: Option<Time>,
+    /// 0 for the running load, 1 for the next one (which assumes this one on its ideal day), …
+    pub cycle: usize,
+    /// Placed by a hand move.
+    pub moved: bool,
+}
+
+/// A planned harvest.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Harvest {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    /// Predicted mean mass per cathode, kg.
+    pub mass_kg: f64,
+    /// Predicted copper on the whole crop, kg.
+    pub copper_kg: f64,
+    pub cathodes: u32,
+    pub overdue: bool,
+    pub at: Time,
+    pub window: Window,
+    /// The crop the anode change pulls (fixed to the change's day).
+    pub with_anode_change: bool,
+}
+
+/// A job the plan could not place.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct UnplacedJob {
+    pub cell: String,
+    pub circuit: String,
+    pub section: String,
+    /// `anode_change` or `harvest`.
+    pub kind: &'static str,
+    pub reason: Reason,
+    pub message: String,
+    pub window: Window,
+    pub overdue: bool,
+}
+
+/// A shift's share of the day's anode changes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub struct ShiftLoad {
+    pub load: u32,
+    pub capacity: u32,
+}
+
+/// One production day of the plan.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PlanDay {
+    pub date: NaiveDate,
+    pub starts_at: Time,
+    /// Why there is no anode work this day (`None`: there is).
+    pub no_anode_work: Option<String>,
+    pub anode_changes: Vec<AnodeChange>,
+    pub harvests: Vec<Harvest>,
+    pub anodes_needed: u64,
+    pub anode_tonnes: f64,
+    pub scrap_tonnes: f64,
+    pub copper_tonnes: f64,
+    pub crew_load: u32,
+    pub crew_capacity: u32,
+    /// The day's changes by shift, filled in shift order (empty with one shift a day).
+    pub shifts: Vec<ShiftLoad>,
+    pub harvest_cathodes: u64,
+    pub harvest_capacity: u32,
+}
+
+/// The plan.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Plan {
+    pub schema: u32,
+    pub from: NaiveDate,
+    pub as_of: Time,
+    pub days: Vec<PlanDay>,
+    pub unplaced: Vec<UnplacedJob>,
+    /// Cells in a cut-out with no end: nothing is planned for them.
+    pub out_of_circuit: Vec<String>,
+    /// The anode changes, before hand moves, are proven optimal (see [`levelling::Levelled::exact`]).
+    pub exact: bool,
+    /// The harvests are proven optimal (see [`plan`]).
+    pub harvests_exact: bool,
+    pub shifts_per_day: u32,
+    pub advisory: &'static str,
+}
+
+/// Why a plan could not be made.
+#[derive(Debug, thiserror::Error)]
+pub enum PlanError<E: std::error::Error + 'static> {
+    #[error(transparent)]
+    Curve(E),
+    /// A hand move that cannot be made.
+    #[error("{cell}={date}: {message}")]
+    Move { cell: String, date: NaiveDate, message: String },
+    /// A planning rule that cannot be used, with the `[plan]` key it concerns.
+    #[error("plan.{key}: {message}")]
+    Rule { key: &'static str, message: String },
+    #[error("levelling: {0}")]
+    Level(LevelError),
+}
+
+/// An anode change the levelling handles.
+struct ChangeJob {
+    cell: usize,
+    cycle: usize,
+    task: Task,
+}
+
+/// A harvest placed on a day, before its mass is predicted.
+struct PlannedCrop {
+    cell: usize,
+    day: usize,
+    from: Time,
+    due: Time,
+    overdue: bool,
+    window: Window,
+    with_change: bool,
+}
+
+/// Where each job ended up.
+#[derive(Clone, Copy, PartialEq)]
+enum Slot {
+    Day(usize, bool),
+    Out(Reason),
+}
+
+fn reason_of(u: Unplaced, harvest: bool) -> Reason {
+    match (u, harvest) {
+        (Unplaced::WindowOutsideHorizon, _) => Reason::WindowOutsideHorizon,
+        (_, true) => Reason::NoStrippingCapacity,
+        (Unplaced::NoWorkingDayInWindow, false) => Reason::NoWorkingDayInWindow,
+        (Unplaced::NoCrewCapacity, false) => Reason::NoCrewCapacity,
+        (Unplaced::NoAnodes, false) => Reason::NoAnodes,
+    }
+}
+
+fn to_day(i: i64) -> usize {
+    usize::try_from(i.max(0)).unwrap_or(usize::MAX)
+}
+
+/// The day of the horizon that `supply` first fails to cover, given the anodes used each day.
+fn overdrawn(stock: u64, per_day: &[u64], used: &[u64]) -> Option<usize> {
+    let (mut have, mut need) = (u128::from(stock), 0u128);
+    for (d, (p, u)) in per_day.iter().zip(used).enumerate() {
+        have += u128::from(*p);
+        need += u128::from(*u);
+        if need > have {
+            return Some(d);
+        }
+    }
+    None
+}
+
+/// The supply left after `used`, in the form [`levelling::level`] takes: a
+/// further use through day j must fit every later day's remainder too, so the
+/// cumulative supply left through j is the least remainder from j on.
+fn remaining_supply(stock: u64, per_day: &[u64], used: &[u64]) -> (u64, Vec<u64>) {
+    let (mut have, mut need) = (u128::from(stock), 0u128);
+    let mut left: Vec<u128> = per_day
+        .iter()
+        .zip(used)
+        .map(|(p, u)| {
+            have += u128::from(*p);
+            need += u128::from(*u);
+            have.saturating_sub(need)
+        })
+        .collect();
+    for j in (0..left.len().saturating_sub(1)).rev() {
+        left[j] = left[j].min(left[j + 1]);
+    }
+    let clip = |x: u128| u64::try_from(x).unwrap_or(u64::MAX);
+    let mut prev = 0u128;
+    let per: Vec<u64> = left
+        .iter()
+        .map(|&x| {
+            let d = x - prev;
+            prev = x;
+            clip(d)
+        })
+        .collect();
+    (0, per)
+}
+
+/// A day's crew capacity split over the shifts (the first shifts take the remainder)
+/// and its changes filled in shift order.
+fn shift_loads(load: u32, capacity: u32, shifts: u32) -> Vec<ShiftLoad> {
+    if shifts <= 1 {
+        return Vec::new();
+    }
+    let mut left = load;
+    (0..shifts)
+        .map(|s| {
+            let cap = capacity / shifts + u32::from(s < capacity % shifts);
+            let l = left.min(cap);
+            left -= l;
+            ShiftLoad { load: l, capacity: cap }
+        })
+        .collect()
+}
+
+/// Makes the plan.
+///
+/// Guaranteed: no day's anode changes exceed its crew capacity (0 on a day
+/// without anode work; otherwise `crew_cells_per_day`, and never more than the
+/// stripping machine can take of the crops those changes pull); the cumulative
+/// anode supply is never overdrawn; no day's harvests exceed
+/// `harvest_cathodes_per_day` cathodes; every anode change whose window starts
+/// inside the horizon is placed inside its window or listed in `unplaced` with
+/// its reason, and so is every harvest due inside the horizon (when a cell's
+/// change is unplaced, the crop it would pull and its later cycles are not
+/// planned, and those later changes are listed as
+/// [`Reason::EarlierChangeUnplaced`]).
+///
+/// Anode changes are exact whenever [`levelling::level`] reports `exact`
+/// (see its documentation). A hand move is applied to the levelled plan: it
+/// takes the cell (out of its section's common day, with `whole_sections`)
+/// to a day inside its window that has a free crew place and is refused
+/// otherwise, or when the anodes would then run short; other cells stay where
+/// the levelling put them.
+///
+/// Harvests are levelled with the same solver: each harvest may move
+/// [`HARVEST_SLACK_DAYS`] either way from its due day (an overdue one is due
+/// on day 0), a day late costing [`HARVEST_WEIGHTS`]; the crops pulled with
+/// anode changes are fixed first. The solver counts cells, so its day capacity
+/// is the free cathodes divided by the largest cathode count among the
+/// harvests: when every harvest has the same cathode count that is the true
+/// capacity and the harvests are exact (`harvests_exact`); so they are when
+/// every harvest is on its due day. Otherwise the machine is still never over
+/// capacity, harvests left over are then fitted into the cathodes still free,
+/// cheapest day first, and no optimality is claimed.
+///
+/// Anode changes are levelled over the plan and [`LOOKAHEAD_DAYS`] after it;
+/// one levelled to a day after the plan is listed as [`Reason::AfterHorizon`].
+pub fn plan<C: Curve>(input: &PlanInput, curves: &HashMap<String, C>) -> Result<Plan, PlanError<C::Error>>
+where
+    C::Error: std::error::Error + 'static,
+{
+    let cal = &input.calendar;
+    let rules = &input.rules;
+    let now = input.now;
+    let n = cal.len();
+    for (key, w) in [("early_weight", rules.weights.early), ("late_weight", rules.weights.late)] {
+        if !(w.is_finite() && w > 0.0) {
+            return Err(PlanError::Rule { key, message: format!("{w} is not a weight: it must be a number greater than zero") });
+        }
+    }
+    let cells = &input.cells;
+    let mut outlooks = Vec::with_capacity(cells.len());
+    for c in cells {
+        let o = match curves.get(&c.circuit) {
+            Some(curve) => outlook(c, curve, cal, now).map_err(PlanError::Curve)?,
+            None => Outlook { cycles: Vec::new(), out_of_circuit: false },
+        };
+        outlooks.push(o);
+    }
+
+    let mut jobs: Vec<ChangeJob> = Vec::new();
+    let mut groups: BTreeMap<(&str, &str, usize), u32> = BTreeMap::new();
+    for (ci, o) in outlooks.iter().enumerate() {
+        for (k, cy) in o.cycles.iter().enumerate() {
+            let Some(ch) = &cy.change else { continue };
+            if ch.earliest >= n as i64 {
+                continue;
+            }
+            let c = &cells[ci];
+            let group = if rules.whole_sections {
+                let next = groups.len() as u32;
+                Some(*groups.entry((c.circuit.as_str(), c.section.as_str(), k)).or_insert(next))
+            } else {
+                None
+            };
+            jobs.push(ChangeJob {
+                cell: ci,
+                cycle: k,
+                task: Task {
+                    cell: format!("{}#{k:03}", c.cell),
+                    earliest: to_day(ch.earliest),
+                    latest: to_day(ch.latest),
+                    ideal: to_day(ch.ideal),
+                    anodes: c.params.anodes_per_cell,
+                    group,
+                },
+            });
+        }
+    }
+    // Days without anode work, and the crew capacity of the others.
+    let horizon = jobs.iter().map(|j| j.task.latest.saturating_add(1)).max().unwrap_or(n).clamp(n, n + LOOKAHEAD_DAYS);
+    let mut blocked: Vec<Option<String>> = vec![None; horizon];
+    for (d, b) in blocked.iter_mut().enumerate() {
+        let (a, z) = (cal.start(d), cal.start(d + 1));
+        if rules.no_anode_work.contains(&cal.date(d as i64)) {
+            *b = Some("no anode work (layout no_anode_work)".to_string());
+        } else if let Some((circuit, s)) = rules.outages.iter().find(|(_, s)| s.from < z && s.to > a) {
+            *b = Some(format!("outage on {circuit} from {} to {} (UTC)", s.from.format("%Y-%m-%d %H:%M"), s.to.format("%Y-%m-%d %H:%M")));
+        }
+    }
+    let max_cathodes = jobs.iter().map(|j| cells[j.cell].params.cathodes_per_cell).max().unwrap_or(1).max(1);
+    let strip_cells = rules.harvest_cathodes_per_day / max_cathodes;
+    let crew: Vec<u32> = blocked.iter().map(|b| if b.is_some() { 0 } else { rules.crew_cells_per_day.min(strip_cells) }).collect();
+    let (stock, per_day) = rules.supply(horizon);
+    let mut by_cell: HashMap<(usize, usize), usize> = HashMap::new();
+    for (i, j) in jobs.iter().enumerate() {
+        by_cell.insert((j.cell, j.cycle), i);
+    }
+    // Cycle by cycle: the running loads first, then each next load in the
+    // crew and anodes left, since a later cycle rests on the change before it.
+    let mut slot: Vec<Slot> = vec![Slot::Out(Reason::NoCrewCapacity); jobs.len()];
+    let mut crew_left = crew.clone();
+    let (mut stock_left, mut per_day_left) = (stock, per_day.clone());
+    let mut exact = true;
+    let cycles = jobs.iter().map(|j| j.cycle + 1).max().unwrap_or(0);
+    for k in 0..cycles {
+        let mut these = Vec::new();
+        for (i, j) in jobs.iter().enumerate().filter(|(_, j)| j.cycle == k) {
+            let prev_placed = k == 0 || by_cell.get(&(j.cell, k - 1)).is_some_and(|&p| matches!(slot[p], Slot::Day(..)));
+            if prev_placed {
+                these.push(i);
+            } else {
+                slot[i] = Slot::Out(Reason::EarlierChangeUnplaced);
+            }
+        }
+        if these.is_empty() {
+            continue;
+        }
+        let tasks: Vec<Task> = these.iter().map(|&i| jobs[i].task.clone()).collect();
+        let cap = Capacity { crew: crew_left.clone(), anode_stock: stock_left, anodes_per_day: per_day_left.clone() };
+        let out = levelling::level(&tasks, &cap, rules.weights).map_err(PlanError::Level)?;
+        exact &= out.exact;
+        let mut used = vec![0u64; horizon];
+        for (t, d) in out.day.iter().enumerate() {
+            if let Some(d) = *d {
+                slot[these[t]] = Slot::Day(d, false);
+                crew_left[d] = crew_left[d].saturating_sub(1);
+                used[d] += u64::from(tasks[t].anodes);
+            }
+        }
+        for (t, u) in &out.unplaced {
+            let task = &tasks[*t];
+            // a day the earlier cycles filled is a full day, not a day without anode work
+            let worked = (task.earliest..=task.latest.min(horizon - 1)).any(|d| crew[d] > 0);
+            let u = if *u == Unplaced::NoWorkingDayInWindow && worked { Unplaced::NoCrewCapacity } else { *u };
+            slot[these[*t]] = Slot::Out(reason_of(u, false));
+        }
+        (stock_left, per_day_left) = remaining_supply(stock_left, &per_day_left, &used);
+    }
+    apply_moves(input, &jobs, &mut slot, &crew, stock, &per_day, &by_cell)?;
+
+    // Harvests: the crops pulled with the changes are fixed; the others level.
+    let change_day = |ci: usize, k: usize| -> Option<Option<usize>> {
+        by_cell.get(&(ci, k)).map(|&i| match slot[i] {
+            Slot::Day(d, _) => Some(d),
+            Slot::Out(_) => None,
+        })
+    };
+    let mut fixed: Vec<PlannedCrop> = Vec::new();
+    let mut floating: Vec<(PlannedCrop, Task)> = Vec::new();
+    for (ci, o) in outlooks.iter().enumerate() {
+        let c = &cells[ci];
+        for (k, cy) in o.cycles.iter().enumerate() {
+            // a cycle whose change before it is unplaced is not planned
+            if k > 0 && !matches!(change_day(ci, k - 1), Some(Some(_))) {
+                break;
+            }
+            let own = change_day(ci, k);
+            let lo = if k > 0 { change_day(ci, k - 1).flatten().map_or(0, |p| p as i64 + 1) } else { 0 };
+            let hi = match own {
+                Some(Some(d)) => (d as i64 - 1).min(n as i64 - 1),
+                _ => n as i64 - 1,
+            };
+            // A crop that cannot be pulled in its own window (due on or after
+            // its change's day, as levelled) stays in and joins the next one.
+            let mut carry: Option<Time> = None;
+            for (h, hv) in cy.harvests.iter().enumerate() {
+                let (earliest, ideal, latest) = if hv.overdue {
+                    (0, 0, HARVEST_SLACK_DAYS.min(hi))
+                } else {
+                    ((hv.day - HARVEST_SLACK_DAYS).max(lo).max(0), hv.day.max(lo), (hv.day + HARVEST_SLACK_DAYS).min(hi))
+                };
+                if earliest > latest || ideal > hi {
+                    carry = carry.or(Some(hv.crop_from));
+                    continue;
+                }
+                let crop = PlannedCrop {
+                    cell: ci,
+                    day: to_day(ideal),
+                    from: carry.take().unwrap_or(hv.crop_from),
+                    due: hv.due_at,
+                    overdue: hv.overdue,
+                    window: Window { earliest: cal.date(earliest), ideal: cal.date(ideal), latest: Some(cal.date(latest)) },
+                    with_change: false,
+                };
+                let task = Task {
+                    cell: format!("{}#{k:03}#{h:03}", c.cell),
+                    earliest: to_day(earliest),
+                    latest: to_day(latest),
+                    ideal: to_day(ideal),
+                    anodes: 0,
+                    group: None,
+                };
+                floating.push((crop, task));
+            }
+            if let (Some(Some(d)), Some(last), Some(ch)) = (own, cy.last_crop_from, &cy.change)
+                && d < n
+            {
+                fixed.push(PlannedCrop {
+                    cell: ci,
+                    day: d,
+                    from: carry.unwrap_or(last),
+                    due: ch.target_at,
+                    overdue: ch.overdue,
+                    window: Window { earliest: cal.date(d as i64), ideal: cal.date(d as i64), latest: Some(cal.date(d as i64)) },
+                    with_change: true,
+                });
+            }
+        }
+    }
+    let strip = u64::from(rules.harvest_cathodes_per_day);
+    let mut used = vec![0u64; n];
+    for f in &fixed {
+        used[f.day] += u64::from(cells[f.cell].params.cathodes_per_cell);
+    }
+    let counts: Vec<u32> = floating.iter().map(|f| cells[f.0.cell].params.cathodes_per_cell).collect();
+    let widest = counts.iter().copied().max().unwrap_or(1).max(1);
+    let htasks: Vec<Task> = floating.iter().map(|f| f.1.clone()).collect();
+    let hcap = Capacity {
+        crew: used.iter().map(|u| (strip.saturating_sub(*u) / u64::from(widest)) as u32).collect(),
+        anode_stock: u64::MAX,
+        anodes_per_day: vec![0; n],
+    };
+    let hout = levelling::level(&htasks, &hcap, HARVEST_WEIGHTS).map_err(PlanError::Level)?;
+    let mut hslot: Vec<Slot> = hout.day.iter().map(|d| d.map_or(Slot::Out(Reason::NoStrippingCapacity), |d| Slot::Day(d, false))).collect();
+    for (i, u) in &hout.unplaced {
+        hslot[*i] = Slot::Out(reason_of(*u, true));
+    }
+    for (i, s) in hslot.iter().enumerate() {
+        if let Slot::Day(d, _) = s {
+            used[*d] += u64::from(counts[i]);
+        }
+    }
+    // Fit what is left into the cathodes still free, cheapest day first.
+    for i in 0..hslot.len() {
+        if !matches!(hslot[i], Slot::Out(Reason::NoStrippingCapacity)) {
+            continue;
+        }
+        let t = &floating[i].1;
+        let mut days: Vec<usize> = (t.earliest..=t.latest.min(n.saturating_sub(1))).collect();
+        let cost = |d: usize| {
+            if d < t.ideal { (t.ideal - d) as f64 * HARVEST_WEIGHTS.early } else { (d - t.ideal) as f64 * HARVEST_WEIGHTS.late }
+        };
+        days.sort_by(|a, b| cost(*a).total_cmp(&cost(*b)).then(a.cmp(b)));
+        if let Some(d) = days.into_iter().find(|d| used[*d] + u64::from(counts[i]) <= strip) {
+            used[d] += u64::from(counts[i]);
+            hslot[i] = Slot::Day(d, false);
+        }
+    }
+    // Every harvest on its due day is optimal whatever the cathode counts.
+    let all_due = hslot.iter().zip(&floating).all(|(s, f)| *s == Slot::Day(f.1.ideal, false));
+    let harvests_exact = all_due || (hout.exact && counts.iter().all(|c| *c == widest));
+
+    // Predictions, day by day.
+    let mut days: Vec<PlanDay> = (0..n)
+        .map(|d| PlanDay {
+            date: cal.date(d as i64),
+            starts_at: cal.start(d),
+            no_anode_work: blocked[d].clone(),
+            anode_changes: Vec::new(),
+            harvests: Vec::new(),
+            anodes_needed: 0,
+            anode_tonnes: 0.0,
+            scrap_tonnes: 0.0,
+            copper_tonnes: 0.0,
+            crew_load: 0,
+            crew_capacity: crew[d],
+            shifts: Vec::new(),
+            harvest_cathodes: 0,
+            harvest_capacity: rules.harvest_cathodes_per_day,
+        })
+        .collect();
+    let mut out_jobs = Vec::new();
+    let window = |earliest: i64, ideal: i64, latest: i64, far: bool| Window {
+        earliest: cal.date(earliest),
+        ideal: cal.date(ideal),
+        latest: (!far).then(|| cal.date(latest)),
+    };
+    let far = n as i64 + BEYOND_HORIZON_DAYS;
+    for (i, j) in jobs.iter().enumerate() {
+        let c = &cells[j.cell];
+        let cy = &outlooks[j.cell].cycles[j.cycle];
+        let Some(ch) = &cy.change else { continue };
+        let w = window(ch.earliest, ch.ideal, ch.latest, ch.latest >= far);
+        let after = |d: usize| {
+            format!("levelled to {}, after the plan's last day {}: a later plan places it", cal.date(d as i64), cal.date(n as i64 - 1))
+        };
+        match slot[i] {
+            Slot::Day(d, _) if d >= n => out_jobs.push(UnplacedJob {
+                cell: c.cell.clone(),
+                circuit: c.circuit.clone(),
+                section: c.section.clone(),
+                kind: "anode_change",
+                reason: Reason::AfterHorizon,
+                message: after(d),
+                window: w,
+                overdue: ch.overdue,
+            }),
+            Slot::Day(d, moved) => {
+                let curve = curves.get(&c.circuit);
+                let (Some(curve), Some(load)) = (curve, cy.load) else { continue };
+                let at = cal.instant(d, ch.target_at, now);
+                let q = cell_charge(curve, &c.cutouts, cy.set_at, at).map_err(PlanError::Curve)?.total();
+                let scrap_kg = load.remaining_kg(q) * f64::from(load.count);
+                let day = &mut days[d];
+                let anodes = c.params.anodes_per_cell;
+                day.anodes_needed += u64::from(anodes);
+                day.anode_tonnes += f64::from(anodes) * c.params.new_anode_kg / 1000.0;
+                day.scrap_tonnes += scrap_kg / 1000.0;
+                day.crew_load += 1;
+                day.anode_changes.push(AnodeChange {
+                    cell: c.cell.clone(),
+                    circuit: c.circuit.clone(),
+                    section: c.section.clone(),
+                    scrap_fraction: load.remaining_fraction(q),
+                    scrap_kg,
+                    overdue: ch.overdue,
+                    at,
+                    anodes,
+                    window: w,
+                    upper_at: ch.upper_at,
+                    target_at: ch.target_at,
+                    lower_at: ch.lower_at,
+                    cycle: j.cycle,
+                    moved,
+                });
+            }
+            Slot::Out(reason) => out_jobs.push(UnplacedJob {
+                cell: c.cell.clone(),
+                circuit: c.circuit.clone(),
+                section: c.section.clone(),
+                kind: "anode_change",
+                reason,
+                message: change_message(reason, &w),
+                window: w,
+                overdue: ch.overdue,
+            }),
+        }
+    }
+    let mut planned: Vec<PlannedCrop> = fixed;
+    for (i, (crop, _)) in floating.into_iter().enumerate() {
+        match hslot[i] {
+            Slot::Day(day, _) => planned.push(PlannedCrop { day, ..crop }),
+            Slot::Out(reason) => {
+                let c = &cells[crop.cell];
+                out_jobs.push(UnplacedJob {
+                    cell: c.cell.clone(),
+                    circuit: c.circuit.clone(),
+                    section: c.section.clone(),
+                    kind: "harvest",
+                    reason,
+                    message: harvest_message(reason, &crop.window),
+                    window: crop.window,
+                    overdue: crop.overdue,
+                });
+            }
+        }
+    }
+    for p in planned {
+        let c = &cells[p.cell];
+        let Some(curve) = curves.get(&c.circuit) else { continue };
+        let at = cal.instant(p.day, p.due, now);
+        let q = cell_charge(curve, &c.cutouts, p.from, at).map_err(PlanError::Curve)?.total();
+        let cathodes = cathodes_of(&c.params);
+        let copper_kg = cathodes.crop_kg(q);
+        let day = &mut days[p.day];
+        day.copper_tonnes += copper_kg / 1000.0;
+        day.harvest_cathodes += u64::from(cathodes.count);
+        day.harvests.push(Harvest {
+            cell: c.cell.clone(),
+            circuit: c.circuit.clone(),
+            section: c.section.clone(),
+            mass_kg: cathodes.mean_kg(q),
+            copper_kg,
+            cathodes: cathodes.count,
+            overdue: p.overdue,
+            at,
+            window: p.window,
+            with_anode_change: p.with_change,
+        });
+    }
+    for day in &mut days {
+        day.anode_changes.sort_by(|a, b| a.cell.cmp(&b.cell).then(a.cycle.cmp(&b.cycle)));
+        day.harvests.sort_by(|a, b| a.cell.cmp(&b.cell).then(a.at.cmp(&b.at)));
+        day.shifts = shift_loads(day.crew_load, day.crew_capacity, rules.shifts_per_day);
+    }
+    out_jobs.sort_by(|a, b| a.kind.cmp(b.kind).then(a.cell.cmp(&b.cell)).then(a.window.ideal.cmp(&b.window.ideal)));
+    let out_of_circuit = cells.iter().zip(&outlooks).filter(|(_, o)| o.out_of_circuit).map(|(c, _)| c.cell.clone()).collect();
+    Ok(Plan {
+        schema: 1,
+        from: cal.from,
+        as_of: now,
+        days,
+        unplaced: out_jobs,
+        out_of_circuit,
+        exact,
+        harvests_exact,
+        shifts_per_day: rules.shifts_per_day,
+        advisory: ADVISORY,
+    })
+}
+
+fn span(w: &Window) -> String {
+    match w.latest {
+        Some(l) => format!("{} to {}", w.earliest, l),
+        None => format!("from {}", w.earliest),
+    }
+}
+
+fn change_message(r: Reason, w: &Window) -> String {
+    match r {
+        Reason::WindowOutsideHorizon => format!("its section's common window ({}) starts after the plan ends", span(w)),
+        Reason::NoWorkingDayInWindow => format!("no day with anode work in its window ({}): the window is too narrow", span(w)),
+        Reason::NoCrewCapacity | Reason::NoStrippingCapacity => format!("the crew is full on every day of its window ({})", span(w)),
+        Reason::NoAnodes => format!("not enough new anodes on any day of its window ({})", span(w)),
+        Reason::EarlierChangeUnplaced => "the cell's change before it is not placed, and this window assumes it".to_string(),
+        Reason::AfterHorizon => format!("its best day lies after the plan (window {})", span(w)),
+    }
+}
+
+fn harvest_message(r: Reason, w: &Window) -> String {
+    match r {
+        Reason::WindowOutsideHorizon => format!("its window ({}) lies outside the plan", span(w)),
+        _ => format!("the stripping machine is full on every day the harvest may move to ({})", span(w)),
+    }
+}
+
+/// Applies the hand moves to the levelled changes, in order, each checked
+/// against the cell's window, the day's crew and the anode supply.
+fn apply_moves<E: std::error::Error + 'static>(
+    input: &PlanInput,
+    jobs: &[ChangeJob],
+    slot: &mut [Slot],
+    crew: &[u32],
+    stock: u64,
+    per_day: &[u64],
+    by_cell: &HashMap<(usize, usize), usize>,
+) -> Result<(), PlanError<E>> {
+    let cal = &input.calendar;
+    let n = cal.len();
+    let mut seen: Vec<usize> = Vec::new();
+    for (cell, date) in &input.moves {
+        let refuse = |message: String| PlanError::Move { cell: cell.clone(), date: *date, message };
+        let Some(ci) = input.cells.iter().position(|c| &c.cell == cell) else {
+            return Err(refuse(format!("unknown cell {cell}")));
+        };
+        let idx = (*date - cal.from).num_days();
+        if idx < 0 || idx >= n as i64 {
+            return Err(refuse(format!("the date is outside the plan ({} to {})", cal.from, cal.date(n as i64 - 1))));
+        }
+        let d = idx as usize;
+        let mine: Vec<usize> = (0..).map_while(|k| by_cell.get(&(ci, k)).copied()).collect();
+        let Some(&first) = mine.first() else {
+            let why = if input.cells[ci].params.anode_kind == AnodeKind::Inert {
+                "it has inert anodes, which are not changed"
+            } else {
+                "it has no anode change whose window starts inside the plan"
+            };
+            return Err(refuse(why.to_string()));
+        };
+        let clipped = |i: usize| (jobs[i].task.earliest, jobs[i].task.latest.min(n - 1));
+        let Some(i) = mine.iter().copied().find(|&i| {
+            let (a, z) = clipped(i);
+            a <= d && d <= z
+        }) else {
+            let (a, z) = clipped(first);
+            return Err(refuse(format!(
+                "outside the cell's window ({} to {}, scrap_upper to scrap_lower)",
+                cal.date(a as i64),
+                cal.date(z as i64)
+            )));
+        };
+        if seen.contains(&i) {
+            return Err(refuse("the cell's change is moved twice".to_string()));
+        }
+        seen.push(i);
+        if slot[i] == Slot::Out(Reason::EarlierChangeUnplaced) {
+            return Err(refuse("the cell's change before this one is not placed, and this window assumes it".to_string()));
+        }
+        if crew[d] == 0 {
+            return Err(refuse("there is no anode work that day".to_string()));
+        }
+        let on_day = (0..jobs.len()).filter(|&k| k != i && matches!(slot[k], Slot::Day(x, _) if x == d)).count();
+        if on_day as u32 >= crew[d] {
+            return Err(refuse(format!(
+                "over capacity: the crew is full that day ({on_day} of {} cells); move another cell away first",
+                crew[d]
+            )));
+        }
+        let before = slot[i];
+        slot[i] = Slot::Day(d, true);
+        let mut used = vec![0u64; n];
+        for (k, s) in slot.iter().enumerate() {
+            // a job levelled past the last day uses no anodes inside the plan
+            if let Slot::Day(x, _) = s
+                && let Some(u) = used.get_mut(*x)
+            {
+                *u += u64::from(jobs[k].task.anodes);
+            }
+        }
+        if let Some(short) = overdrawn(stock, per_day, &used) {
+            slot[i] = before;
+            return Err(refuse(format!("not enough new anodes: the supply runs short on {}", cal.date(short as i64))));
+        }
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::domain::charge::{MemoryCurve, RawReading};
+    use crate::domain::plant_time::{PlantZone, parse_day_start};
+    use chrono::{TimeZone, Utc};
+
+    // The DOMAIN.md plant check (derived from CODATA 2018 F and IUPAC M(Cu)):
+    // 50 anodes × 380 kg, 51 cathodes, 30 kA flat, w_Cu 0.995, η_a 1.0, η_c 0.96, lug 20 kg.
+    // By hand: ECE = 3600·63.546/(2·96 485.332 12) = 1.185 486 g/(A·h); each anode carries
+    // 30 000/50 = 600 A and loses 1.185 486e-3 · 600 / 0.995 = 0.714 871 kg/h. Loss to
+    // fraction f is (1 − f)·380 kg:
+    //   f = 0.25: 285 kg / 0.714 871 = 398.67 h
+    //   f = 0.15: 323 kg / 0.714 871 = 451.83 h (DOMAIN.md: 451.8 h)
+    //   f = 0.10: 342 kg / 0.714 871 = 478.41 h
+    // Each cathode gains 1.185 486e-3 · 30 000 · 0.96 / 51 = 0.669 456 kg/h: 120 kg after
+    // 179.25 h (DOMAIN.md).
+    const UPPER_H: f64 = 398.67;
+    const TARGET_H: f64 = 451.83;
+    const LOWER_H: f64 = 478.41;
+    const CATHODE_KG_PER_H: f64 = 0.669_456;
+
+    fn t0() -> Time {
+        Utc.with_ymd_and_hms(2026, 3, 1, 0, 0, 0).unwrap()
+    }
+    fn at(h: f64) -> Time {
+        t0() + Duration::milliseconds((h * 3_600_000.0) as i64)
+    }
+    fn hours_after_t0(t: Time) -> f64 {
+        (t - t0()).num_milliseconds() as f64 / 3_600_000.0
+    }
+    fn date(y: i32, m: u32, d: u32) -> NaiveDate {
+        NaiveDate::from_ymd_opt(y, m, d).unwrap()
+    }
+    /// 30 kA flat from t0 to `now_h`, read hourly; the estimate after it is the same 30 kA.
+    fn flat(now_h: u32) -> HashMap<String, MemoryCurve> {
+        let rs: Vec<RawReading> = (0..=now_h).map(|h| RawReading { t: at(f64::from(h)), amps: 30_000.0 }).collect();
+        HashMap::from([("C1".to_string(), MemoryCurve::build(&rs, &[], &[], at(f64::from(now_h))))])
+    }
+    /// Production days in UTC starting at `start` (HH:MM).
+    fn calendar(start: &str, now: Time, len: usize) -> Calendar {
+        let days = ProductionDays { zone: PlantZone::parse("UTC").unwrap(), day_starts_at: parse_day_start(start).unwrap() };
+        Calendar::new(days, days.day_of(now), len)
+    }
+    fn rules(crew: u32) -> Rules {
+        Rules {
+            crew_cells_per_day: crew,
+            shifts_per_day: 1,
+            harvest_cathodes_per_day: 2000,
+            // the layout defaults: a day late costs three days early (common practice, no source)
+            weights: Weights { early: 1.0, late: 3.0 },
+            anode_stock: None,
+            anodes_per_day: None,
+            no_anode_work: Vec::new(),
+            outages: Vec::new(),
+            whole_sections: false,
+        }
+    }
+    /// A plant-check cell (CellParams::default() is the plant check) with a load set at `set_h`.
+    fn cell(id: &str, set_h: f64) -> PlanCell {
+        PlanCell {
+            cell: id.to_string(),
+            circuit: "C1".into(),
+            section: "A".into(),
+            params: CellParams::default(),
+            load: Some((at(set_h), 50, 380.0)),
+            crop_started: Some(at(set_h)),
+            cutouts: Vec::new(),
+        }
+    }
+    fn input(now_h: u32, start: &str, len: usize, rules: Rules, cells: Vec<PlanCell>) -> PlanInput {
+        let now = at(f64::from(now_h));
+        PlanInput { now, calendar: calendar(start, now, len), rules, cells, moves: Vec::new() }
+    }
+    fn changes(p: &Plan) -> Vec<(usize, &AnodeChange)> {
+        p.days.iter().enumerate().flat_map(|(d, x)| x.anode_changes.iter().map(move |c| (d, c))).collect()
+    }
+    fn harvests(p: &Plan) -> Vec<(usize, &Harvest)> {
+        p.days.iter().enumerate().flat_map(|(d, x)| x.harvests.iter().map(move |h| (d, h))).collect()
+    }
+
+    #[test]
+    fn plant_check_window_and_ideal_day_with_a_day_start_that_matters() {
+        // Days start at 20:00 UTC, so a crossing in the evening before 20:00 belongs to the
+        // previous production day. Now is 2026-03-11 00:00Z, in the production day 2026-03-10.
+        let inp = input(240, "20:00", 30, rules(8), vec![cell("A01", 0.0)]);
+        assert_eq!(inp.calendar.from, date(2026, 3, 10));
+        let curves = flat(240);
+        let o = outlook(&inp.cells[0], &curves["C1"], &inp.calendar, inp.now).unwrap();
+        let ch = o.cycles[0].change.as_ref().unwrap();
+        assert!((hours_after_t0(ch.upper_at.unwrap()) - UPPER_H).abs() < 0.01, "{:?}", ch.upper_at);
+        assert!((hours_after_t0(ch.target_at) - TARGET_H).abs() < 0.01, "{:?}", ch.target_at);
+        assert!((hours_after_t0(ch.lower_at.unwrap()) - LOWER_H).abs() < 0.01, "{:?}", ch.lower_at);
+        // 398.67 h = 03-17 14:40Z → day 03-16 (index 6; the calendar date would give 7);
+        // 451.83 h = 03-19 19:50Z → day 03-18 (index 8, not 9); 478.41 h = 03-20 22:25Z → day 03-20 (index 10).
+        assert_eq!((ch.earliest, ch.ideal, ch.latest), (6, 8, 10));
+        assert!(!ch.overdue);
+
+        let p = plan(&inp, &curves).unwrap();
+        let cs = changes(&p);
+        let first = cs.iter().find(|(_, c)| c.cycle == 0).unwrap();
+        assert_eq!(first.0, 8);
+        assert_eq!(p.days[8].date, date(2026, 3, 18));
+        assert_eq!(first.1.window, Window { earliest: date(2026, 3, 16), ideal: date(2026, 3, 18), latest: Some(date(2026, 3, 20)) });
+        // on its ideal day the change is predicted at its ideal time: 15 % left
+        assert!((first.1.scrap_fraction - 0.15).abs() < 1e-6, "{}", first.1.scrap_fraction);
+        // 50 anodes × 380 kg = 19.0 t of new anodes; scrap 50 × 0.15 × 380 kg = 2.85 t (by hand)
+        assert_eq!(p.days[8].anodes_needed, 50);
+        assert!((p.days[8].anode_tonnes - 19.0).abs() < 1e-9);
+        assert!((p.days[8].scrap_tonnes - 2.85).abs() < 1e-5);
+    }
+
+    #[test]
+    fn the_next_load_assumes_the_first_change_on_its_ideal_day() {
+        // Same cell over 30 days: the second load is set at 451.83 h with 50 × 380 kg, so its
+        // crossings are at 451.83 + 398.67 = 850.50 h (04-05 10:30Z → day 04-04, index 25),
+        // 903.66 h (04-07 15:40Z → day 04-06, index 27) and 930.24 h (04-08 18:14Z → day 04-07, index 28).
+        let inp = input(240, "20:00", 30, rules(8), vec![cell("A01", 0.0)]);
+        let curves = flat(240);
+        let o = outlook(&inp.cells[0], &curves["C1"], &inp.calendar, inp.now).unwrap();
+        // a third load follows the second's ideal (04-07, inside the 30 days), its window after the plan
+        assert_eq!(o.cycles.len(), 3);
+        assert!(o.cycles[2].change.as_ref().is_some_and(|c| c.earliest >= 30));
+        let second = &o.cycles[1];
+        assert!((hours_after_t0(second.set_at) - TARGET_H).abs() < 0.01);
+        let load = second.load.unwrap();
+        assert_eq!((load.count, load.initial_kg), (50, 380.0));
+        let ch = second.change.as_ref().unwrap();
+        assert!((hours_after_t0(ch.target_at) - 2.0 * TARGET_H).abs() < 0.02);
+        assert_eq!((ch.earliest, ch.ideal, ch.latest), (25, 27, 28));
+        let p = plan(&inp, &curves).unwrap();
+        let cs = changes(&p);
+        assert_eq!(cs.iter().map(|(d, c)| (*d, c.cycle)).collect::<Vec<_>>(), vec![(8, 0), (27, 1)]);
+    }
+
+    #[test]
+    fn crops_split_the_anode_life_in_three_and_the_last_goes_with_the_change() {
+        // crops_per_anode_cycle = 3: boundaries at 451.83/3 = 150.61 h (03-07 06:37Z → day 03-06, index 5)
+        // and 301.22 h (03-13 13:13Z → day 03-12, index 11); the third crop goes with the change
+        // (03-19 19:50Z → day 03-18, index 17). Each crop: 0.669 456 kg/h × 150.61 h = 100.83 kg.
+        let mut c = cell("A01", 0.0);
+        c.params.crops_per_anode_cycle = Some(3);
+        let inp = input(24, "20:00", 20, rules(8), vec![c]);
+        let p = plan(&inp, &flat(24)).unwrap();
+        let hs = harvests(&p);
+        assert_eq!(hs.iter().map(|(d, h)| (*d, h.with_anode_change)).collect::<Vec<_>>(), vec![(5, false), (11, false), (17, true)]);
+        for (_, h) in &hs {
+            assert!((h.mass_kg - CATHODE_KG_PER_H * TARGET_H / 3.0).abs() < 0.01, "{}", h.mass_kg);
+            assert!(!h.overdue);
+        }
+        assert_eq!(changes(&p).iter().map(|(d, _)| *d).collect::<Vec<_>>(), vec![17]);
+        // copper: 51 cathodes × 100.83 kg = 5.142 t on the change day (by hand)
+        assert!((p.days[17].copper_tonnes - 51.0 * CATHODE_KG_PER_H * TARGET_H / 3.0 / 1000.0).abs() < 1e-5);
+    }
+
+    #[test]
+    fn crops_at_target_mass_between_changes() {
+        // No crops_per_anode_cycle: 120 kg after 179.25 h (03-08 11:15Z → day 03-07, index 6), the next
+        // after 358.5 h (03-15 22:30Z → day 03-15, index 14); the last crop, 358.5 → 451.83 h, goes with the
+        // change: 0.669 456 × 93.33 h = 62.48 kg.
+        let inp = input(24, "20:00", 20, rules(8), vec![cell("A01", 0.0)]);
+        let p = plan(&inp, &flat(24)).unwrap();
+        let hs = harvests(&p);
+        assert_eq!(hs.iter().map(|(d, _)| *d).collect::<Vec<_>>(), vec![6, 14, 17]);
+        assert!((hs[0].1.mass_kg - 120.0).abs() < 1e-3, "{}", hs[0].1.mass_kg);
+        assert!((hs[1].1.mass_kg - 120.0).abs() < 1e-3, "{}", hs[1].1.mass_kg);
+        assert!((hs[2].1.mass_kg - CATHODE_KG_PER_H * (TARGET_H - 358.5)).abs() < 0.01, "{}", hs[2].1.mass_kg);
+        assert!(hs[2].1.with_anode_change);
+    }
+
+    #[test]
+    fn overdue_change_goes_on_the_first_day_marked_overdue() {
+        // Now is 460 h after the set: past the ideal (451.83 h), before scrap_lower (478.41 h).
+        // At now: 1 − 460 × 0.714 871 / 380 = 0.134 63 left (by hand).
+        let inp = input(460, "06:00", 5, rules(8), vec![cell("A01", 0.0)]);
+        let p = plan(&inp, &flat(460)).unwrap();
+        let cs = changes(&p);
+        assert_eq!(cs.len(), 1);
+        assert_eq!(cs[0].0, 0);
+        assert!(cs[0].1.overdue);
+        assert_eq!(cs[0].1.at, inp.now);
+        assert!((cs[0].1.scrap_fraction - 0.134_63).abs() < 1e-4, "{}", cs[0].1.scrap_fraction);
+    }
+
+    #[test]
+    fn inert_cells_have_harvests_and_no_anode_changes() {
+        // An inert cell whose crop began at t0; now 200 h: the 120 kg harvest (179.25 h) is overdue, on day 0,
+        // with 0.669 456 × 200 = 133.89 kg at now (by hand).
+        let mut c = cell("L1", 0.0);
+        c.params.anode_kind = AnodeKind::Inert;
+        let inp = input(200, "06:00", 14, rules(8), vec![c]);
+        let p = plan(&inp, &flat(200)).unwrap();
+        assert!(changes(&p).is_empty());
+        let hs = harvests(&p);
+        assert!(!hs.is_empty());
+        assert_eq!(hs[0].0, 0);
+        assert!(hs[0].1.overdue);
+        assert!((hs[0].1.mass_kg - CATHODE_KG_PER_H * 200.0).abs() < 0.01, "{}", hs[0].1.mass_kg);
+        // the next crop starts at now and is due 179.25 h later, not overdue
+        assert!(hs.iter().skip(1).all(|(_, h)| !h.overdue && (h.mass_kg - 120.0).abs() < 1e-3));
+    }
+
+    #[test]
+    fn a_wave_of_thirty_cells_spreads_early_rather_than_late() {
+        // 30 cells set together; scrap_lower 0.07 (26.6 kg, above the 20 kg lugs) widens the window:
+        // 0.07 is reached after 353.4 kg / 0.714 871 = 494.36 h. Days start 08:00 UTC, so the
+        // ideal (03-19 19:50Z) is day 03-19, the window opens 03-17 (14:40Z) and closes 03-21 (14:21Z).
+        let cells: Vec<PlanCell> = (1..=30)
+            .map(|i| {
+                let mut c = cell(&format!("A{i:02}"), 0.0);
+                c.params.scrap_lower = 0.07;
+                c
+            })
+            .collect();
+        let inp = input(24, "08:00", 28, rules(8), cells);
+        let p = plan(&inp, &flat(24)).unwrap();
+        assert!(p.exact);
+        assert!(p.unplaced.is_empty(), "{:?}", p.unplaced);
+        let ideal = (date(2026, 3, 19) - inp.calendar.from).num_days() as usize;
+        let mut per_day = vec![0; 28];
+        for (d, c) in changes(&p) {
+            assert!(d + 2 >= ideal && d <= ideal + 2, "{} on day {d}", c.cell);
+            per_day[d] += 1;
+        }
+        assert!(per_day.iter().all(|n| *n <= 8), "{per_day:?}");
+        // By hand, early 1 and late 3 a day: 8 on the ideal day, 8 a day early (1 each), 8 two days
+        // early (2 each, cheaper than 3 for a day late), the last 6 a day late.
+        assert_eq!(&per_day[ideal - 2..=ideal + 2], &[8, 8, 8, 6, 0]);
+        let early: usize = per_day[..ideal].iter().sum();
+        let late: usize = per_day[ideal + 1..].iter().sum();
+        assert!(early > late, "early {early} late {late}");
+    }
+
+    #[test]
+    fn days_without_anode_work_are_avoided() {
+        // The ideal day 03-18 (20:00 day start, as above) overlaps a planned outage; 03-17 is a no-work date.
+        let mut r = rules(8);
+        r.outages = vec![(
+            "C1".into(),
+            Span { from: Utc.with_ymd_and_hms(2026, 3, 19, 10, 0, 0).unwrap(), to: Utc.with_ymd_and_hms(2026, 3, 19, 14, 0, 0).unwrap() },
+        )];
+        r.no_anode_work = vec![date(2026, 3, 17)];
+        let inp = input(240, "20:00", 14, r, vec![cell("A01", 0.0)]);
+        let p = plan(&inp, &flat(240)).unwrap();
+        assert_eq!(p.days[8].crew_capacity, 0);
+        assert!(p.days[8].no_anode_work.as_deref().unwrap_or("").contains("outage on C1"));
+        assert_eq!(p.days[7].crew_capacity, 0);
+        // a day late costs 3, two days early 2: the window 03-16 … 03-20 leaves 03-16 (index 6)
+        assert_eq!(changes(&p).iter().map(|(d, _)| *d).collect::<Vec<_>>(), vec![6]);
+    }
+
+    #[test]
+    fn the_anode_supply_is_never_overdrawn() {
+        // Three changes of 50 anodes each in the same window, 100 anodes in stock and none delivered.
+        let mut r = rules(8);
+        r.anode_stock = Some(100);
+        let cells = vec![cell("A01", 0.0), cell("A02", 0.0), cell("A03", 0.0)];
+        let inp = input(240, "20:00", 14, r, cells);
+        let p = plan(&inp, &flat(240)).unwrap();
+        let used: u64 = p.days.iter().map(|d| d.anodes_needed).sum();
+        assert_eq!(used, 100);
+        assert_eq!(p.unplaced.len(), 1);
+        assert_eq!(p.unplaced[0].reason, Reason::NoAnodes);
+        assert_eq!(p.unplaced[0].cell, "A03", "ties go by cell id");
+    }
+
+    #[test]
+    fn stripping_capacity_holds_with_unequal_cathode_counts() {
+        // Sixteen cells due within a few days: half with 51 cathodes, half with 41 (40 anodes), and a
+        // stripping machine of 200 cathodes a day: at most 3 cells of 51 a day, or more with the smaller ones.
+        let cells: Vec<PlanCell> = (1..=16)
+            .map(|i| {
+                let mut c = cell(&format!("A{i:02}"), 0.0);
+                if i % 2 == 0 {
+                    c.params.anodes_per_cell = 40;
+                    c.params.cathodes_per_cell = 41;
+                    c.load = Some((t0(), 40, 380.0));
+                }
+                c
+            })
+            .collect();
+        let mut r = rules(8);
+        r.harvest_cathodes_per_day = 200;
+        let inp = input(100, "06:00", 5, r, cells);
+        let p = plan(&inp, &flat(100)).unwrap();
+        for d in &p.days {
+            let n: u64 = d.harvests.iter().map(|h| u64::from(h.cathodes)).sum();
+            assert_eq!(n, d.harvest_cathodes);
+            assert!(n <= 200, "{}: {n}", d.date);
+            for h in &d.harvests {
+                let l = h.window.latest.unwrap();
+                assert!(h.window.earliest <= d.date && d.date <= l, "{} {}", h.cell, d.date);
+                assert!(l - h.window.ideal <= Duration::days(1) && h.window.ideal - h.window.earliest <= Duration::days(1));
+            }
+        }
+        let placed = harvests(&p).len();
+        let left: Vec<&UnplacedJob> = p.unplaced.iter().filter(|u| u.kind == "harvest").collect();
+        assert_eq!(placed + left.len(), 16, "each cell's one crop is placed or listed");
+        assert!(!left.is_empty() && left.iter().all(|u| u.reason == Reason::NoStrippingCapacity));
+        assert!(!p.harvests_exact);
+    }
+
+    #[test]
+    fn hand_moves_are_checked_against_window_and_capacity() {
+        let run = |crew: u32, moves: Vec<(&str, NaiveDate)>| {
+            let mut inp = input(240, "20:00", 14, rules(crew), vec![cell("A01", 0.0), cell("A02", 0.0)]);
+            inp.moves = moves.into_iter().map(|(c, d)| (c.to_string(), d)).collect();
+            plan(&inp, &flat(240))
+        };
+        // inside the window 03-16 … 03-20
+        let p = run(8, vec![("A02", date(2026, 3, 19))]).unwrap();
+        let moved: Vec<(usize, &str, bool)> = changes(&p).iter().map(|(d, c)| (*d, c.cell.as_str(), c.moved)).collect();
+        assert_eq!(moved, vec![(8, "A01", false), (9, "A02", true)]);
+        // outside it
+        let e = run(8, vec![("A02", date(2026, 3, 21))]).unwrap_err();
+        assert!(matches!(&e, PlanError::Move { message, .. } if message.contains("outside the cell's window")), "{e}");
+        // onto a full day: with one cell a day the levelling gives A01 03-17 and A02 its ideal 03-18
+        // (one day early costs 1 either way; ties go to the smaller day in cell-id order)
+        let p = run(1, vec![]).unwrap();
+        assert_eq!(changes(&p).iter().map(|(d, c)| (*d, c.cell.as_str())).collect::<Vec<_>>(), vec![(7, "A01"), (8, "A02")]);
+        let e = run(1, vec![("A02", date(2026, 3, 17))]).unwrap_err();
+        assert!(matches!(&e, PlanError::Move { message, .. } if message.contains("over capacity")), "{e}");
+        // after moving A01 away first, the day is free
+        let p = run(1, vec![("A01", date(2026, 3, 20)), ("A02", date(2026, 3, 17))]).unwrap();
+        assert_eq!(changes(&p).iter().map(|(d, c)| (*d, c.cell.as_str())).collect::<Vec<_>>(), vec![(7, "A02"), (10, "A01")]);
+        assert!(matches!(run(8, vec![("Z99", date(2026, 3, 18))]), Err(PlanError::Move { .. })));
+    }
+
+    #[test]
+    fn whole_sections_change_on_one_day() {
+        let mut r = rules(8);
+        r.whole_sections = true;
+        // A02 set 20 h later than A01: its window 03-17 … 03-21, its ideal 03-19; common window 03-17 … 03-20
+        let inp = input(240, "20:00", 14, r, vec![cell("A01", 0.0), cell("A02", 20.0)]);
+        let p = plan(&inp, &flat(240)).unwrap();
+        let days: Vec<usize> = changes(&p).iter().map(|(d, _)| *d).collect();
+        assert_eq!(days.len(), 2);
+        assert_eq!(days[0], days[1]);
+    }
+
+    #[test]
+    fn shifts_split_the_day() {
+        assert_eq!(shift_loads(5, 8, 2), vec![ShiftLoad { load: 4, capacity: 4 }, ShiftLoad { load: 1, capacity: 4 }]);
+        let caps: Vec<u32> = shift_loads(0, 7, 3).iter().map(|s| s.capacity).collect();
+        assert_eq!(caps, vec![3, 2, 2]);
+        assert!(shift_loads(3, 8, 1).is_empty());
+    }
+
+    #[test]
+    fn remaining_supply_keeps_what_later_days_need() {
+        // stock 100, 50 a day; 150 used on day 1: cumulative 150, 200, 250 less 0, 150, 150 → 150, 50, 100;
+        // a use on day 0 must also fit day 1, so 50, 50, 100 are left (by hand).
+        let (stock, per) = remaining_supply(100, &[50, 50, 50], &[0, 150, 0]);
+        assert_eq!(stock, 0);
+        assert_eq!(per, vec![50, 0, 50]);
+        assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 201, 0]), Some(1));
+        assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 200, 50]), None);
+    }
+}
