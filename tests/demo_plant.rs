@@ -1,5 +1,6 @@
 //! The demo plant: deterministic under a fixed clock, and plausible against
 //! the trade's typical figures (common practice, no source; DOMAIN.md, from memory).
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 mod common;
 use common::*;

@@ -1,5 +1,6 @@
 //! The Faraday accounting end to end through the command line, against figures
 //! derived from CODATA 2018 F and IUPAC M(Cu) and against a hand calculation.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 mod common;
 use common::*;

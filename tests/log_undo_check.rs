@@ -1,5 +1,6 @@
 //! The event log: entries, undo as an appended void, cut-outs, the same-instant
 //! order, integrity checks and backups.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 mod common;
 use common::*;

@@ -1,6 +1,7 @@
 //! The shift screens without a terminal: key sequences drive the same session
 //! the terminal does (state tests), and whole screens are drawn into ratatui's
 //! TestBackend at 80×24 and 160×48 and compared with reviewed snapshots.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 use chrono::{DateTime, Utc};
 use ratatui::Terminal;

@@ -1,5 +1,6 @@
 //! The store's curve (two look-ups per instant) must agree with the in-memory
 //! curve built from the same readings and outages, for any readings.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 use chrono::{DateTime, Duration, Utc};
 use proptest::prelude::*;

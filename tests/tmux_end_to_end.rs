@@ -1,6 +1,7 @@
 //! End to end in a real terminal: the release binary in tmux at 80×24 on a demo
 //! database; a foreman moves to a cell, logs a harvest through the form and
 //! quits; the headless forecast then shows the harvest saved.
+#![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
 use std::path::{Path, PathBuf};
 use std::process::Command;

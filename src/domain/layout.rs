@@ -282,6 +282,21 @@ impl Default for PlanKeys {
     }
 }
 
+/// The storage keys (`[store]`).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct StoreKeys {
+    /// How many daily automatic backups to keep in the `backups/` folder.
+    pub keep_backups: u32,
+}
+
+impl Default for StoreKeys {
+    fn default() -> Self {
+        // two weeks of days: common practice, no source
+        StoreKeys { keep_backups: 14 }
+    }
+}
+
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct LayoutFile {
@@ -290,6 +305,8 @@ pub struct LayoutFile {
     pub defaults: ParamsPatch,
     #[serde(default)]
     pub plan: PlanKeys,
+    #[serde(default)]
+    pub store: StoreKeys,
     #[serde(default)]
     pub circuit: Vec<CircuitFile>,
 }
@@ -300,6 +317,7 @@ pub struct Layout {
     pub header: PlantHeader,
     pub zone: PlantZone,
     pub plan: PlanKeys,
+    pub store: StoreKeys,
     pub circuits: Vec<CircuitLayout>,
 }
 
@@ -417,6 +435,13 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
             err(header_line(text, "no_anode_work", 0), "plan.no_anode_work".into(), format!("'{d}' is not a date (YYYY-MM-DD)"))
         })?;
     }
+    if file.store.keep_backups == 0 {
+        return Err(err(
+            header_line(text, "keep_backups", 0),
+            "store.keep_backups".into(),
+            "0 would delete every automatic backup: keep at least 1".into(),
+        ));
+    }
     if file.circuit.is_empty() {
         return Err(err(None, "circuit".into(), "the layout has no [[circuit]]".into()));
     }
@@ -473,7 +498,7 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
         }
         circuits.push(CircuitLayout { name: c.name.clone(), max_amps: c.max_amps, sections });
     }
-    Ok(Layout { header: file.plant, zone, plan: file.plan, circuits })
+    Ok(Layout { header: file.plant, zone, plan: file.plan, store: file.store, circuits })
 }
 
 #[cfg(test)]
@@ -535,5 +560,17 @@ anode_kind = "inert"
     fn cathodes_as_given_allows_a_different_count() {
         let text = GOOD.replacen("cathodes_per_cell = 41", "cathodes_per_cell = 40\ncathodes_as_given = true", 1);
         assert!(parse(&text).is_ok());
+    }
+
+    #[test]
+    fn store_keys_default_parse_and_refuse_zero() {
+        assert_eq!(parse(GOOD).unwrap().store.keep_backups, 14);
+        let three = GOOD.replace("[defaults]", "[store]\nkeep_backups = 3\n[defaults]");
+        assert_eq!(parse(&three).unwrap().store.keep_backups, 3);
+        let zero = GOOD.replace("[defaults]", "[store]\nkeep_backups = 0\n[defaults]");
+        let e = parse(&zero).unwrap_err();
+        assert_eq!((e.field.as_str(), e.line), ("store.keep_backups", Some(6)), "{e}");
+        let typo = GOOD.replace("[defaults]", "[store]\nkeep_backup = 3\n[defaults]");
+        assert!(parse(&typo).unwrap_err().message.contains("keep_backup"));
     }
 }

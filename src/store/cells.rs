@@ -6,7 +6,7 @@ use std::collections::{BTreeSet, HashMap};
 
 use super::{Db, Result, StoreError, secs};
 use crate::domain::charge::Time;
-use crate::domain::layout::{CellParams, Layout, PlanKeys};
+use crate::domain::layout::{CellParams, Layout, PlanKeys, StoreKeys};
 use crate::domain::plant_time::{PlantZone, ProductionDays, parse_day_start};
 
 /// The plant header as stored.
@@ -15,6 +15,7 @@ pub struct PlantInfo {
     pub name: String,
     pub days: ProductionDays,
     pub plan: PlanKeys,
+    pub store: StoreKeys,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -77,7 +78,11 @@ impl Db<'_> {
             Some(j) => serde_json::from_str(&j).map_err(corrupt)?,
             None => PlanKeys::default(),
         };
-        Ok(Some(PlantInfo { name, days: ProductionDays { zone, day_starts_at }, plan }))
+        let store = match self.meta("store")? {
+            Some(j) => serde_json::from_str(&j).map_err(corrupt)?,
+            None => StoreKeys::default(),
+        };
+        Ok(Some(PlantInfo { name, days: ProductionDays { zone, day_starts_at }, plan, store }))
     }
 
     /// Defines or updates the plant from a layout: new circuits, sections and
@@ -88,6 +93,7 @@ impl Db<'_> {
         self.set_meta("time_zone", &layout.zone.name())?;
         self.set_meta("day_starts_at", &layout.header.day_starts_at)?;
         self.set_meta("plan", &serde_json::to_string(&layout.plan).map_err(corrupt)?)?;
+        self.set_meta("store", &serde_json::to_string(&layout.store).map_err(corrupt)?)?;
         self.c.execute("INSERT INTO layout_version(loaded_at, source, text) VALUES (?1, ?2, ?3)", params![secs(now), source, text])?;
         let layout_id = self.c.last_insert_rowid();
         let mut sum = LayoutSummary::default();

@@ -3,7 +3,7 @@
 
 use rusqlite::{OptionalExtension, params};
 
-use super::{Db, Result, secs, time};
+use super::{Damage, Db, Result, StoreError, opt_time, secs, time};
 use crate::domain::charge::{OpenSpan, Time};
 use crate::domain::history::{CellHistory, Event, EventKind};
 
@@ -53,25 +53,52 @@ const EVENT_COLS: &str =
     "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
      EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)";
 
-fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Event> {
+/// One event row. A kind this version does not know, or a time that does not
+/// decode, is [`Damage`] naming the entry: never replayed as something else.
+fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Result<Event, Damage>> {
+    let id: i64 = r.get(0)?;
     let kind: String = r.get(1)?;
-    Ok(Event {
-        id: r.get(0)?,
-        kind: EventKind::from_name(&kind).unwrap_or(EventKind::Void),
+    let Some(kind) = EventKind::from_name(&kind) else { return Ok(Err(Damage::UnknownKind { entry: id, kind })) };
+    let when = |i: usize, column: &'static str| -> rusqlite::Result<Result<Option<Time>, Damage>> {
+        let v: Option<i64> = r.get(i)?;
+        Ok(match v.map(|v| (v, time(v))) {
+            None => Ok(None),
+            Some((_, Ok(t))) => Ok(Some(t)),
+            Some((value, Err(_))) => Err(Damage::BadTime { entry: id, column, value }),
+        })
+    };
+    let (at, end, recorded_at) = match (when(4, "time")?, when(5, "end time")?, when(12, "recording time")?) {
+        (Ok(Some(at)), Ok(end), Ok(Some(rec))) => (at, end, rec),
+        (Err(d), _, _) | (_, Err(d), _) | (_, _, Err(d)) => return Ok(Err(d)),
+        // NOT NULL columns: SQLite has already refused a null
+        _ => return Err(rusqlite::Error::InvalidColumnType(4, "at".into(), rusqlite::types::Type::Null)),
+    };
+    Ok(Ok(Event {
+        id,
+        kind,
         cell: r.get(2)?,
         circuit: r.get(3)?,
-        at: time(r.get(4)?),
-        end: r.get::<_, Option<i64>>(5)?.map(time),
+        at,
+        end,
         count: r.get(6)?,
         kg: r.get(7)?,
         amps: r.get(8)?,
         volts: r.get(9)?,
         by: r.get(10)?,
         forced: r.get(11)?,
-        recorded_at: time(r.get(12)?),
+        recorded_at,
         voids: r.get(13)?,
         voided: r.get(14)?,
-    })
+    }))
+}
+
+/// The rows' events, or the first damaged one's [`StoreError::Damaged`].
+fn decoded(rows: impl Iterator<Item = rusqlite::Result<Result<Event, Damage>>>) -> Result<Vec<Event>> {
+    let mut out = Vec::new();
+    for r in rows {
+        out.push(r?.map_err(StoreError::Damaged)?);
+    }
+    Ok(out)
 }
 
 impl Db<'_> {
@@ -101,7 +128,10 @@ impl Db<'_> {
 
     pub fn event(&self, id: i64) -> Result<Option<Event>> {
         let sql = format!("SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id WHERE e.id = ?1");
-        Ok(self.c.prepare_cached(&sql)?.query_row([id], event).optional()?)
+        match self.c.prepare_cached(&sql)?.query_row([id], event).optional()? {
+            Some(e) => Ok(Some(e.map_err(StoreError::Damaged)?)),
+            None => Ok(None),
+        }
     }
 
     /// The newest events first (voids included), optionally of one cell.
@@ -111,16 +141,14 @@ impl Db<'_> {
              WHERE (?1 IS NULL OR e.cell_id = ?1 OR e.voids IN (SELECT id FROM event WHERE cell_id = ?1)) ORDER BY e.id DESC LIMIT ?2"
         );
         let mut st = self.c.prepare_cached(&sql)?;
-        let v = st.query_map(params![cell, limit as i64], event)?;
-        Ok(v.collect::<rusqlite::Result<_>>()?)
+        decoded(st.query_map(params![cell, limit as i64], event)?)
     }
 
     /// Every event of a cell, in entry order.
     pub fn cell_events(&self, cell: &str) -> Result<Vec<Event>> {
         let sql = format!("SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id WHERE e.cell_id = ?1 ORDER BY e.id");
         let mut st = self.c.prepare_cached(&sql)?;
-        let v = st.query_map([cell], event)?;
-        Ok(v.collect::<rusqlite::Result<_>>()?)
+        decoded(st.query_map([cell], event)?)
     }
 
     /// Replaces a cell's derived records with those its replayed history implies.
@@ -164,7 +192,7 @@ impl Db<'_> {
              WHERE cell_id = ?1 AND ended_at IS NOT NULL AND harvest_kg IS NOT NULL AND charge_ah IS NOT NULL",
         )?;
         let v = st.query_map([cell], |r| {
-            let key = (time(r.get(0)?), time(r.get(1)?), r.get::<_, f64>(2)?);
+            let key = (time(r.get(0)?)?, time(r.get(1)?)?, r.get::<_, f64>(2)?);
             Ok((key, CropFigures { charge_ah: r.get(3)?, estimated_ah: r.get::<_, Option<f64>>(4)?.unwrap_or(0.0), efficiency: r.get(5)? }))
         })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
@@ -177,7 +205,7 @@ impl Db<'_> {
              JOIN cell ON cell.id = crop.cell_id JOIN section ON section.id = cell.section_id
              WHERE section.circuit_id = ?1 AND crop.ended_at >= ?2 AND crop.harvest_kg IS NOT NULL",
         )?;
-        let v = st.query_map(params![circuit_id, secs(t)], |r| Ok((r.get(0)?, time(r.get(1)?), time(r.get(2)?), r.get(3)?)))?;
+        let v = st.query_map(params![circuit_id, secs(t)], |r| Ok((r.get(0)?, time(r.get(1)?)?, time(r.get(2)?)?, r.get(3)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -194,7 +222,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached("SELECT from_at, to_at FROM cutout WHERE cell_id = ?1 AND from_at <= ?2 ORDER BY from_at")?;
         let v = st.query_map(params![cell, secs(as_of)], |r| {
             let to: Option<i64> = r.get(1)?;
-            Ok(OpenSpan { from: time(r.get(0)?), to: to.filter(|&x| x <= secs(as_of)).map(time) })
+            Ok(OpenSpan { from: time(r.get(0)?)?, to: opt_time(to.filter(|&x| x <= secs(as_of)))? })
         })?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
@@ -205,7 +233,7 @@ impl Db<'_> {
             "SELECT set_event, set_at, count, mean_kg FROM anode_load WHERE cell_id = ?1 AND set_at <= ?2
              AND (ended_at IS NULL OR ended_at > ?2) ORDER BY set_at DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok((r.get(0)?, time(r.get(1)?), r.get(2)?, r.get(3)?))).optional()?)
+        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok((r.get(0)?, time(r.get(1)?)?, r.get(2)?, r.get(3)?))).optional()?)
     }
 
     /// When the crop growing at `as_of` began.
@@ -213,7 +241,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT started_at FROM crop WHERE cell_id = ?1 AND started_at <= ?2 AND (ended_at IS NULL OR ended_at > ?2) ORDER BY started_at DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok(time(r.get(0)?))).optional()?)
+        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok(time(r.get(0)?)?)).optional()?)
     }
 
     /// Measured efficiencies of the cell's crops harvested by `as_of`, oldest first: (harvest time, efficiency, kg).
@@ -221,7 +249,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT ended_at, efficiency, harvest_kg FROM crop WHERE cell_id = ?1 AND ended_at <= ?2 AND efficiency IS NOT NULL ORDER BY ended_at",
         )?;
-        let v = st.query_map(params![cell, secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?)))?;
+        let v = st.query_map(params![cell, secs(as_of)], |r| Ok((time(r.get(0)?)?, r.get(1)?, r.get(2)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -239,7 +267,7 @@ impl Db<'_> {
             "SELECT at, count, volts FROM event e WHERE cell_id = ?1 AND kind = ?2 AND at <= ?3
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at DESC, id DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, kind.name(), secs(as_of)], |r| Ok((time(r.get(0)?), r.get(1)?, r.get(2)?))).optional()?)
+        Ok(st.query_row(params![cell, kind.name(), secs(as_of)], |r| Ok((time(r.get(0)?)?, r.get(1)?, r.get(2)?))).optional()?)
     }
 
     pub fn last_voltage(&self, cell: &str, as_of: Time) -> Result<Option<(Time, f64)>> {
@@ -254,7 +282,7 @@ impl Db<'_> {
         )?;
         let (n, t): (Option<u32>, Option<i64>) =
             st.query_row(params![cell, EventKind::Shorts.name(), secs(since), secs(as_of)], |r| Ok((r.get(0)?, r.get(1)?)))?;
-        Ok(n.zip(t.map(time)))
+        Ok(n.zip(opt_time(t)?))
     }
 
     /// Every anode load of a cell, oldest first.
@@ -264,10 +292,10 @@ impl Db<'_> {
             .prepare_cached("SELECT set_at, count, mean_kg, ended_at, scrap_kg FROM anode_load WHERE cell_id = ?1 ORDER BY set_at")?;
         let v = st.query_map([cell], |r| {
             Ok(LoadRow {
-                set_at: time(r.get(0)?),
+                set_at: time(r.get(0)?)?,
                 count: r.get(1)?,
                 mean_kg: r.get(2)?,
-                ended_at: r.get::<_, Option<i64>>(3)?.map(time),
+                ended_at: opt_time(r.get(3)?)?,
                 scrap_kg: r.get(4)?,
             })
         })?;
@@ -310,5 +338,91 @@ impl Db<'_> {
 
     pub fn event_count(&self) -> Result<i64> {
         Ok(self.c.query_row("SELECT count(*) FROM event", [], |r| r.get(0))?)
+    }
+
+    /// Entries this version cannot read: kinds it does not know and times that
+    /// do not decode, oldest first, at most `limit`. Index look-ups only
+    /// (migration 004), so it is cheap enough to run on every open.
+    pub fn damaged_entries(&self, limit: usize) -> Result<Vec<Damage>> {
+        let mut found = Vec::new();
+        let mut known: Vec<&str> = EventKind::ALL.iter().map(|k| k.name()).collect();
+        known.sort_unstable();
+        known.dedup();
+        // the gaps between the known kinds, in index order; any TEXT sorts below a BLOB
+        let mut gaps: Vec<(Option<&str>, rusqlite::types::Value)> = Vec::new();
+        let mut below = None;
+        for k in &known {
+            gaps.push((below, rusqlite::types::Value::Text(k.to_string())));
+            below = Some(*k);
+        }
+        gaps.push((below, rusqlite::types::Value::Blob(Vec::new())));
+        for (above, below) in gaps {
+            let rows: Vec<(i64, String)> = match above {
+                None => {
+                    let mut st = self.c.prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind < ?1 LIMIT ?2")?;
+                    st.query_map(params![below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?.collect::<rusqlite::Result<_>>()?
+                }
+                Some(above) => {
+                    let mut st = self
+                        .c
+                        .prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind > ?1 AND kind < ?2 LIMIT ?3")?;
+                    st.query_map(params![above, below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?
+                        .collect::<rusqlite::Result<_>>()?
+                }
+            };
+            found.extend(rows.into_iter().map(|(entry, kind)| Damage::UnknownKind { entry, kind }));
+        }
+        let mut st = self.c.prepare_cached(
+            "SELECT id, at, end_at, recorded_at FROM event INDEXED BY event_bad_time
+             WHERE at NOT BETWEEN -62167219200 AND 253402300799
+                OR recorded_at NOT BETWEEN -62167219200 AND 253402300799
+                OR end_at NOT BETWEEN -62167219200 AND 253402300799
+             ORDER BY id LIMIT ?1",
+        )?;
+        let rows = st.query_map([limit as i64], |r| Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, Option<i64>>(2)?, r.get::<_, i64>(3)?)))?;
+        for row in rows {
+            let (entry, at, end, rec) = row?;
+            let bad = |v: i64| time(v).is_err();
+            let (column, value) = if bad(at) {
+                ("time", at)
+            } else if let Some(end) = end.filter(|&e| bad(e)) {
+                ("end time", end)
+            } else {
+                ("recording time", rec)
+            };
+            found.push(Damage::BadTime { entry, column, value });
+        }
+        found.sort_by_key(|d| match d {
+            Damage::UnknownKind { entry, .. } | Damage::BadTime { entry, .. } => *entry,
+        });
+        found.truncate(limit);
+        Ok(found)
+    }
+
+    /// Readings whose time does not decode: (circuit name, stored value). A full
+    /// scan, for `check` only.
+    pub fn readings_with_bad_times(&self) -> Result<Vec<(String, i64)>> {
+        let mut st = self.c.prepare(
+            "SELECT circuit.name, reading.t FROM reading JOIN circuit ON circuit.id = reading.circuit_id
+             WHERE reading.t NOT BETWEEN ?1 AND ?2 ORDER BY 1, 2",
+        )?;
+        let v = st.query_map(params![super::FIRST_SECS, super::LAST_SECS], |r| Ok((r.get(0)?, r.get(1)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
+    /// Records a restore (in the restored database).
+    pub fn record_restore(&self, at: Time, source: &str, kept_copy: &str, by: &str) -> Result<()> {
+        self.c.execute(
+            "INSERT INTO restore_log(restored_at, source, kept_copy, restored_by) VALUES (?1, ?2, ?3, ?4)",
+            params![secs(at), source, kept_copy, by],
+        )?;
+        Ok(())
+    }
+
+    /// The restores recorded, oldest first: (time, source, kept copy, by).
+    pub fn restores(&self) -> Result<Vec<(Time, String, String, String)>> {
+        let mut st = self.c.prepare("SELECT restored_at, source, kept_copy, restored_by FROM restore_log ORDER BY id")?;
+        let v = st.query_map([], |r| Ok((time(r.get(0)?)?, r.get(1)?, r.get(2)?, r.get(3)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 }

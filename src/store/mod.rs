@@ -25,7 +25,15 @@ use crate::domain::charge::Time;
 #[derive(Debug, thiserror::Error)]
 pub enum StoreError {
     #[error("database: {0}")]
-    Sqlite(#[from] rusqlite::Error),
+    Sqlite(rusqlite::Error),
+    #[error("another tankbook is writing to this database and did not finish in time: nothing was changed; try again in a moment")]
+    Busy,
+    #[error("the disk is full (or the database reached its size limit): nothing was changed; free some space and try again")]
+    DiskFull,
+    #[error("a stored time ({0} s from 1970) is not a date tankbook can read (years 0000 to 9999): the database is damaged")]
+    BadTime(i64),
+    #[error("{0}")]
+    Damaged(Damage),
     #[error("cannot create the folder {0}: {1}")]
     Folder(PathBuf, std::io::Error),
     #[error("the database did not switch to WAL journaling (it answered '{0}'); is it on a network share?")]
@@ -37,6 +45,41 @@ pub enum StoreError {
     #[error("backup: {0}")]
     Backup(String),
 }
+
+/// Data this version cannot read: what is wrong, and where.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]
+pub enum Damage {
+    #[error(
+        "entry {entry} is of the kind '{kind}', which this tankbook does not know (written by a newer tankbook, or damaged)"
+    )]
+    UnknownKind { entry: i64, kind: String },
+    #[error("entry {entry}: its {column} holds {value}, which is not a time (years 0000 to 9999)")]
+    BadTime { entry: i64, column: &'static str, value: i64 },
+}
+
+impl From<rusqlite::Error> for StoreError {
+    /// Busy, full and undecodable-time failures get messages a foreman can act
+    /// on; anything else stays SQLite's own.
+    fn from(e: rusqlite::Error) -> Self {
+        use rusqlite::ErrorCode;
+        match &e {
+            rusqlite::Error::SqliteFailure(f, _) => match f.code {
+                ErrorCode::DatabaseBusy | ErrorCode::DatabaseLocked => StoreError::Busy,
+                ErrorCode::DiskFull => StoreError::DiskFull,
+                _ => StoreError::Sqlite(e),
+            },
+            rusqlite::Error::FromSqlConversionFailure(_, _, inner) => match inner.downcast_ref::<BadTimeValue>() {
+                Some(BadTimeValue(v)) => StoreError::BadTime(*v),
+                None => StoreError::Sqlite(e),
+            },
+            _ => StoreError::Sqlite(e),
+        }
+    }
+}
+
+/// How long a write waits for another process's write to finish before
+/// [`StoreError::Busy`].
+pub const BUSY_TIMEOUT: StdDuration = StdDuration::from_secs(10);
 
 pub type Result<T, E = StoreError> = std::result::Result<T, E>;
 
@@ -56,8 +99,35 @@ pub(crate) fn secs(t: Time) -> i64 {
     t.timestamp()
 }
 
-pub(crate) fn time(s: i64) -> Time {
-    chrono::DateTime::from_timestamp(s, 0).unwrap_or_default()
+/// The first and last second a stored time may hold: RFC 3339's four-digit
+/// years, 0000-01-01T00:00:00Z to 9999-12-31T23:59:59Z. Migration 004's
+/// `event_bad_time` index names the same bounds.
+pub(crate) const FIRST_SECS: i64 = -62_167_219_200;
+pub(crate) const LAST_SECS: i64 = 253_402_300_799;
+
+/// A stored time outside [`FIRST_SECS`]..=[`LAST_SECS`].
+#[derive(Debug)]
+pub(crate) struct BadTimeValue(pub i64);
+
+impl std::fmt::Display for BadTimeValue {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "{} is not a time", self.0)
+    }
+}
+
+impl std::error::Error for BadTimeValue {}
+
+/// Decodes a stored time; one that does not decode is an error, never 1970.
+pub(crate) fn time(s: i64) -> rusqlite::Result<Time> {
+    let bad = || rusqlite::Error::FromSqlConversionFailure(0, rusqlite::types::Type::Integer, Box::new(BadTimeValue(s)));
+    if !(FIRST_SECS..=LAST_SECS).contains(&s) {
+        return Err(bad());
+    }
+    chrono::DateTime::from_timestamp(s, 0).ok_or_else(bad)
+}
+
+pub(crate) fn opt_time(s: Option<i64>) -> rusqlite::Result<Option<Time>> {
+    s.map(time).transpose()
 }
 
 impl Store {
@@ -81,7 +151,7 @@ impl Store {
 
     fn configure(&mut self) -> Result<()> {
         let c = &self.conn;
-        c.busy_timeout(StdDuration::from_secs(10))?;
+        c.busy_timeout(BUSY_TIMEOUT)?;
         // more distinct cached queries than rusqlite's default 16: re-preparing was a hot spot
         c.set_prepared_statement_cache_capacity(128);
         let mode: String = c.pragma_update_and_check(None, "journal_mode", "wal", |r| r.get(0))?;

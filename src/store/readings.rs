@@ -11,7 +11,7 @@ use crate::domain::charge::{
 use crate::domain::history::EventKind;
 
 fn point(r: &rusqlite::Row<'_>) -> rusqlite::Result<Point> {
-    Ok(Point { t: time(r.get(0)?), amps: r.get(1)?, cum_ah: r.get(2)? })
+    Ok(Point { t: time(r.get(0)?)?, amps: r.get(1)?, cum_ah: r.get(2)? })
 }
 
 impl Db<'_> {
@@ -46,7 +46,7 @@ impl Db<'_> {
             .optional()?;
         let mut st = self.c.prepare_cached("SELECT t, amps FROM reading WHERE circuit_id = ?1 AND t >= ?2 ORDER BY t")?;
         let later: Vec<RawReading> = st
-            .query_map(params![circuit_id, secs(from)], |r| Ok(RawReading { t: time(r.get(0)?), amps: r.get(1)? }))?
+            .query_map(params![circuit_id, secs(from)], |r| Ok(RawReading { t: time(r.get(0)?)?, amps: r.get(1)? }))?
             .collect::<rusqlite::Result<_>>()?;
         let mut up =
             self.c.prepare_cached("UPDATE reading SET cum_ah = ?3, valid = ?4, gap_before = ?5 WHERE circuit_id = ?1 AND t = ?2")?;
@@ -63,7 +63,7 @@ impl Db<'_> {
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)",
         )?;
         let spans: Vec<Span> = st
-            .query_map(params![circuit_id, EventKind::Outage.name()], |r| Ok(Span { from: time(r.get(0)?), to: time(r.get(1)?) }))?
+            .query_map(params![circuit_id, EventKind::Outage.name()], |r| Ok(Span { from: time(r.get(0)?)?, to: time(r.get(1)?)? }))?
             .collect::<rusqlite::Result<_>>()?;
         Ok(union(spans))
     }
@@ -74,7 +74,7 @@ impl Db<'_> {
             "SELECT at, amps FROM event e WHERE circuit_id = ?1 AND kind = ?2
              AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at, id",
         )?;
-        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        let v = st.query_map(params![circuit_id, EventKind::Setpoint.name()], |r| Ok((time(r.get(0)?)?, r.get(1)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
@@ -113,7 +113,7 @@ impl Db<'_> {
             "SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t",
         )?;
         let ends: Vec<Time> =
-            st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)))?.collect::<rusqlite::Result<_>>()?;
+            st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)?))?.collect::<rusqlite::Result<_>>()?;
         let mut v = Vec::new();
         for end in ends {
             if let Some(p) = self.valid_before(circuit_id, end)? {
@@ -128,7 +128,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT t, amps FROM reading WHERE circuit_id = ?1 AND valid = 0 AND amps > 0 AND t > ?2 AND t <= ?3 ORDER BY t",
         )?;
-        let v = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        let v = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok((time(r.get(0)?)?, r.get(1)?)))?;
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
