@@ -39,8 +39,10 @@ pub enum Command {
     Plan(PlanArgs),
     /// Check the database's integrity
     Check(CheckArgs),
-    /// Copy the database safely while it is in use
+    /// Copy the database safely while it is in use, or list the backups kept beside it
     Backup(BackupArgs),
+    /// Put a backup back in place of the database (the database as it was is kept in backups/)
+    Restore(RestoreArgs),
     /// Write the invented demo plant (to its own database unless --db is given) and show it
     Demo(DemoArgs),
 }
@@ -262,5 +264,21 @@ pub struct CheckArgs {
 #[derive(Debug, Args)]
 pub struct BackupArgs {
     /// Destination file (must not exist yet)
-    pub dest: PathBuf,
+    #[arg(required_unless_present = "list", conflicts_with = "list")]
+    pub dest: Option<PathBuf>,
+    /// List the backups in the backups/ folder beside the database, with their time and size
+    #[arg(long)]
+    pub list: bool,
+    /// With --list: print JSON
+    #[arg(long, requires = "list")]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct RestoreArgs {
+    /// The backup file to restore (checked first; a damaged or foreign file is refused)
+    pub file: PathBuf,
+    /// Initials of who restores
+    #[arg(long, env = "TANKBOOK_BY")]
+    pub by: String,
 }

@@ -63,14 +63,21 @@ fn open(db: &Option<PathBuf>) -> Result<Plant> {
 
 pub fn run(cli: Cli) -> Result<()> {
     let now = now()?;
-    if let Some(Command::Demo(a)) = &cli.command {
-        return demo(&cli.db, a, now);
+    match &cli.command {
+        Some(Command::Demo(a)) => return demo(&cli.db, a, now),
+        // the live database may be too damaged to open: restore opens it itself
+        Some(Command::Restore(a)) => return restore(&cli.db, a, now),
+        _ => {}
     }
     let Some(command) = cli.command else {
         let plant = open(&cli.db)?;
         return screens(plant);
     };
     let mut plant = open(&cli.db)?;
+    if matches!(command, Command::Forecast(_) | Command::Plan(_)) {
+        plant.refuse_damage()?;
+    }
+    let writes = matches!(command, Command::Layout(_) | Command::Import(_) | Command::Log(_) | Command::Undo(_));
     match command {
         Command::Layout(LayoutCmd::Load { file }) => {
             let s = plant.load_layout_file(&file, now)?;
@@ -140,12 +147,80 @@ pub fn run(cli: Cli) -> Result<()> {
                 println!("ok: {}", plant.path().display());
             }
         }
-        Command::Demo(_) => unreachable!("handled above"),
-        Command::Backup(a) => {
-            plant.backup(&a.dest)?;
-            println!("backed up {} to {} (integrity checked)", plant.path().display(), a.dest.display());
-        }
+        Command::Demo(a) => return demo(&cli.db, &a, now),
+        Command::Restore(a) => return restore(&cli.db, &a, now),
+        Command::Backup(a) => match &a.dest {
+            Some(dest) => {
+                plant.backup(dest)?;
+                println!("backed up {} to {} (integrity checked)", plant.path().display(), dest.display());
+            }
+            None => backups(&plant, a.json)?,
+        },
     }
+    if writes {
+        daily_backup(&plant, now);
+    }
+    Ok(())
+}
+
+/// The day's automatic backup after a write. The entry is already safe, so a
+/// failed backup is a warning, not a failed command.
+fn daily_backup(plant: &Plant, now: Time) {
+    match crate::plant::backup_if_due(plant.path(), now) {
+        Ok(Some(p)) => eprintln!("tankbook: today's backup written to {}", p.display()),
+        Ok(None) => {}
+        Err(e) => eprintln!("tankbook: warning: the daily backup was not made: {e:#}"),
+    }
+}
+
+/// `tankbook backup --list`: the backups folder's files, oldest first.
+fn backups(plant: &Plant, json: bool) -> Result<()> {
+    let list = crate::plant::list_backups(plant.path())?;
+    let folder = crate::plant::backup_folder(plant.path());
+    if json {
+        let v = serde_json::json!({ "schema": 1, "folder": folder, "backups": list });
+        println!("{}", serde_json::to_string_pretty(&v)?);
+        return Ok(());
+    }
+    if list.is_empty() {
+        println!("no backups in {} yet: one is made after the first entry of each production day", folder.display());
+        return Ok(());
+    }
+    println!("backups in {}, oldest first:", folder.display());
+    for b in &list {
+        let kind = match b.kind {
+            crate::plant::BackupKind::Daily => "daily",
+            crate::plant::BackupKind::BeforeRestore => "before a restore",
+            crate::plant::BackupKind::Other => "other",
+        };
+        let name = b.path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+        println!("  {}  {:>10}  {:<16}  {name}", plant.show_time(b.modified), human_size(b.bytes), kind);
+    }
+    println!("to go back to one: tankbook restore {}", folder.join("FILE").display());
+    Ok(())
+}
+
+fn human_size(bytes: u64) -> String {
+    match bytes {
+        b if b >= 1 << 20 => format!("{:.1} MiB", b as f64 / (1u64 << 20) as f64),
+        b if b >= 1 << 10 => format!("{:.1} KiB", b as f64 / 1024.0),
+        b => format!("{b} B"),
+    }
+}
+
+/// `tankbook restore FILE`: checks FILE, keeps the database as it was, puts FILE in place.
+fn restore(db: &Option<PathBuf>, a: &args::RestoreArgs, now: Time) -> Result<()> {
+    let path = match db {
+        Some(p) => p.clone(),
+        None => default_db()?,
+    };
+    let r = crate::plant::restore(&path, &a.file, &a.by, now)?;
+    println!(
+        "restored {} from {}; the database as it was is kept at {}",
+        path.display(),
+        r.source.display(),
+        r.kept.display()
+    );
     Ok(())
 }
 
@@ -196,6 +271,7 @@ fn screens(plant: Plant) -> Result<()> {
     if !plant.has_layout()? {
         return print::empty(&plant);
     }
+    plant.refuse_damage()?;
     crate::tui::run(plant, clock)
 }
 

@@ -14,6 +14,7 @@ const WARNING_LOOKBACK: Duration = Duration::days(30);
 impl Plant {
     /// Forecasts every cell (or one) as of `as_of`; nothing after `as_of` is used.
     pub fn forecast(&self, as_of: Time, only_cell: Option<&str>) -> Result<Forecast> {
+        self.refuse_damage()?;
         let db = self.store.db();
         db.plant_info()?.ok_or(PlantError::NoLayout)?;
         let mut cells = db.cells()?;

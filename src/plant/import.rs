@@ -40,54 +40,8 @@ impl Plant {
         if circuits.is_empty() {
             return Err(PlantError::NoLayout);
         }
-        let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(input);
-        let header: Vec<String> =
-            rdr.headers().map_err(|e| bad(1, "header", e.to_string()))?.iter().map(|h| h.to_ascii_lowercase()).collect();
-        if header != ["time", "circuit", "amps"] {
-            return Err(bad(1, "header", format!("expected 'time,circuit,amps', found '{}'", header.join(","))));
-        }
-        let mut rows: BTreeMap<i64, BTreeMap<Time, (f64, u64)>> = BTreeMap::new();
-        let mut sum = ImportSummary::default();
-        for rec in rdr.records() {
-            let rec = rec.map_err(|e| {
-                let line = e.position().map_or(0, |p| p.line());
-                let msg = match e.kind() {
-                    csv::ErrorKind::UnequalLengths { len, expected_len, .. } => format!("{len} fields where the header has {expected_len}"),
-                    _ => e.to_string(),
-                };
-                bad(line, "row", msg)
-            })?;
-            let line = rec.position().map_or(0, |p| p.line());
-            let t = DateTime::parse_from_rfc3339(&rec[0])
-                .map_err(|_| {
-                    bad(line, "time", format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0]))
-                })?
-                .to_utc();
-            let Some(&(cid, max)) = circuits.get(&rec[1]) else {
-                return Err(bad(line, "circuit", format!("unknown circuit '{}'", &rec[1])));
-            };
-            let amps: f64 = rec[2].parse().map_err(|_| bad(line, "amps", format!("'{}' is not a number", &rec[2])))?;
-            if !amps.is_finite() || amps < 0.0 {
-                return Err(bad(
-                    line,
-                    "amps",
-                    format!("{} A is negative or not finite: amps are the net mean current, 0 to {max} A", &rec[2]),
-                ));
-            }
-            if amps > max {
-                return Err(bad(line, "amps", format!("{amps} A is above circuit {}'s max_amps of {max} A", &rec[1])));
-            }
-            let by_circuit = rows.entry(cid).or_default();
-            match by_circuit.get(&t) {
-                Some((a, _)) if *a == amps => sum.skipped += 1,
-                Some((a, l)) => {
-                    return Err(bad(line, "amps", format!("{amps} A conflicts with {a} A for the same time and circuit on line {l}")));
-                }
-                None => {
-                    by_circuit.insert(t, (amps, line));
-                }
-            }
-        }
+        let CurrentRows { rows, skipped } = parse_current_csv(input, source, &circuits)?;
+        let mut sum = ImportSummary { skipped, ..Default::default() };
         let names: HashMap<i64, String> = circuits.iter().map(|(n, (id, _))| (*id, n.clone())).collect();
         self.store.write(|db| {
             for (cid, readings) in &rows {
@@ -121,4 +75,76 @@ impl Plant {
             Ok(sum)
         })
     }
+}
+
+/// A current CSV's rows, checked: readings by circuit id and time, with the
+/// line each came from; `skipped` counts rows repeating an earlier one.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct CurrentRows {
+    pub rows: BTreeMap<i64, BTreeMap<Time, (f64, u64)>>,
+    pub skipped: usize,
+}
+
+/// Parses and checks a current CSV (`time,circuit,amps`) against the circuits
+/// (name → (id, max amps)), without touching the database. The first bad row
+/// is an error naming `source`, its line and field.
+pub fn parse_current_csv(input: impl Read, source: &str, circuits: &HashMap<String, (i64, f64)>) -> Result<CurrentRows> {
+    let bad = |line: u64, field: &str, message: String| PlantError::Input {
+        file: source.to_string(),
+        line,
+        field: field.to_string(),
+        message,
+    };
+    let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(input);
+    let header: Vec<String> =
+        rdr.headers().map_err(|e| bad(1, "header", e.to_string()))?.iter().map(|h| h.to_ascii_lowercase()).collect();
+    if header != ["time", "circuit", "amps"] {
+        return Err(bad(1, "header", format!("expected 'time,circuit,amps', found '{}'", header.join(","))));
+    }
+    let mut rows: BTreeMap<i64, BTreeMap<Time, (f64, u64)>> = BTreeMap::new();
+    let mut skipped = 0;
+    for rec in rdr.records() {
+        let rec = rec.map_err(|e| {
+            let line = e.position().map_or(0, |p| p.line());
+            let msg = match e.kind() {
+                csv::ErrorKind::UnequalLengths { len, expected_len, .. } => format!("{len} fields where the header has {expected_len}"),
+                _ => e.to_string(),
+            };
+            bad(line, "row", msg)
+        })?;
+        let line = rec.position().map_or(0, |p| p.line());
+        let t = DateTime::parse_from_rfc3339(&rec[0])
+            .map_err(|_| {
+                bad(line, "time", format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0]))
+            })?
+            .to_utc();
+        if crate::store::storable(t).is_err() {
+            return Err(bad(line, "time", format!("'{}' is outside the years 0000 to 9999 once in UTC", &rec[0])));
+        }
+        let Some(&(cid, max)) = circuits.get(&rec[1]) else {
+            return Err(bad(line, "circuit", format!("unknown circuit '{}'", &rec[1])));
+        };
+        let amps: f64 = rec[2].parse().map_err(|_| bad(line, "amps", format!("'{}' is not a number", &rec[2])))?;
+        if !amps.is_finite() || amps < 0.0 {
+            return Err(bad(
+                line,
+                "amps",
+                format!("{} A is negative or not finite: amps are the net mean current, 0 to {max} A", &rec[2]),
+            ));
+        }
+        if amps > max {
+            return Err(bad(line, "amps", format!("{amps} A is above circuit {}'s max_amps of {max} A", &rec[1])));
+        }
+        let by_circuit = rows.entry(cid).or_default();
+        match by_circuit.get(&t) {
+            Some((a, _)) if *a == amps => skipped += 1,
+            Some((a, l)) => {
+                return Err(bad(line, "amps", format!("{amps} A conflicts with {a} A for the same time and circuit on line {l}")));
+            }
+            None => {
+                by_circuit.insert(t, (amps, line));
+            }
+        }
+    }
+    Ok(CurrentRows { rows, skipped })
 }

@@ -4,6 +4,7 @@
 //! Each write is one store transaction: checks run inside it, so a rejected or
 //! questioned entry, or a failed import, leaves the database as it was.
 
+mod backup;
 mod detail;
 mod forecast;
 mod import;
@@ -13,8 +14,9 @@ mod record;
 use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
 
+pub use backup::{BACKUP_FOLDER, BackupFile, BackupKind, Restored, backup_folder, backup_if_due, list_backups, restore};
 pub use detail::{CellDetail, CircuitTrend};
-pub use import::ImportSummary;
+pub use import::{CurrentRows, ImportSummary, parse_current_csv};
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
 
@@ -22,7 +24,8 @@ use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
 use crate::domain::history::{Contradiction, replay};
 use crate::domain::layout;
-use crate::store::{CellRow, CropFigures, Db, LayoutSummary, PlantInfo, Store, StoreCurve, StoreError};
+use crate::domain::history::{Event, EventKind};
+use crate::store::{CropFigures, Damage, Db, LayoutSummary, PlantInfo, Store, StoreCurve, StoreError};
 
 /// Why a plant operation did not happen.
 #[derive(Debug, thiserror::Error)]
@@ -41,7 +44,23 @@ pub enum PlantError {
     Questioned(Vec<String>),
     #[error("cannot read {0}: {1}")]
     Read(PathBuf, std::io::Error),
+    #[error("entry {entry} ({what}), field {field}: {message}")]
+    Replay { entry: i64, what: String, field: &'static str, message: String },
+    #[error(
+        "this database holds entries this tankbook cannot read: {}{}. Nothing was shown, so no figure is missing one silently: \
+         run `tankbook check` to list every problem, and `tankbook restore FILE` to go back to a backup (`tankbook backup --list` shows them)",
+        .0.iter().map(|d| d.to_string()).collect::<Vec<_>>().join("; "),
+        if .0.len() >= DAMAGE_SHOWN { "; …" } else { "" }
+    )]
+    Damaged(Vec<Damage>),
+    #[error("this is a bug in tankbook, not a problem with your input; please report it with what you did: {0}")]
+    Internal(String),
+    #[error("{file} cannot be restored: {why}. Nothing was changed")]
+    NotRestorable { file: PathBuf, why: String },
 }
+
+/// How many damaged entries a refusal names (`check` lists all of them).
+const DAMAGE_SHOWN: usize = 20;
 
 impl PlantError {
     fn rejected(field: &str, message: impl Into<String>) -> Self {
@@ -63,6 +82,8 @@ pub struct Opts {
 /// An open plant database.
 pub struct Plant {
     store: Store,
+    /// Entries this version cannot read, found on open by index look-ups.
+    damage: Vec<Damage>,
 }
 
 /// What `check` found.
@@ -79,8 +100,24 @@ pub(crate) fn far_future() -> Time {
 }
 
 impl Plant {
+    /// Opens (creating if need be) a plant database. Entries this version
+    /// cannot read do not stop the open (`check`, `backup` and `restore` must
+    /// still work), but forecasts and the screens refuse them: see [`Plant::refuse_damage`].
     pub fn open(path: &Path) -> Result<Plant> {
-        Ok(Plant { store: Store::open(path)? })
+        let store = Store::open(path)?;
+        let damage = store.db().damaged_entries(DAMAGE_SHOWN)?;
+        Ok(Plant { store, damage })
+    }
+
+    /// Entries this version cannot read (at most the first few), as found on open.
+    pub fn damage(&self) -> &[Damage] {
+        &self.damage
+    }
+
+    /// [`PlantError::Damaged`] when the log holds entries this version cannot
+    /// read: a forecast without them would be wrong without saying so.
+    pub fn refuse_damage(&self) -> Result<()> {
+        if self.damage.is_empty() { Ok(()) } else { Err(PlantError::Damaged(self.damage.clone())) }
     }
 
     pub fn path(&self) -> &Path {
@@ -116,10 +153,6 @@ impl Plant {
         Ok(self.store.db().circuits()?.into_iter().map(|c| c.name).collect())
     }
 
-    pub fn cells(&self) -> Result<Vec<CellRow>> {
-        Ok(self.store.db().cells()?)
-    }
-
     /// Defines or updates the plant from a layout file's text.
     pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
         let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
@@ -137,6 +170,10 @@ impl Plant {
     pub fn check(&mut self) -> Result<CheckReport> {
         let db = self.store.db();
         let mut r = CheckReport { problems: db.sqlite_problems()?, ..Default::default() };
+        r.problems.extend(db.damaged_entries(usize::MAX >> 1)?.iter().map(|d| d.to_string()));
+        for (circuit, value) in db.readings_with_bad_times()? {
+            r.problems.push(format!("circuit {circuit}: a reading's time holds {value}, which is not a time (years 0000 to 9999)"));
+        }
         let falls = db.charge_decreases()?;
         if falls > 0 {
             r.problems.push(format!("{falls} readings where the cumulative charge goes down"));
@@ -153,6 +190,8 @@ impl Plant {
                         bad.push(format!("cell {cell}: stored records differ from the event log"))
                     }
                     Ok(()) => {}
+                    // listed above, once per entry
+                    Err(PlantError::Store(StoreError::Damaged(_))) => {}
                     Err(e) => bad.push(format!("cell {cell}: {e}")),
                 }
             }
@@ -177,8 +216,34 @@ impl Plant {
 /// charge and measured efficiency. A crop whose bounds, weight and cut-outs are
 /// unchanged keeps its stored figures (readings changes refresh them separately),
 /// so logging one entry does not recompute a cell's whole history.
+///
+/// A contradiction is reported as a rejection of the entry being recorded (its
+/// field, as the foreman typed it); `check` reports it against the stored entry.
 pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
-    rebuild(db, cell, true)
+    rebuild(db, cell, true).map_err(|e| match e {
+        PlantError::Replay { field, message, .. } => PlantError::rejected(field, message),
+        e => e,
+    })
+}
+
+/// The option an entry's time was given with: what a replay contradiction is about.
+fn time_field(kind: EventKind) -> &'static str {
+    match kind {
+        EventKind::Cutout | EventKind::Outage | EventKind::Setpoint => "--from",
+        _ => "--at",
+    }
+}
+
+fn contradiction(events: &[Event], c: Contradiction) -> PlantError {
+    match events.iter().find(|e| e.id == c.event) {
+        Some(e) => PlantError::Replay {
+            entry: e.id,
+            what: format!("{} of {}", e.kind.name(), e.cell.as_deref().or(e.circuit.as_deref()).unwrap_or("the plant")),
+            field: time_field(e.kind),
+            message: c.message,
+        },
+        None => PlantError::Internal(format!("replay named entry {}, which is not among the cell's entries: {}", c.event, c.message)),
+    }
 }
 
 /// The rebuild itself; `reuse = false` recomputes every crop (for `check`).
@@ -186,7 +251,7 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
     let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
-    let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
+    let h = replay(&events, |t| zone.show(t)).map_err(|c| contradiction(&events, c))?;
     let cuts: Vec<OpenSpan> = h.cutouts.iter().map(|c| c.span).collect();
     let old_cuts = db.cutouts(cell, far_future())?;
     let changed: Vec<OpenSpan> =
@@ -231,3 +296,6 @@ pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<(
     }
     Ok(())
 }
+
+#[cfg(test)]
+mod tests;

@@ -136,7 +136,7 @@ impl Plant {
             PlanError::Curve(e) => PlantError::Store(e),
             e @ PlanError::Move { .. } => rejected("--move", e.to_string()),
             PlanError::Rule { key, message } => rejected(format!("plan.{key}"), message),
-            PlanError::Level(e) => rejected("plan", e.to_string()),
+            PlanError::Level(e) => PlantError::Internal(format!("levelling the plan: {e}")),
         })
     }
 }

@@ -108,19 +108,23 @@ impl Db<'_> {
             "INSERT INTO event(kind, cell_id, circuit_id, at, end_at, count, kg, amps, volts, logged_by, forced, recorded_at, voids)
              VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11, ?12, ?13)",
         )?;
+        let end = match e.end {
+            Some(t) => Some(super::storable(t)?),
+            None => None,
+        };
         st.execute(params![
             e.kind.name(),
             e.cell,
             e.circuit_id,
-            secs(e.at),
-            e.end.map(secs),
+            super::storable(e.at)?,
+            end,
             e.count,
             e.kg,
             e.amps,
             e.volts,
             e.by,
             e.forced,
-            secs(e.recorded_at),
+            super::storable(e.recorded_at)?,
             e.voids
         ])?;
         Ok(self.c.last_insert_rowid())

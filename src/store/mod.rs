@@ -16,6 +16,10 @@ use std::time::Duration as StdDuration;
 
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use events::{CropFigures, LoadRow, NewEvent};
+
+/// The tables a tankbook database has from its first migration on: a file
+/// without them is not ours.
+const OUR_TABLES: [&str; 4] = ["plant_meta", "circuit", "reading", "event"];
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use readings::StoreCurve;
 
@@ -44,6 +48,8 @@ pub enum StoreError {
     Corrupt(String),
     #[error("backup: {0}")]
     Backup(String),
+    #[error("{0} is not a tankbook database: {1}")]
+    Foreign(PathBuf, String),
 }
 
 /// Data this version cannot read: what is wrong, and where.
@@ -66,6 +72,7 @@ impl From<rusqlite::Error> for StoreError {
             rusqlite::Error::SqliteFailure(f, _) => match f.code {
                 ErrorCode::DatabaseBusy | ErrorCode::DatabaseLocked => StoreError::Busy,
                 ErrorCode::DiskFull => StoreError::DiskFull,
+                ErrorCode::DatabaseCorrupt | ErrorCode::NotADatabase => StoreError::Corrupt(e.to_string()),
                 _ => StoreError::Sqlite(e),
             },
             rusqlite::Error::FromSqlConversionFailure(_, _, inner) => match inner.downcast_ref::<BadTimeValue>() {
@@ -87,6 +94,7 @@ pub type Result<T, E = StoreError> = std::result::Result<T, E>;
 pub struct Store {
     conn: Connection,
     path: PathBuf,
+    busy: StdDuration,
 }
 
 /// A view of the database for queries and, inside [`Store::write`], changes.
@@ -126,6 +134,12 @@ pub(crate) fn time(s: i64) -> rusqlite::Result<Time> {
     chrono::DateTime::from_timestamp(s, 0).ok_or_else(bad)
 }
 
+/// A time as stored, refused if it could not be read back (see [`time`]).
+pub(crate) fn storable(t: Time) -> Result<i64> {
+    let s = secs(t);
+    if (FIRST_SECS..=LAST_SECS).contains(&s) { Ok(s) } else { Err(StoreError::BadTime(s)) }
+}
+
 pub(crate) fn opt_time(s: Option<i64>) -> rusqlite::Result<Option<Time>> {
     s.map(time).transpose()
 }
@@ -138,7 +152,7 @@ impl Store {
             std::fs::create_dir_all(dir).map_err(|e| StoreError::Folder(dir.to_path_buf(), e))?;
         }
         let conn = Connection::open_with_flags(path, OpenFlags::SQLITE_OPEN_READ_WRITE | OpenFlags::SQLITE_OPEN_CREATE)?;
-        let mut store = Store { conn, path: path.to_path_buf() };
+        let mut store = Store { conn, path: path.to_path_buf(), busy: BUSY_TIMEOUT };
         store.configure()?;
         let known = MIGRATIONS.len();
         let v = schema_version(&store.conn)?;
@@ -151,7 +165,7 @@ impl Store {
 
     fn configure(&mut self) -> Result<()> {
         let c = &self.conn;
-        c.busy_timeout(BUSY_TIMEOUT)?;
+        c.busy_timeout(self.busy)?;
         // more distinct cached queries than rusqlite's default 16: re-preparing was a hot spot
         c.set_prepared_statement_cache_capacity(128);
         let mode: String = c.pragma_update_and_check(None, "journal_mode", "wal", |r| r.get(0))?;
@@ -189,6 +203,75 @@ impl Store {
         let out = f(Db { c: &tx });
         tx.rollback().map_err(StoreError::from)?;
         out
+    }
+
+    /// Sets how long a write waits for another process's write (tests use a short one).
+    pub(crate) fn set_busy_timeout(&mut self, d: StdDuration) -> Result<()> {
+        self.conn.busy_timeout(d)?;
+        self.busy = d;
+        Ok(())
+    }
+
+    /// Caps the database at its current size plus `spare` pages, the way a full
+    /// disk would: for tests of what a full disk does (SQLite's `max_page_count`).
+    pub(crate) fn limit_pages(&mut self, spare: i64) -> Result<()> {
+        let n: i64 = self.conn.query_row("PRAGMA page_count", [], |r| r.get(0))?;
+        self.conn.pragma_update(None, "max_page_count", n + spare)?;
+        Ok(())
+    }
+
+    /// Checks that the file at `path` is a sound tankbook database this version
+    /// can read, without changing it: SQLite's integrity and foreign-key checks,
+    /// our tables, and a schema no newer than this tankbook. Returns its schema version.
+    pub fn verify_file(path: &Path) -> Result<i64> {
+        let foreign = |why: String| StoreError::Foreign(path.to_path_buf(), why);
+        let meta = std::fs::metadata(path).map_err(|e| foreign(e.to_string()))?;
+        if !meta.is_file() {
+            return Err(foreign("it is not a file".into()));
+        }
+        let c = Connection::open_with_flags(path, OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX)
+            .map_err(|e| foreign(e.to_string()))?;
+        let problems = Db { c: &c }.sqlite_problems().map_err(|e| foreign(e.to_string()))?;
+        if let Some(p) = problems.first() {
+            return Err(foreign(format!("it fails SQLite's integrity check ({p}{})", if problems.len() > 1 { ", …" } else { "" })));
+        }
+        for t in OUR_TABLES {
+            let n: i64 = c
+                .query_row("SELECT count(*) FROM sqlite_master WHERE type = 'table' AND name = ?1", [t], |r| r.get(0))
+                .map_err(|e| foreign(e.to_string()))?;
+            if n == 0 {
+                return Err(foreign(format!("it has no table '{t}'")));
+            }
+        }
+        let v = schema_version(&c)?;
+        if v > MIGRATIONS.len() as i64 {
+            return Err(StoreError::TooNew(path.to_path_buf(), v, MIGRATIONS.len()));
+        }
+        Ok(v)
+    }
+
+    /// Replaces this database's content with the file at `src`, online: SQLite's
+    /// backup copies it into the live connection in one step, so another
+    /// tankbook that has the file open sees either the old database or the new
+    /// one. Refused with [`StoreError::Busy`] while another process writes for
+    /// longer than the busy timeout. Then migrates the content to this version.
+    pub fn replace_with(&mut self, src: &Path) -> Result<()> {
+        let from = Connection::open_with_flags(src, OpenFlags::SQLITE_OPEN_READ_ONLY | OpenFlags::SQLITE_OPEN_NO_MUTEX)?;
+        let start = std::time::Instant::now();
+        {
+            let b = rusqlite::backup::Backup::new(&from, &mut self.conn)?;
+            loop {
+                match b.step(-1)? {
+                    rusqlite::backup::StepResult::Done => break,
+                    rusqlite::backup::StepResult::More => {}
+                    _ if start.elapsed() >= self.busy => return Err(StoreError::Busy),
+                    _ => std::thread::sleep(StdDuration::from_millis(20)),
+                }
+            }
+        }
+        self.configure()?;
+        migrate(&mut self.conn, MIGRATIONS.len())?;
+        Ok(())
     }
 
     /// Copies the live database to `dest` with SQLite's online backup, then

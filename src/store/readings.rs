@@ -30,7 +30,7 @@ impl Db<'_> {
         let mut st =
             self.c.prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, 0, 1, 0)")?;
         for r in rows {
-            st.execute(params![circuit_id, secs(r.t), r.amps])?;
+            st.execute(params![circuit_id, super::storable(r.t)?, r.amps])?;
         }
         self.recompute_charge(circuit_id, first)
     }
