@@ -180,13 +180,24 @@ pub(crate) fn restore_with(db_path: &Path, file: &Path, by: &str, now: Time, bus
     let _ = std::fs::remove_file(&staging);
     let staged = stage(file, &staging);
     let result = staged.map_err(|e| refuse(e.to_string())).and_then(|()| {
-        let mut live = Plant::open(db_path)?;
-        live.store.set_busy_timeout(busy)?;
         let kept = folder.join(format!("{}-before-restore-{}.db", stem(db_path), now.format("%Y%m%dT%H%M%SZ")));
         if kept.exists() {
             return Err(refuse(format!("{} already exists: wait a second and try again", kept.display())));
         }
-        backup_to(&live.store, &kept)?;
+        let mut live = match Plant::open(db_path) {
+            Ok(live) => {
+                backup_to(&live.store, &kept)?;
+                live
+            }
+            // Too damaged to open: no other tankbook can be using it, so its
+            // files are moved aside as they are and a fresh file takes the backup.
+            Err(PlantError::Store(StoreError::Corrupt(_))) => {
+                move_aside(db_path, &kept)?;
+                Plant::open(db_path)?
+            }
+            Err(e) => return Err(e),
+        };
+        live.store.set_busy_timeout(busy)?;
         if let Err(e) = live.store.replace_with(&staging) {
             // nothing was replaced: the copy just made says nothing new
             let _ = std::fs::remove_file(&kept);
@@ -199,6 +210,18 @@ pub(crate) fn restore_with(db_path: &Path, file: &Path, by: &str, now: Time, bus
         let _ = std::fs::remove_file(format!("{}{suffix}", staging.display()));
     }
     result
+}
+
+/// Moves a database that cannot be opened, with its journal files, to `kept`.
+fn move_aside(db: &Path, kept: &Path) -> Result<()> {
+    for suffix in ["", "-wal", "-shm"] {
+        let from = PathBuf::from(format!("{}{suffix}", db.display()));
+        if from.exists() {
+            let to = PathBuf::from(format!("{}{suffix}", kept.display()));
+            std::fs::rename(&from, &to).map_err(|e| io("cannot move the damaged database aside from", &from, e))?;
+        }
+    }
+    Ok(())
 }
 
 /// Copies `file` to `staging`, migrates it, and runs `check` on it.

@@ -69,6 +69,12 @@ mod tests {
         assert_eq!(est, None);
         let idx: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap();
         assert_eq!(idx, 1);
+        // 004: the damage look-ups and the restore log
+        for name in ["event_kind", "event_bad_time", "restore_log"] {
+            let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
+            assert_eq!(n, 1, "{name}");
+        }
+        assert!(store.db().damaged_entries(10).unwrap().is_empty());
     }
 
     #[test]
