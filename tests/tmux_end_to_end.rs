@@ -1,23 +1,29 @@
-//! End to end in a real terminal: the release binary in tmux at 80×24 on a demo
-//! database; a foreman moves to a cell, logs a harvest through the form and
-//! quits; the headless forecast then shows the harvest saved.
+//! End to end in a real terminal: the binary cargo built for this test run, in
+//! tmux at 80×24 on a demo database; a foreman moves to a cell, logs a harvest
+//! through the form and quits; the headless forecast then shows the harvest saved.
+//!
+//! Needs tmux, so it is ignored by a plain `cargo test`; `.ci/run` installs tmux
+//! and runs it with `cargo test -- --ignored`, where a missing tmux fails it.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::Command;
 use std::time::{Duration, Instant};
 
 const NOW: &str = "2026-11-20T05:30:00Z";
 
-fn release_binary() -> PathBuf {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let bin = root.join("target/release/tankbook");
-    if !bin.exists() {
-        let ok =
-            Command::new(env!("CARGO")).args(["build", "--release", "--quiet"]).current_dir(root).status().expect("cargo build --release");
-        assert!(ok.success(), "cargo build --release failed");
+/// The binary cargo built for this test run (correct under any `CARGO_TARGET_DIR`).
+fn binary() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_tankbook"))
+}
+
+/// Fails with the reason when tmux cannot be run: never a silent skip.
+fn require_tmux() {
+    match Command::new("tmux").arg("-V").output() {
+        Ok(o) if o.status.success() => {}
+        Ok(o) => panic!("this test needs tmux, and `tmux -V` failed: {}", String::from_utf8_lossy(&o.stderr)),
+        Err(e) => panic!("this test needs tmux (apt-get install tmux; .ci/run installs it): {e}"),
     }
-    bin
 }
 
 struct Tmux(String);
@@ -56,8 +62,10 @@ impl Drop for Tmux {
 }
 
 #[test]
+#[ignore = "needs tmux"]
 fn log_a_harvest_in_the_real_terminal() {
-    let bin = release_binary();
+    require_tmux();
+    let bin = binary();
     let dir = tempfile::tempdir().unwrap();
     let db = dir.path().join("demo.db");
     let st = Command::new(&bin).args(["--db", db.to_str().unwrap(), "demo", "--no-tui"]).env("TANKBOOK_NOW", NOW).output().unwrap();
