@@ -25,7 +25,8 @@ fn circuits() -> HashMap<String, (i64, f64)> {
 /// A field as a meter export might write it, or as it might go wrong.
 fn time_field() -> impl Strategy<Value = String> {
     prop_oneof![
-        (2000i32..2100, 1u32..13, 1u32..29, 0u32..24, 0u32..60).prop_map(|(y, mo, d, h, mi)| format!("{y:04}-{mo:02}-{d:02}T{h:02}:{mi:02}:00Z")),
+        (2000i32..2100, 1u32..13, 1u32..29, 0u32..24, 0u32..60)
+            .prop_map(|(y, mo, d, h, mi)| format!("{y:04}-{mo:02}-{d:02}T{h:02}:{mi:02}:00Z")),
         (0i32..10000, 1u32..13, 1u32..29).prop_map(|(y, mo, d)| format!("{y:04}-{mo:02}-{d:02}T00:00:00-23:59")),
         "[0-9T:Z+ .-]{0,30}",
         any::<String>(),

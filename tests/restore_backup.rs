@@ -115,7 +115,10 @@ fn a_damaged_or_foreign_file_is_refused_and_nothing_changes() {
     }
     std::fs::write(&scribbled, &b).unwrap();
     let foreign = tk.dir.path().join("foreign.db");
-    rusqlite::Connection::open(&foreign).unwrap().execute_batch("CREATE TABLE recipe(name TEXT); INSERT INTO recipe VALUES ('soup');").unwrap();
+    rusqlite::Connection::open(&foreign)
+        .unwrap()
+        .execute_batch("CREATE TABLE recipe(name TEXT); INSERT INTO recipe VALUES ('soup');")
+        .unwrap();
     let newer = tk.dir.path().join("newer.db");
     std::fs::copy(&copy, &newer).unwrap();
     rusqlite::Connection::open(&newer).unwrap().pragma_update(None, "user_version", 99).unwrap();
@@ -123,7 +126,10 @@ fn a_damaged_or_foreign_file_is_refused_and_nothing_changes() {
     std::fs::copy(&copy, &unknown_kind).unwrap();
     rusqlite::Connection::open(&unknown_kind)
         .unwrap()
-        .execute("INSERT INTO event(kind, cell_id, at, logged_by, forced, recorded_at) VALUES ('crane', 'A02', 1772323200, 'X', 0, 1772323200)", [])
+        .execute(
+            "INSERT INTO event(kind, cell_id, at, logged_by, forced, recorded_at) VALUES ('crane', 'A02', 1772323200, 'X', 0, 1772323200)",
+            [],
+        )
         .unwrap();
     let text = tk.file("notes.db", "time,circuit,amps\n");
     let cases: Vec<(PathBuf, &str)> = vec![

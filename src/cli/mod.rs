@@ -215,12 +215,7 @@ fn restore(db: &Option<PathBuf>, a: &args::RestoreArgs, now: Time) -> Result<()>
         None => default_db()?,
     };
     let r = crate::plant::restore(&path, &a.file, &a.by, now)?;
-    println!(
-        "restored {} from {}; the database as it was is kept at {}",
-        path.display(),
-        r.source.display(),
-        r.kept.display()
-    );
+    println!("restored {} from {}; the database as it was is kept at {}", path.display(), r.source.display(), r.kept.display());
     Ok(())
 }
 

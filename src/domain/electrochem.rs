@@ -35,11 +35,6 @@ pub fn copper_kg(charge_ah: f64, efficiency: f64) -> f64 {
     ECE_KG_PER_AH * charge_ah * efficiency
 }
 
-/// Charge, A·h, that deposits `kg` of copper at current efficiency `efficiency`.
-pub fn charge_for_copper_ah(kg: f64, efficiency: f64) -> f64 {
-    kg / (ECE_KG_PER_AH * efficiency)
-}
-
 /// Measured current efficiency: copper weighed over the copper the charge could plate.
 /// `None` when no charge flowed (the ratio means nothing then).
 pub fn measured_efficiency(weighed_kg: f64, charge_ah: f64) -> Option<f64> {
@@ -112,7 +107,7 @@ mod tests {
 
     #[test]
     fn efficiency_round_trip() {
-        let q = charge_for_copper_ah(120.0, 0.96);
+        let q = 105_000.0;
         assert!(close(measured_efficiency(copper_kg(q, 0.96), q).unwrap(), 0.96, 1e-12));
         assert_eq!(measured_efficiency(1.0, 0.0), None);
     }

@@ -97,8 +97,7 @@ pub fn backup_if_due(db_path: &Path, now: Time) -> Result<Option<PathBuf>> {
     std::fs::create_dir_all(&folder).map_err(|e| PlantError::Store(StoreError::Folder(folder.clone(), e)))?;
     backup_to(&store, &dest)?;
     let keep = info.store.keep_backups.max(1) as usize;
-    let mut daily: Vec<BackupFile> =
-        list_backups(db_path)?.into_iter().filter(|b| b.kind == BackupKind::Daily && b.path != dest).collect();
+    let mut daily: Vec<BackupFile> = list_backups(db_path)?.into_iter().filter(|b| b.kind == BackupKind::Daily && b.path != dest).collect();
     // names sort by production day; the new one is kept, so keep - 1 others
     daily.sort_by(|a, b| b.path.cmp(&a.path));
     for old in daily.iter().skip(keep - 1) {
@@ -227,8 +226,7 @@ fn move_aside(db: &Path, kept: &Path) -> Result<()> {
 /// Copies `file` to `staging`, migrates it, and runs `check` on it.
 fn stage(file: &Path, staging: &Path) -> Result<()> {
     {
-        let src = rusqlite::Connection::open_with_flags(file, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY)
-            .map_err(StoreError::from)?;
+        let src = rusqlite::Connection::open_with_flags(file, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).map_err(StoreError::from)?;
         let mut dst = rusqlite::Connection::open(staging).map_err(StoreError::from)?;
         let b = rusqlite::backup::Backup::new(&src, &mut dst).map_err(StoreError::from)?;
         b.run_to_completion(1024, StdDuration::from_millis(10), None).map_err(StoreError::from)?;

@@ -89,15 +89,10 @@ pub struct CurrentRows {
 /// (name → (id, max amps)), without touching the database. The first bad row
 /// is an error naming `source`, its line and field.
 pub fn parse_current_csv(input: impl Read, source: &str, circuits: &HashMap<String, (i64, f64)>) -> Result<CurrentRows> {
-    let bad = |line: u64, field: &str, message: String| PlantError::Input {
-        file: source.to_string(),
-        line,
-        field: field.to_string(),
-        message,
-    };
+    let bad =
+        |line: u64, field: &str, message: String| PlantError::Input { file: source.to_string(), line, field: field.to_string(), message };
     let mut rdr = csv::ReaderBuilder::new().trim(csv::Trim::All).from_reader(input);
-    let header: Vec<String> =
-        rdr.headers().map_err(|e| bad(1, "header", e.to_string()))?.iter().map(|h| h.to_ascii_lowercase()).collect();
+    let header: Vec<String> = rdr.headers().map_err(|e| bad(1, "header", e.to_string()))?.iter().map(|h| h.to_ascii_lowercase()).collect();
     if header != ["time", "circuit", "amps"] {
         return Err(bad(1, "header", format!("expected 'time,circuit,amps', found '{}'", header.join(","))));
     }
@@ -114,9 +109,7 @@ pub fn parse_current_csv(input: impl Read, source: &str, circuits: &HashMap<Stri
         })?;
         let line = rec.position().map_or(0, |p| p.line());
         let t = DateTime::parse_from_rfc3339(&rec[0])
-            .map_err(|_| {
-                bad(line, "time", format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0]))
-            })?
+            .map_err(|_| bad(line, "time", format!("'{}' is not an RFC 3339 time with an offset (e.g. 2026-03-01T06:00:00Z)", &rec[0])))?
             .to_utc();
         if crate::store::storable(t).is_err() {
             return Err(bad(line, "time", format!("'{}' is outside the years 0000 to 9999 once in UTC", &rec[0])));
@@ -126,11 +119,7 @@ pub fn parse_current_csv(input: impl Read, source: &str, circuits: &HashMap<Stri
         };
         let amps: f64 = rec[2].parse().map_err(|_| bad(line, "amps", format!("'{}' is not a number", &rec[2])))?;
         if !amps.is_finite() || amps < 0.0 {
-            return Err(bad(
-                line,
-                "amps",
-                format!("{} A is negative or not finite: amps are the net mean current, 0 to {max} A", &rec[2]),
-            ));
+            return Err(bad(line, "amps", format!("{} A is negative or not finite: amps are the net mean current, 0 to {max} A", &rec[2])));
         }
         if amps > max {
             return Err(bad(line, "amps", format!("{amps} A is above circuit {}'s max_amps of {max} A", &rec[1])));

@@ -23,8 +23,8 @@ pub use record::Recorded;
 use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
 use crate::domain::history::{Contradiction, replay};
-use crate::domain::layout;
 use crate::domain::history::{Event, EventKind};
+use crate::domain::layout;
 use crate::store::{CropFigures, Damage, Db, LayoutSummary, PlantInfo, Store, StoreCurve, StoreError};
 
 /// Why a plant operation did not happen.

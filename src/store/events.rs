@@ -245,7 +245,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT started_at FROM crop WHERE cell_id = ?1 AND started_at <= ?2 AND (ended_at IS NULL OR ended_at > ?2) ORDER BY started_at DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok(time(r.get(0)?)?)).optional()?)
+        Ok(st.query_row(params![cell, secs(as_of)], |r| time(r.get(0)?)).optional()?)
     }
 
     /// Measured efficiencies of the cell's crops harvested by `as_of`, oldest first: (harvest time, efficiency, kg).
@@ -367,11 +367,9 @@ impl Db<'_> {
                     st.query_map(params![below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?.collect::<rusqlite::Result<_>>()?
                 }
                 Some(above) => {
-                    let mut st = self
-                        .c
-                        .prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind > ?1 AND kind < ?2 LIMIT ?3")?;
-                    st.query_map(params![above, below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?
-                        .collect::<rusqlite::Result<_>>()?
+                    let mut st =
+                        self.c.prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind > ?1 AND kind < ?2 LIMIT ?3")?;
+                    st.query_map(params![above, below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?.collect::<rusqlite::Result<_>>()?
                 }
             };
             found.extend(rows.into_iter().map(|(entry, kind)| Damage::UnknownKind { entry, kind }));
@@ -383,7 +381,9 @@ impl Db<'_> {
                 OR end_at NOT BETWEEN -62167219200 AND 253402300799
              ORDER BY id LIMIT ?1",
         )?;
-        let rows = st.query_map([limit as i64], |r| Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, Option<i64>>(2)?, r.get::<_, i64>(3)?)))?;
+        let rows = st.query_map([limit as i64], |r| {
+            Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, Option<i64>>(2)?, r.get::<_, i64>(3)?))
+        })?;
         for row in rows {
             let (entry, at, end, rec) = row?;
             let bad = |v: i64| time(v).is_err();

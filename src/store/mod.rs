@@ -55,9 +55,7 @@ pub enum StoreError {
 /// Data this version cannot read: what is wrong, and where.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]
 pub enum Damage {
-    #[error(
-        "entry {entry} is of the kind '{kind}', which this tankbook does not know (written by a newer tankbook, or damaged)"
-    )]
+    #[error("entry {entry} is of the kind '{kind}', which this tankbook does not know (written by a newer tankbook, or damaged)")]
     UnknownKind { entry: i64, kind: String },
     #[error("entry {entry}: its {column} holds {value}, which is not a time (years 0000 to 9999)")]
     BadTime { entry: i64, column: &'static str, value: i64 },
@@ -214,6 +212,7 @@ impl Store {
 
     /// Caps the database at its current size plus `spare` pages, the way a full
     /// disk would: for tests of what a full disk does (SQLite's `max_page_count`).
+    #[cfg(test)]
     pub(crate) fn limit_pages(&mut self, spare: i64) -> Result<()> {
         let n: i64 = self.conn.query_row("PRAGMA page_count", [], |r| r.get(0))?;
         self.conn.pragma_update(None, "max_page_count", n + spare)?;
