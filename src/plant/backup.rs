@@ -175,7 +175,8 @@ pub(crate) fn restore_with(db_path: &Path, file: &Path, by: &str, now: Time, bus
     std::fs::create_dir_all(&folder).map_err(|e| PlantError::Store(StoreError::Folder(folder.clone(), e)))?;
     // A staging copy, brought up to this version and checked the way `check`
     // does, so the file itself is only ever read.
-    let staging = folder.join(format!("{}-restoring.db", stem(db_path)));
+    // not `.db`: a restore cut short leaves nothing that `backup --list` shows
+    let staging = folder.join(format!("{}-restoring.partial", stem(db_path)));
     let _ = std::fs::remove_file(&staging);
     let staged = stage(file, &staging);
     let result = staged.map_err(|e| refuse(e.to_string())).and_then(|()| {

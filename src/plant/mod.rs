@@ -47,8 +47,8 @@ pub enum PlantError {
     #[error("entry {entry} ({what}), field {field}: {message}")]
     Replay { entry: i64, what: String, field: &'static str, message: String },
     #[error(
-        "this database holds entries this tankbook cannot read: {}{}. Nothing was shown, so no figure is missing one silently: \
-         run `tankbook check` to list every problem, and `tankbook restore FILE` to go back to a backup (`tankbook backup --list` shows them)",
+        "this database holds entries this tankbook cannot read: {}{}. tankbook shows no figures that would \
+         silently leave them out: run `tankbook check` to list every problem, and `tankbook restore FILE` to go back to a backup (`tankbook backup --list` shows them)",
         .0.iter().map(|d| d.to_string()).collect::<Vec<_>>().join("; "),
         if .0.len() >= DAMAGE_SHOWN { "; …" } else { "" }
     )]
