@@ -1,4 +1,4 @@
-//! kill -9 at random moments during imports and entries, and two processes
+//! kill -9 at random moments during imports, entries and restores, and two processes
 //! writing at once: after every round the database passes SQLite's integrity
 //! check and `check`, an import or entry is either all there or not at all,
 //! and every backup in `backups/` is sound (a kill can land in the daily backup).
@@ -146,6 +146,39 @@ fn kill_9_during_entries_leaves_each_entry_all_or_nothing() {
         sound(&tk, round);
     }
     eprintln!("{ROUNDS} entry rounds: {killed} killed while running, {done} entries recorded; a whole entry took {full:?}");
+}
+
+#[test]
+fn kill_9_during_restores_leaves_the_old_database_or_the_backup() {
+    let tk = plant_check_day("2026-03-01T00:00:00Z");
+    let mut rng = Rng::new();
+    let small = tk.dir.path().join("small.db");
+    tk.ok(&["backup", small.to_str().unwrap()]);
+    for h in 1..6 {
+        tk.ok(&["log", "voltage", "--cell", "A02", "--at", &format!("2026-03-01T{h:02}:00:00Z"), "--volts", "0.3"]);
+    }
+    let large = tk.dir.path().join("large.db");
+    tk.ok(&["backup", large.to_str().unwrap()]);
+    let (n_small, n_large) = (1, 6);
+    let full = timed(&tk, &["restore", small.to_str().unwrap()]);
+    let (mut killed, mut done) = (0, 0);
+    for round in 0..12 {
+        // a new second each round: each restore keeps its own dated copy
+        let now = Tk { dir: tempfile::tempdir().unwrap(), db: tk.db.clone(), now: format!("2026-03-02T00:00:{:02}Z", round + 1) };
+        let before = entries(&tk);
+        let (file, n) = if before == n_small { (&large, n_large) } else { (&small, n_small) };
+        let delay = Duration::from_micros(rng.below(full.as_micros() as u64 * 6 / 5));
+        if run_and_kill(&now, &["restore", file.to_str().unwrap()], delay) {
+            killed += 1;
+        }
+        let after = entries(&tk);
+        assert!(after == before || after == n, "round {round}: {before} entries became {after}, not the backup's {n}");
+        if after != before {
+            done += 1;
+        }
+        sound(&tk, round);
+    }
+    eprintln!("12 restore rounds: {killed} killed while running, {done} restores complete; a whole restore took {full:?}");
 }
 
 #[test]

@@ -211,7 +211,7 @@ fn unknown_kinds_and_bad_times_are_reported_by_check_and_refused_by_forecast() {
     assert!(stdout.contains("problem: entry 2: its time holds 99999999999999"), "{stdout}");
     let j: serde_json::Value = serde_json::from_slice(&tk.cmd().args(["check", "--json"]).output().unwrap().stdout).unwrap();
     assert!(j["problems"].as_array().unwrap().len() >= 2, "{j}");
-    for args in [&["forecast"][..], &["forecast", "--cell", "A01", "--json"], &["plan"]] {
+    for args in [&["forecast"][..], &["forecast", "--cell", "A01", "--json"], &["plan"], &["events"]] {
         let err = tk.fails(1, args);
         assert!(err.contains("entry 3") && err.contains("entry 2"), "{args:?}: {err}");
         assert!(err.contains("tankbook check") && err.contains("tankbook restore"), "{args:?}: {err}");

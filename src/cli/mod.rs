@@ -74,7 +74,7 @@ pub fn run(cli: Cli) -> Result<()> {
         return screens(plant);
     };
     let mut plant = open(&cli.db)?;
-    if matches!(command, Command::Forecast(_) | Command::Plan(_)) {
+    if matches!(command, Command::Forecast(_) | Command::Plan(_) | Command::Events(_)) {
         plant.refuse_damage()?;
     }
     let writes = matches!(command, Command::Layout(_) | Command::Import(_) | Command::Log(_) | Command::Undo(_));

@@ -61,15 +61,28 @@ fn io(what: &str, path: &Path, e: std::io::Error) -> PlantError {
     PlantError::Store(StoreError::Backup(format!("{what} {}: {e}", path.display())))
 }
 
+/// Removes a database file left by a copy that was cut short, with its
+/// journals: a stale journal beside a new file of the same name would be
+/// applied to it.
+fn remove_db_files(path: &Path) -> Result<()> {
+    for suffix in ["", "-journal", "-wal", "-shm"] {
+        let f = PathBuf::from(format!("{}{suffix}", path.display()));
+        match std::fs::remove_file(&f) {
+            Ok(()) => {}
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => return Err(io("cannot remove the unfinished copy", &f, e)),
+        }
+    }
+    Ok(())
+}
+
 /// Backs up through `store` to `dest`: written beside it as `.partial`,
 /// integrity-checked, then renamed into place.
-fn backup_to(store: &Store, dest: &Path) -> Result<()> {
+pub(super) fn backup_to(store: &Store, dest: &Path) -> Result<()> {
     let partial = dest.with_extension("db.partial");
-    if partial.exists() {
-        std::fs::remove_file(&partial).map_err(|e| io("cannot remove the unfinished copy", &partial, e))?;
-    }
+    remove_db_files(&partial)?;
     if let Err(e) = store.backup(&partial) {
-        let _ = std::fs::remove_file(&partial);
+        let _ = remove_db_files(&partial);
         return Err(e.into());
     }
     std::fs::rename(&partial, dest).map_err(|e| io("cannot put the copy in place at", dest, e))
@@ -177,7 +190,7 @@ pub(crate) fn restore_with(db_path: &Path, file: &Path, by: &str, now: Time, bus
     // does, so the file itself is only ever read.
     // not `.db`: a restore cut short leaves nothing that `backup --list` shows
     let staging = folder.join(format!("{}-restoring.partial", stem(db_path)));
-    let _ = std::fs::remove_file(&staging);
+    remove_db_files(&staging)?;
     let staged = stage(file, &staging);
     let result = staged.map_err(|e| refuse(e.to_string())).and_then(|()| {
         let kept = folder.join(format!("{}-before-restore-{}.db", stem(db_path), now.format("%Y%m%dT%H%M%SZ")));
@@ -206,9 +219,7 @@ pub(crate) fn restore_with(db_path: &Path, file: &Path, by: &str, now: Time, bus
         live.store.write(|db| db.record_restore(now, &file.display().to_string(), &kept.display().to_string(), &by))?;
         Ok(Restored { source: file.to_path_buf(), kept, schema_from })
     });
-    for suffix in ["", "-wal", "-shm"] {
-        let _ = std::fs::remove_file(format!("{}{suffix}", staging.display()));
-    }
+    let _ = remove_db_files(&staging);
     result
 }
 

@@ -201,9 +201,13 @@ impl Plant {
         Ok(r)
     }
 
-    /// Copies the database to `dest` with SQLite's online backup and checks the copy.
+    /// Copies the database to `dest` with SQLite's online backup and checks the
+    /// copy; it gets its name only once checked, so `dest` never holds half a copy.
     pub fn backup(&self, dest: &Path) -> Result<()> {
-        Ok(self.store.backup(dest)?)
+        if dest.exists() {
+            return Err(StoreError::Backup(format!("{} already exists; choose a new file", dest.display())).into());
+        }
+        backup::backup_to(&self.store, dest)
     }
 
     /// Every row of the database as text (for tests that prove nothing changed).

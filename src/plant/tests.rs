@@ -198,6 +198,13 @@ fn the_daily_backup_is_made_once_per_production_day_and_old_ones_go() {
     let mut p = plant_at(&path);
     let layout = LAYOUT.replace("[defaults]", "[store]\nkeep_backups = 2\n\n[defaults]");
     p.load_layout(&layout, "l.toml", t("2026-03-01T00:00:00Z")).unwrap();
+    // what a backup killed half-way leaves: never listed, and cleared before the next copy
+    let folder = backup_folder(&path);
+    std::fs::create_dir_all(&folder).unwrap();
+    for junk in ["p-2026-03-01.db.partial", "p-2026-03-01.db.partial-journal"] {
+        std::fs::write(folder.join(junk), b"half a copy").unwrap();
+    }
+    assert!(list_backups(&path).unwrap().is_empty());
     // day_starts_at 06:00: 05:59 on the 2nd is still the 1st's production day
     let first = backup_if_due(&path, t("2026-03-02T05:59:00Z")).unwrap().unwrap();
     assert!(first.ends_with("backups/p-2026-03-01.db"), "{}", first.display());
@@ -212,4 +219,7 @@ fn the_daily_backup_is_made_once_per_production_day_and_old_ones_go() {
     names.sort();
     assert_eq!(names, ["p-2026-03-03.db", "p-2026-03-04.db"]);
     assert!(list_backups(&path).unwrap().iter().all(|b| b.kind == BackupKind::Daily && b.bytes > 0));
+    let left: Vec<_> =
+        std::fs::read_dir(&folder).unwrap().map(|e| e.unwrap().file_name()).filter(|n| n.to_string_lossy().contains("partial")).collect();
+    assert!(left.is_empty(), "{left:?}");
 }
