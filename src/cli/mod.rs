@@ -4,6 +4,7 @@
 mod args;
 mod plan;
 mod print;
+mod report;
 
 use anyhow::{Context, Result, anyhow};
 use chrono::Utc;
@@ -140,6 +141,8 @@ pub fn run(cli: Cli) -> Result<()> {
                 println!("ok: {}", plant.path().display());
             }
         }
+        Command::Report(a) => report::report(&plant, a, now)?,
+        Command::Balance(a) => report::balance(&plant, a, now)?,
         Command::Demo(_) => unreachable!("handled above"),
         Command::Backup(a) => {
             plant.backup(&a.dest)?;

@@ -4,11 +4,13 @@
 //! Each write is one store transaction: checks run inside it, so a rejected or
 //! questioned entry, or a failed import, leaves the database as it was.
 
+mod balance;
 mod detail;
 mod forecast;
 mod import;
 mod plan;
 mod record;
+mod report;
 
 use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
@@ -17,6 +19,7 @@ pub use detail::{CellDetail, CircuitTrend};
 pub use import::ImportSummary;
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
+pub use report::{ReportPeriod, WrittenReport};
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
@@ -41,6 +44,8 @@ pub enum PlantError {
     Questioned(Vec<String>),
     #[error("cannot read {0}: {1}")]
     Read(PathBuf, std::io::Error),
+    #[error("cannot write {0}: {1}")]
+    Write(PathBuf, std::io::Error),
 }
 
 impl PlantError {

@@ -49,11 +49,11 @@ pub struct LoadRow {
     pub scrap_kg: Option<f64>,
 }
 
-const EVENT_COLS: &str =
+pub(super) const EVENT_COLS: &str =
     "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
      EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)";
 
-fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Event> {
+pub(super) fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Event> {
     let kind: String = r.get(1)?;
     Ok(Event {
         id: r.get(0)?,

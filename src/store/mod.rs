@@ -9,6 +9,7 @@ mod cells;
 mod events;
 mod migrations;
 mod readings;
+mod report;
 
 use rusqlite::{Connection, OpenFlags, TransactionBehavior};
 use std::path::{Path, PathBuf};
@@ -18,6 +19,7 @@ pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use events::{CropFigures, LoadRow, NewEvent};
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use readings::StoreCurve;
+pub use report::CropRow;
 
 use crate::domain::charge::Time;
 
