@@ -51,7 +51,7 @@ pub fn held_copper(f: &CellForecast, p: &CellParams) -> HeldCopper {
         _ => 0.0,
     };
     let n = f64::from(p.cathodes_per_cell);
-    let cathode_kg = f.cathode.as_ref().map_or(0.0, |c| (c.mass_kg + p.starter_sheet_kg) * n);
+    let cathode_kg = f.cathode.as_ref().map_or(0.0, |c| c.mass_kg * n + p.starter_sheets_kg());
     HeldCopper { anode_kg, cathode_kg }
 }
 

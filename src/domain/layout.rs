@@ -105,6 +105,12 @@ macro_rules! apply {
 }
 
 impl CellParams {
+    /// Copper a fresh set of cathodes brings into the cell as starter sheets, kg
+    /// (0 with permanent cathodes): part of every weighed crop, never plated.
+    pub fn starter_sheets_kg(&self) -> f64 {
+        self.starter_sheet_kg * f64::from(self.cathodes_per_cell)
+    }
+
     /// These parameters with `patch` laid over them.
     pub fn with(&self, patch: &ParamsPatch) -> CellParams {
         let mut p = self.clone();

@@ -109,7 +109,7 @@ impl Plant {
             let p = db.params_at(&cell.cell, to)?;
             if p.starter_sheet_kg > 0.0 {
                 let begun = db.crops_between(&cell.cell, from, to)?.into_iter().filter(|k| k.started_at > from).count();
-                cell.starter_in_kg = begun as f64 * p.starter_sheet_kg * f64::from(p.cathodes_per_cell);
+                cell.starter_in_kg = begun as f64 * p.starter_sheets_kg();
             }
         }
         let circuits = self.circuit_names()?;

@@ -215,7 +215,13 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
         }
         let Some(curve) = curve.as_ref() else { continue };
         let q = cell_charge(curve, &cuts, c.started_at, end)?;
-        figures.push(Some(CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) }));
+        // starter sheets are weighed with the crop but were never plated
+        let sheets = db.params_at(cell, c.started_at)?.starter_sheets_kg();
+        figures.push(Some(CropFigures {
+            charge_ah: q.total(),
+            estimated_ah: q.estimated,
+            efficiency: measured_efficiency(kg - sheets, q.total()),
+        }));
     }
     db.write_history(cell, &h, &figures)?;
     Ok(())
@@ -228,10 +234,11 @@ pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<(
     for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
         let cuts = db.cutouts(&cell, far_future())?;
         let q = cell_charge(&curve, &cuts, start, end)?;
+        let sheets = db.params_at(&cell, start)?.starter_sheets_kg();
         db.set_crop_figures(
             &cell,
             start,
-            CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) },
+            CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg - sheets, q.total()) },
         )?;
     }
     Ok(())

@@ -113,7 +113,7 @@ impl Plant {
                         .as_ref()
                         .and_then(|f| f.cells.first())
                         .and_then(|c| c.cathode.as_ref())
-                        .map(|k| (k.mass_kg + p.starter_sheet_kg) * f64::from(p.cathodes_per_cell));
+                        .map(|k| k.mass_kg * f64::from(p.cathodes_per_cell) + p.starter_sheets_kg());
                     let crop =
                         db.crops_between(&cell, e.at - Duration::seconds(1), e.at)?.into_iter().find(|k| k.harvest_event == Some(e.id));
                     let section = row.map(|c| c.section.clone()).unwrap_or_default();
