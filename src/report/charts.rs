@@ -87,7 +87,7 @@ fn bars(
     svg((HALF, 230), |root| {
         let n = names.len().max(1) as f64;
         let mut chart = ChartBuilder::on(root)
-            .caption(title, (FONT, 14))
+            .caption(title, (FONT, 16))
             .margin(6)
             .x_label_area_size(24)
             .y_label_area_size(44)
@@ -96,6 +96,7 @@ fn bars(
         let lab = |x: &f64| label(*x, names);
         chart
             .configure_mesh()
+            .label_style((FONT, 13))
             .x_labels(names.len().clamp(1, 20))
             .x_label_formatter(&lab)
             .y_labels(5)

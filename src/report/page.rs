@@ -10,10 +10,10 @@ use crate::domain::charge::Time;
 const CSS: &str = r#"
 @page { size: A4; margin: 12mm 11mm; }
 * { box-sizing: border-box; }
-body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 9pt; color: #1e1e1e; margin: 0 auto; max-width: 190mm; padding: 6mm 0; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 8.5pt; color: #1e1e1e; margin: 0 auto; max-width: 190mm; padding: 6mm 0; }
 h1 { font-size: 15pt; margin: 0 0 2mm; }
-h2 { font-size: 11.5pt; margin: 4mm 0 1.5mm; border-bottom: 1.5px solid #1e1e1e; }
-h3 { font-size: 9.5pt; margin: 3mm 0 1mm; }
+h2 { font-size: 11pt; margin: 3mm 0 1mm; border-bottom: 1.5px solid #1e1e1e; break-after: avoid; }
+h3 { font-size: 9pt; margin: 2mm 0 0.5mm; break-after: avoid; }
 p { margin: 1mm 0; }
 table { border-collapse: collapse; width: 100%; margin: 1mm 0 2mm; }
 th, td { text-align: left; padding: 0.6mm 1.5mm; border-bottom: 0.5px solid #bbb; vertical-align: top; }
@@ -35,7 +35,7 @@ td.t { white-space: nowrap; }
 section { break-inside: auto; }
 section.page { break-before: page; }
 section.page + section.flow { margin-top: 2mm; }
-table, tr, .advisory { break-inside: avoid; }
+tr, .advisory, .keep { break-inside: avoid; }
 @media print { body { padding: 0; max-width: none; } a { color: inherit; text-decoration: none; } }
 "#;
 
@@ -183,7 +183,7 @@ fn due_window(d: &ReportData, w: &DueWindow) -> Markup {
             @if !due.is_empty() {
                 ul.due {
                     @for x in due {
-                        li class=(if x.overdue { "bad" } else { "" }) { (x.cell) " · " (short(d, x.at)) @if x.overdue { " overdue" } }
+                        li class=(if x.overdue { "bad" } else { "" }) { (x.cell) " · " (short(d, x.at)) @if x.overdue { " late" } }
                     }
                 }
             }
@@ -194,7 +194,7 @@ fn due_window(d: &ReportData, w: &DueWindow) -> Markup {
 fn outlook(d: &ReportData) -> Markup {
     html! {
         section {
-            h2 { "Coming due (forecast as of " (clock(d, d.to)) ")" }
+            h2 { "Coming due (forecast as of " (clock(d, d.to)) "; late: already past its due time)" }
             @for w in &d.outlook { (due_window(d, w)) }
             h3 { "Thin anodes (" (d.thin_anodes.len()) ")" }
             @if d.thin_anodes.is_empty() { p.muted { "No cell's anodes are under its thickness limit." } } @else {
@@ -262,6 +262,7 @@ fn copper(d: &ReportData) -> Markup {
     let b = &d.balance;
     html! {
         section.flow {
+            div.keep {
             h2 { "Copper" }
             p {
                 "Copper plated in the refining cells (Faraday's law, the efficiencies in use): " strong { (format!("{:.2} t", d.plated_t)) }
@@ -279,6 +280,7 @@ fn copper(d: &ReportData) -> Markup {
                 "Residual = in − out − (in cells at the end − at the start): the copper gone into the electrolyte, or lost, or mis-weighed. "
                 "Faraday gain = anode copper dissolved − cathode copper deposited, from the charge. A residual far from it points at the weighings. "
                 "Liberator (inert-anode) cells are shown apart: the copper they took out of the electrolyte."
+            }
             }
             h2 { "Data warnings (" (d.warnings.len()) ")" }
             @if d.warnings.is_empty() { p.muted { "None." } } @else {
