@@ -144,3 +144,16 @@ fn hostile_names_are_escaped_everywhere_charts_included() {
     assert!(html.contains("&lt;svg onload=alert(1)&gt;: current, kA"), "the circuit's name, escaped, in the chart");
     assert!(html.contains("&lt;I&gt;"), "the initials, escaped");
 }
+
+#[test]
+fn a_report_at_the_first_instant_of_a_shift_is_an_empty_period() {
+    let tk = demo();
+    let out = tk.dir.path().join("start.html");
+    // 06:00 in Madrid (UTC+1): the day shift begins this instant
+    let run = tk.cmd().env("TANKBOOK_NOW", "2026-03-10T05:00:00Z").args(["report", "--out", out.to_str().expect("path")]).output();
+    let run = run.expect("run");
+    assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
+    let html = std::fs::read_to_string(&out).expect("written");
+    assert!(html.contains("Shift in progress: shift 1 of 2, production day 2026-03-10"));
+    assert!(html.contains("No harvests.") && html.contains("No anodes pulled."));
+}

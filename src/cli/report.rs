@@ -2,9 +2,11 @@
 //! copper balance of a period): parse the period, call the plant, print.
 
 use anyhow::{Context, Result};
+use std::fmt::Write as _;
+use std::io::Write as _;
 
 use super::args::{BalanceArgs, ReportArgs, ShiftArg};
-use crate::domain::balance::{Balance, CopperBalance};
+use crate::domain::balance::Balance;
 use crate::domain::charge::Time;
 use crate::plant::{Plant, ReportPeriod};
 
@@ -15,15 +17,22 @@ pub fn report(plant: &Plant, a: ReportArgs, now: Time) -> Result<()> {
         _ => ReportPeriod::CurrentShift,
     };
     let w = plant.write_report(which, &a.out, now).with_context(|| format!("writing the report to {}", a.out.display()))?;
-    println!(
-        "wrote {} ({}, {} to {}, {} bytes): open it in a browser to read or print it",
+    emit(&format!(
+        "wrote {} ({}, {} to {}, {} bytes): open it in a browser to read or print it\n",
         w.path.display(),
         w.title,
         plant.show_time(w.from),
         plant.show_time(w.to),
         w.bytes
-    );
-    Ok(())
+    ))
+}
+
+/// Writes to stdout; a reader that went away (`tankbook balance | head`) is not an error.
+fn emit(text: &str) -> Result<()> {
+    match std::io::stdout().lock().write_all(text.as_bytes()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        r => Ok(r?),
+    }
 }
 
 pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
@@ -37,26 +46,21 @@ pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
         None => now,
     };
     let b = plant.balance(from, to)?;
-    if a.json {
-        println!("{}", serde_json::to_string_pretty(&b)?);
-    } else {
-        print_balance(plant, &b);
-    }
-    Ok(())
+    if a.json { emit(&format!("{}\n", serde_json::to_string_pretty(&b)?)) } else { emit(&balance_table(plant, &b)) }
 }
 
-fn print_balance(plant: &Plant, b: &Balance) {
-    println!("copper balance from {} to {}, tonnes", plant.show_time(b.from), plant.show_time(b.to));
-    println!(
-        "{:<8} {:>9} {:>9} {:>9} {:>10} {:>10} {:>9} {:>9} {:>10} {:>10}",
-        "circuit", "in", "cathodes", "scrap", "cells at", "cells at", "residual", "Faraday", "liberators", "electrolyte"
-    );
-    println!(
-        "{:<8} {:>9} {:>9} {:>9} {:>10} {:>10} {:>9} {:>9} {:>10} {:>10}",
-        "", "", "out", "out", "start", "end", "", "gain", "took", "net"
-    );
-    let row = |c: &CopperBalance| {
-        println!(
+fn balance_table(plant: &Plant, b: &Balance) -> String {
+    let mut s = String::new();
+    let _ = writeln!(s, "copper balance from {} to {}, tonnes", plant.show_time(b.from), plant.show_time(b.to));
+    let head = |s: &mut String, cols: [&str; 10]| {
+        let [a, b, c, d, e, f, g, h, i, j] = cols;
+        let _ = writeln!(s, "{a:<8} {b:>9} {c:>9} {d:>9} {e:>10} {f:>10} {g:>9} {h:>9} {i:>10} {j:>10}");
+    };
+    head(&mut s, ["circuit", "in", "cathodes", "scrap", "cells at", "cells at", "residual", "Faraday", "liberators", "electrolyte"]);
+    head(&mut s, ["", "", "out", "out", "start", "end", "", "gain", "took", "net"]);
+    for c in b.circuits.iter().chain([&b.plant]) {
+        let _ = writeln!(
+            s,
             "{:<8} {:>9.3} {:>9.3} {:>9.3} {:>10.3} {:>10.3} {:>9.3} {:>9.3} {:>10.3} {:>10.3}",
             c.circuit,
             c.copper_in_t,
@@ -68,12 +72,9 @@ fn print_balance(plant: &Plant, b: &Balance) {
             c.faraday_electrolyte_t,
             c.liberator_taken_t,
             c.electrolyte_net_t
-        )
-    };
-    b.circuits.iter().for_each(row);
-    row(&b.plant);
-    println!("residual = in − out − (cells at end − cells at start): copper gone into the electrolyte, lost or mis-weighed;");
-    println!(
-        "Faraday gain = anode copper dissolved − cathode copper deposited, from the charge: a residual far from it points at the weighings."
-    );
+        );
+    }
+    s.push_str("residual = in − out − (cells at end − cells at start): copper gone into the electrolyte, lost or mis-weighed;\n");
+    s.push_str("Faraday gain = anode copper dissolved − cathode copper deposited, from the charge: a residual far from it points at the weighings.\n");
+    s
 }

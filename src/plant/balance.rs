@@ -24,15 +24,16 @@ impl Plant {
         Ok((month_start(&self.info()?.days, now), now))
     }
 
-    /// The copper balance of `(from, to]`, per circuit and for the plant. The
+    /// The copper balance of `(from, to]` (empty when `from == to`, as a shift
+    /// report made at the first instant of its shift), per circuit and for the plant. The
     /// copper held in the cells comes from [`Plant::forecast`] at `from` and at
     /// `to`, so it uses the efficiencies the forecast uses; the Faraday figure
     /// uses the cathode efficiency of the forecast at `to`.
     pub fn balance(&self, from: Time, to: Time) -> Result<Balance> {
-        if from >= to {
+        if from > to {
             return Err(PlantError::rejected(
                 "--from",
-                format!("the period must end after it starts ({} is not before {})", self.show_time(from), self.show_time(to)),
+                format!("the period must not end before it starts ({} is after {})", self.show_time(from), self.show_time(to)),
             ));
         }
         let start = self.forecast(from, None)?;
