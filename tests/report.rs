@@ -14,6 +14,13 @@ fn demo() -> Tk {
     tk
 }
 
+/// The demo at its default size (102 cells), at the same clock.
+fn full_demo() -> Tk {
+    let tk = Tk::new("2026-03-10T14:30:00Z");
+    tk.ok(&["demo", "--no-tui"]);
+    tk
+}
+
 fn report(tk: &Tk, args: &[&str]) -> String {
     let out = tk.dir.path().join("report.html");
     let out = out.to_str().expect("utf-8 path");
@@ -24,7 +31,7 @@ fn report(tk: &Tk, args: &[&str]) -> String {
 
 #[test]
 fn the_page_is_self_contained_with_its_charts_and_print_styles() {
-    let tk = demo();
+    let tk = full_demo();
     let html = report(&tk, &[]);
     let lower = html.to_lowercase();
     for outside in ["http://", "https://", "src=", "<link", "@import", "url(", "<script", "<iframe", "<object", "<embed"] {
@@ -46,9 +53,27 @@ fn the_page_is_self_contained_with_its_charts_and_print_styles() {
     assert!(html.contains("Shift in progress: shift 1 of 2, production day 2026-03-10"));
     assert!(html.contains("2026-03-10 06:00 to 2026-03-10 15:30"));
     assert!(html.contains("2026-03-10T14:30:00Z"));
+    assert!(html.contains("Due by the end of the next shift (shift 2 of 2, 2026-03-10)"));
+    assert!(html.contains("Due later in production day 2026-03-11"));
     for caution in ["advisory", "lock-out", "crane lifts", "acid handling", "local codes", "qualified engineers"] {
         assert!(lower.contains(caution), "the header carries the caution: {caution}");
     }
+    // what is due agrees with the forecast: every harvest due by the end of the next shift
+    // (2026-03-11 06:00 Madrid = 05:00 UTC) is listed at its due time on the plant's clock (UTC+1)
+    let f = tk.json(&["forecast", "--json"]);
+    let end = chrono::DateTime::parse_from_rfc3339("2026-03-11T05:00:00Z").expect("time");
+    let mut listed = 0;
+    for c in f["cells"].as_array().expect("cells") {
+        let Some(due) = c["cathode"]["harvest_due"].as_str() else { continue };
+        let due = chrono::DateTime::parse_from_rfc3339(due).expect("due");
+        if c["in_circuit"] == true && due <= end {
+            let local = (due + chrono::Duration::hours(1)).format("%m-%d %H:%M");
+            let line = format!("{} · {local}", c["cell"].as_str().expect("id"));
+            assert!(html.contains(&line), "{line} missing from the due list");
+            listed += 1;
+        }
+    }
+    assert!(listed > 0, "the demo has harvests due");
     for part in ["What the shift logged", "Harvests", "Anode changes", "Coming due", "Copper balance of the period", "Data warnings"] {
         assert!(html.contains(part), "missing {part}");
     }
@@ -86,6 +111,8 @@ fn the_last_shift_and_a_period_of_ones_own() {
     // the night shift of 2026-03-09: 18:00 to 06:00 Madrid time
     assert!(html.contains("Last shift: shift 2 of 2, production day 2026-03-09"), "title");
     assert!(html.contains("2026-03-09 18:00 to 2026-03-10 06:00"));
+    // what is due next is counted from the shift that follows it: the day shift of the 10th
+    assert!(html.contains("Due by the end of the next shift (shift 1 of 2, 2026-03-10)"), "next shift");
     let html = report(&tk, &["--from", "2026-03-08 06:00", "--to", "2026-03-10 06:00"]);
     assert!(html.contains("2026-03-08 06:00 to 2026-03-10 06:00"));
     // usage errors are exit 2; a bad period or a file that cannot be written exit 1 and change nothing

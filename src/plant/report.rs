@@ -321,7 +321,9 @@ impl Plant {
     fn outlook_windows(&self, f: &Forecast, to: Time) -> Result<Vec<DueWindow>> {
         let info = self.info()?;
         let n = info.plan.shifts_per_day;
-        let next = next_shift(&info.days, n, &shift_of(&info.days, n, to));
+        // the shift after the period: the one starting at `to` when the period ends on a shift change
+        let current = shift_of(&info.days, n, to);
+        let next = if current.start == to { current } else { next_shift(&info.days, n, &current) };
         let day_after = info.days.day_of(to).succ_opt().unwrap_or(info.days.day_of(to));
         let day_end = info.days.start_of(day_after.succ_opt().unwrap_or(day_after));
         let due = |a: Option<Time>, b: Time| -> Vec<DueLine> {

@@ -56,6 +56,7 @@ pub fn current(c: &CircuitPeriod, zone: &PlantZone, from: Time, to: Time) -> Res
         let mut chart = ChartBuilder::on(root)
             .caption(format!("{}: current, kA", c.name), (FONT, 14))
             .margin(6)
+            .margin_right(22)
             .x_label_area_size(22)
             .y_label_area_size(40)
             .build_cartesian_2d(0.0..span, 0.0..top)
