@@ -183,3 +183,19 @@ fn the_demo_plants_month_balance_closes_and_stays_near_faraday() {
     assert!((f(p, "residual_t") - f(p, "faraday_electrolyte_t")).abs() < 0.03 * out, "{p}");
     assert!(f(p, "liberator_taken_t") > 0.0);
 }
+
+#[test]
+fn starter_sheets_are_not_plated_copper_and_a_negative_sheet_is_refused() {
+    let tk = test_plant();
+    // S01's 779 kg went in without --force: 306 kg of it are starter sheets, so the crop
+    // plated 473 kg on 14 h × 30 kA, 473 / (ECE · 420 000 A·h) = 95.0 % (the layout's η_c)
+    let f = tk.json(&["forecast", "--cell", "S01", "--at", "2026-03-01T23:00:00Z", "--json"]);
+    let eta = f["cells"][0]["last_crop_efficiency"].as_f64().expect("measured efficiency");
+    assert!((eta - 473.0 / (ECE * 420_000.0)).abs() < 1e-9, "{eta}");
+    assert!((eta - 0.95).abs() < 0.001);
+    let bad = tk.file("bad.toml", &LAYOUT.replace("starter_sheet_kg = 6.0", "starter_sheet_kg = -6.0"));
+    let before = tk.dump();
+    let e = tk.fails(1, &["layout", "load", &bad]);
+    assert!(e.contains("starter_sheet_kg"), "{e}");
+    assert_eq!(tk.dump(), before);
+}

@@ -552,6 +552,17 @@ anode_kind = "inert"
     }
 
     #[test]
+    fn parameters_stored_before_starter_sheets_read_as_permanent_cathodes() {
+        let mut old = serde_json::to_value(CellParams::default()).unwrap();
+        old.as_object_mut().unwrap().remove("starter_sheet_kg");
+        let p: CellParams = serde_json::from_value(old).unwrap();
+        assert_eq!(p.starter_sheet_kg, 0.0);
+        assert_eq!(p.starter_sheets_kg(), 0.0);
+        let sheets = CellParams { starter_sheet_kg: 6.0, ..CellParams::default() };
+        assert_eq!(sheets.starter_sheets_kg(), 6.0 * 51.0);
+    }
+
+    #[test]
     fn cathodes_as_given_allows_a_different_count() {
         let text = GOOD.replacen("cathodes_per_cell = 41", "cathodes_per_cell = 40\ncathodes_as_given = true", 1);
         assert!(parse(&text).is_ok());
