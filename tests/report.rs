@@ -184,3 +184,17 @@ fn a_report_at_the_first_instant_of_a_shift_is_an_empty_period() {
     assert!(html.contains("Shift in progress: shift 1 of 2, production day 2026-03-10"));
     assert!(html.contains("No harvests.") && html.contains("No anodes pulled."));
 }
+
+#[test]
+fn the_screens_save_the_shift_report_beside_the_database() {
+    let tk = demo();
+    let plant = tankbook::plant::Plant::open(&tk.db).expect("open");
+    let now = chrono::DateTime::parse_from_rfc3339("2026-03-10T14:30:00Z").expect("time").to_utc();
+    let w = plant.save_shift_report(now).expect("saved");
+    assert_eq!(w.path, tk.dir.path().join("reports").join("shift-2026-03-10-1.html"));
+    let html = std::fs::read_to_string(&w.path).expect("written");
+    assert_eq!(html.len(), w.bytes);
+    assert!(html.contains("Shift in progress: shift 1 of 2, production day 2026-03-10"));
+    // the same as the command writes for the same shift and clock
+    assert_eq!(html, report(&tk, &[]));
+}

@@ -277,6 +277,16 @@ impl Plant {
         self.write_report(ReportPeriod::CurrentShift, path, now)
     }
 
+    /// Writes the report of the shift in progress into the folder `reports` beside
+    /// the database (made if need be), named after the shift, and says where: what a
+    /// key on the screens calls.
+    pub fn save_shift_report(&self, now: Time) -> Result<WrittenReport> {
+        let dir = self.path().parent().map_or_else(|| PathBuf::from("reports"), |d| d.join("reports"));
+        std::fs::create_dir_all(&dir).map_err(|e| PlantError::Write(dir.clone(), e))?;
+        let path = dir.join(self.report_file_name(ReportPeriod::CurrentShift, now)?);
+        self.write_report(ReportPeriod::CurrentShift, &path, now)
+    }
+
     /// A file name for a report of the period starting at `from`, e.g. `shift-2026-03-02-1.html`.
     pub fn report_file_name(&self, which: ReportPeriod, now: Time) -> Result<String> {
         let (from, _, _) = self.report_period(which, now)?;
