@@ -163,6 +163,8 @@ fn the_default_period_is_the_month_so_far_and_a_bad_period_is_refused() {
     let before = tk.dump();
     let e = tk.fails(1, &["balance", "--from", "2026-03-02T00:00:00Z", "--to", "2026-03-01T00:00:00Z"]);
     assert!(e.contains("--from"), "{e}");
+    let e = tk.fails(1, &["balance", "--to", "2026-03-03T00:00:00Z"]);
+    assert!(e.contains("--to") && e.contains("after now"), "{e}");
     let e = tk.fails(1, &["balance", "--from", "yesterday"]);
     assert!(e.contains("--from") && e.contains("not a time"), "{e}");
     assert_eq!(tk.dump(), before);

@@ -12,7 +12,11 @@ use crate::plant::{Plant, ReportPeriod};
 
 pub fn report(plant: &Plant, a: ReportArgs, now: Time) -> Result<()> {
     let which = match (&a.from, &a.to, a.shift) {
-        (Some(f), Some(t), _) => ReportPeriod::Between(plant.parse_time("--from", f)?, plant.parse_time("--to", t)?),
+        (Some(f), Some(t), _) => {
+            let to = plant.parse_time("--to", t)?;
+            not_ahead(plant, "--to", to, now)?;
+            ReportPeriod::Between(plant.parse_time("--from", f)?, to)
+        }
         (_, _, Some(ShiftArg::Last)) => ReportPeriod::LastShift,
         _ => ReportPeriod::CurrentShift,
     };
@@ -25,6 +29,18 @@ pub fn report(plant: &Plant, a: ReportArgs, now: Time) -> Result<()> {
         plant.show_time(w.to),
         w.bytes
     ))
+}
+
+/// A report or a balance covers what has happened: its end may not lie ahead of now.
+fn not_ahead(plant: &Plant, field: &str, t: Time, now: Time) -> Result<()> {
+    if t > now {
+        anyhow::bail!(
+            "{field}: {} is after now ({}): a report or a balance covers what has happened",
+            plant.show_time(t),
+            plant.show_time(now)
+        );
+    }
+    Ok(())
 }
 
 /// Writes to stdout; a reader that went away (`tankbook balance | head`) is not an error.
@@ -45,6 +61,7 @@ pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
         Some(s) => plant.parse_time("--to", s)?,
         None => now,
     };
+    not_ahead(plant, "--to", to, now)?;
     let b = plant.balance(from, to)?;
     if a.json { emit(&format!("{}\n", serde_json::to_string_pretty(&b)?)) } else { emit(&balance_table(plant, &b)) }
 }
