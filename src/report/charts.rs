@@ -50,7 +50,7 @@ fn label(i: f64, names: &[String]) -> String {
 
 /// A circuit's current over `[from, to]`, kA, with outages (red) and reading gaps (grey) shaded.
 pub fn current(c: &CircuitPeriod, zone: &PlantZone, from: Time, to: Time) -> Result<String, String> {
-    svg((W, 150), |root| {
+    svg((W, 135), |root| {
         let span = hours(from, to).max(0.25);
         let top = (c.points.iter().map(|p| p.amps).fold(0.0, f64::max).max(c.max_amps * 0.8) / 1000.0 * 1.1).max(1.0);
         let mut chart = ChartBuilder::on(root)
@@ -85,7 +85,7 @@ fn bars(
     reference: Option<f64>,
     fmt: &dyn Fn(&f64) -> String,
 ) -> Result<String, String> {
-    svg((HALF, 230), |root| {
+    svg((HALF, 215), |root| {
         let n = names.len().max(1) as f64;
         let mut chart = ChartBuilder::on(root)
             .caption(title, (FONT, 16))
@@ -154,7 +154,7 @@ pub fn crew(days: &[CrewDay]) -> Result<String, String> {
 
 /// Every refining cell's last crop efficiency, %; those under their limit in red.
 pub fn efficiency(cells: &[CellEfficiency]) -> Result<String, String> {
-    svg((W, 190), |root| {
+    svg((W, 175), |root| {
         let n = cells.len().max(1) as f64;
         let lo = cells.iter().map(|c| c.efficiency.min(c.low_below)).fold(1.0, f64::min) * 100.0;
         let hi = cells.iter().map(|c| c.efficiency).fold(0.0, f64::max).max(0.9) * 100.0;

@@ -8,9 +8,9 @@ use crate::domain::charge::Time;
 
 /// Screen and print styles, inline: A4 or Letter, each part on its own page.
 const CSS: &str = r#"
-@page { size: A4; margin: 12mm 11mm; }
+@page { margin: 10mm 10mm; }
 * { box-sizing: border-box; }
-body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 8.5pt; color: #1e1e1e; margin: 0 auto; max-width: 190mm; padding: 6mm 0; }
+body { font-family: "DejaVu Sans", "Liberation Sans", Arial, sans-serif; font-size: 8.5pt; line-height: 1.25; color: #1e1e1e; margin: 0 auto; max-width: 190mm; padding: 6mm 0; }
 h1 { font-size: 15pt; margin: 0 0 2mm; }
 h2 { font-size: 11pt; margin: 3mm 0 1mm; border-bottom: 1.5px solid #1e1e1e; break-after: avoid; }
 h3 { font-size: 9pt; margin: 2mm 0 0.5mm; break-after: avoid; }
@@ -196,10 +196,12 @@ fn outlook(d: &ReportData) -> Markup {
         section {
             h2 { "Coming due (forecast as of " (clock(d, d.to)) "; late: already past its due time)" }
             @for w in &d.outlook { (due_window(d, w)) }
-            h3 { "Thin anodes (" (d.thin_anodes.len()) ")" }
-            @if d.thin_anodes.is_empty() { p.muted { "No cell's anodes are under its thickness limit." } } @else {
-                p.bad { @for (i, (cell, mm)) in d.thin_anodes.iter().enumerate() { @if i > 0 { ", " } (cell) " " (format!("{mm:.1} mm")) } }
-                p { "Thin anodes can drop off their lugs: plan their change first." }
+            @if d.thin_anodes.is_empty() { p { strong { "Thin anodes: " } span.muted { "none; no cell's anodes are under its thickness limit." } } } @else {
+                p.bad {
+                    strong { "Thin anodes (" (d.thin_anodes.len()) "): " }
+                    @for (i, (cell, mm)) in d.thin_anodes.iter().enumerate() { @if i > 0 { ", " } (cell) " " (format!("{mm:.1} mm")) }
+                    ". They can drop off their lugs: change them first."
+                }
             }
         }
     }
