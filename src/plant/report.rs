@@ -72,7 +72,7 @@ impl Plant {
                 if a >= b {
                     return Err(PlantError::rejected("--from", "the period must end after it starts"));
                 }
-                (a, b, "Period".to_string())
+                (a, b, "Chosen period".to_string())
             }
         })
     }

@@ -61,7 +61,9 @@ pub fn current(c: &CircuitPeriod, zone: &PlantZone, from: Time, to: Time) -> Res
             .y_label_area_size(40)
             .build_cartesian_2d(0.0..span, 0.0..top)
             .map_err(err)?;
-        let clock = |h: &f64| zone.show(from + chrono::Duration::seconds((h * 3600.0) as i64))[11..].to_string();
+        // a shift needs only the time of day; a longer period the date too
+        let cut = if span > 24.0 { 5 } else { 11 };
+        let clock = |h: &f64| zone.show(from + chrono::Duration::seconds((h * 3600.0) as i64)).get(cut..).unwrap_or_default().to_string();
         chart.configure_mesh().x_labels(8).x_label_formatter(&clock).y_labels(5).light_line_style(WHITE).draw().map_err(err)?;
         let shade = |s: &crate::domain::charge::Span, color: RGBColor| {
             let (a, b) = (hours(from, s.from).max(0.0), hours(from, s.to).min(span));
