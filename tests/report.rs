@@ -158,6 +158,8 @@ fn hostile_names_are_escaped_everywhere_charts_included() {
         tk.ok(&["log", "anodes", "--cell", c, "--at", "2026-03-01T00:00:00Z", "--count", "50", "--mean-kg", "380", "--by", "<i>"]);
     }
     tk.ok(&["log", "harvest", "--cell", cell, "--at", "2026-03-01T20:00:00Z", "--total-kg", "680", "--by", "<i>"]);
+    let circuit = "<svg onload=alert(1)>";
+    tk.ok(&["log", "outage", "--circuit", circuit, "--from", "2026-03-01T10:00:00Z", "--to", "2026-03-01T11:00:00Z", "--by", "<i>"]);
     let html = report(&tk, &["--from", "2026-03-01T00:00:00Z", "--to", "2026-03-02T00:00:00Z"]);
     let lower = html.to_lowercase();
     for live in ["<script", "<img", "<svg onload", "<b>", "<i>"] {
@@ -170,6 +172,10 @@ fn hostile_names_are_escaped_everywhere_charts_included() {
     assert!(html.contains("&lt;img/src=x/onerror=alert(2)&gt;"), "the cell's name, escaped, in the tables");
     assert!(html.contains("&lt;svg onload=alert(1)&gt;: current, kA"), "the circuit's name, escaped, in the chart");
     assert!(html.contains("&lt;I&gt;"), "the initials, escaped");
+    // the outage is listed and shaded on the circuit's chart
+    assert!(html.contains("circuit down until 2026-03-01 11:00"));
+    assert!(html.contains("outages shaded red"));
+    assert_eq!(html.matches("opacity=\"0.25\" fill=\"#C8281E\"").count(), 1, "one outage shaded in red on the current chart");
 }
 
 #[test]
