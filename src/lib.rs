@@ -6,5 +6,6 @@ pub mod cli;
 pub mod demo;
 pub mod domain;
 pub mod plant;
+pub mod report;
 pub mod store;
 pub mod tui;

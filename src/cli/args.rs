@@ -43,6 +43,10 @@ pub enum Command {
     Backup(BackupArgs),
     /// Put a backup back in place of the database (the database as it was is kept in backups/)
     Restore(RestoreArgs),
+    /// The copper balance of a period (default: the month so far), per circuit and for the plant
+    Balance(BalanceArgs),
+    /// Write the shift handover report: one self-contained HTML file to print or mail
+    Report(ReportArgs),
     /// Write the invented demo plant (to its own database unless --db is given) and show it
     Demo(DemoArgs),
 }
@@ -281,4 +285,42 @@ pub struct RestoreArgs {
     /// Initials of who restores
     #[arg(long, env = "TANKBOOK_BY")]
     pub by: String,
+}
+
+#[derive(Debug, Args)]
+pub struct BalanceArgs {
+    /// Start of the period (default: the start of the month's first production day)
+    #[arg(long)]
+    pub from: Option<String>,
+    /// End of the period (default: now)
+    #[arg(long)]
+    pub to: Option<String>,
+    /// JSON output (schema 1)
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Which shift a report covers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum ShiftArg {
+    /// The shift in progress, from its start up to now
+    Current,
+    /// The last whole shift before the one in progress
+    Last,
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// The shift to report (shifts from the layout's day_starts_at and [plan] shifts_per_day)
+    #[arg(long, value_enum, conflicts_with_all = ["from", "to"])]
+    pub shift: Option<ShiftArg>,
+    /// Start of a period of your own (with --to)
+    #[arg(long, requires = "to")]
+    pub from: Option<String>,
+    /// End of a period of your own (with --from)
+    #[arg(long, requires = "from")]
+    pub to: Option<String>,
+    /// The HTML file to write
+    #[arg(long, value_name = "FILE.html")]
+    pub out: PathBuf,
 }

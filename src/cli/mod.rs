@@ -4,6 +4,7 @@
 mod args;
 mod plan;
 mod print;
+mod report;
 
 use anyhow::{Context, Result, anyhow};
 use chrono::Utc;
@@ -156,6 +157,8 @@ pub fn run(cli: Cli) -> Result<()> {
             }
             None => backups(&plant, a.json)?,
         },
+        Command::Report(a) => report::report(&plant, a, now)?,
+        Command::Balance(a) => report::balance(&plant, a, now)?,
     }
     if writes {
         daily_backup(&plant, now);

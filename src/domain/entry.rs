@@ -141,7 +141,7 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
                     format!("{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg", p.cathodes_per_cell),
                 );
             }
-            if let Some(eff) = cx.crop_charge_ah.and_then(|q| measured_efficiency(*total_kg, q)) {
+            if let Some(eff) = cx.crop_charge_ah.and_then(|q| measured_efficiency(*total_kg - p.starter_sheets_kg(), q)) {
                 let (lo, hi) = HARVEST_EFFICIENCY_PLAUSIBLE;
                 if eff > hi {
                     q.push(format!("{total_kg} kg is heavier than the charge allows: it implies {:.1} % current efficiency", eff * 100.0));

@@ -38,6 +38,11 @@ pub struct CellParams {
     pub anode_kind: AnodeKind,
     pub voltage_min: f64,
     pub voltage_max: f64,
+    /// Mass of one copper starter sheet, kg: copper that goes into the cell with
+    /// each fresh cathode (0 for permanent stainless-steel cathodes). Parameters
+    /// stored before this key existed read as 0.
+    #[serde(default)]
+    pub starter_sheet_kg: f64,
 }
 
 impl Default for CellParams {
@@ -64,6 +69,7 @@ impl Default for CellParams {
             // 0.25–0.35 V is normal (DOMAIN.md, from memory); wider bounds flag only the implausible.
             voltage_min: 0.10,
             voltage_max: 0.70,
+            starter_sheet_kg: 0.0,
         }
     }
 }
@@ -91,6 +97,7 @@ pub struct ParamsPatch {
     pub anode_kind: Option<AnodeKind>,
     pub voltage_min: Option<f64>,
     pub voltage_max: Option<f64>,
+    pub starter_sheet_kg: Option<f64>,
 }
 
 macro_rules! apply {
@@ -98,6 +105,12 @@ macro_rules! apply {
 }
 
 impl CellParams {
+    /// Copper a fresh set of cathodes brings into the cell as starter sheets, kg
+    /// (0 with permanent cathodes): part of every weighed crop, never plated.
+    pub fn starter_sheets_kg(&self) -> f64 {
+        self.starter_sheet_kg * f64::from(self.cathodes_per_cell)
+    }
+
     /// These parameters with `patch` laid over them.
     pub fn with(&self, patch: &ParamsPatch) -> CellParams {
         let mut p = self.clone();
@@ -121,7 +134,8 @@ impl CellParams {
             low_efficiency_below,
             anode_kind,
             voltage_min,
-            voltage_max
+            voltage_max,
+            starter_sheet_kg
         );
         if patch.crops_per_anode_cycle.is_some() {
             p.crops_per_anode_cycle = patch.crops_per_anode_cycle;
@@ -175,6 +189,12 @@ impl CellParams {
             if !(x > 0.0 && x.is_finite()) {
                 v.push((name, format!("{name} is {x}: it must be a positive number")));
             }
+        }
+        if !(self.starter_sheet_kg >= 0.0 && self.starter_sheet_kg.is_finite()) {
+            v.push((
+                "starter_sheet_kg",
+                format!("starter_sheet_kg is {}: it must be zero (permanent cathodes) or more", self.starter_sheet_kg),
+            ));
         }
         if !(self.lug_kg >= 0.0 && self.lug_kg.is_finite()) {
             v.push(("lug_kg", format!("lug_kg is {}: it must be zero or more", self.lug_kg)));
@@ -554,6 +574,17 @@ anode_kind = "inert"
             assert!(e.to_string().contains(needle), "{to}: {e}");
             assert!(e.line.is_some(), "{to}: {e}");
         }
+    }
+
+    #[test]
+    fn parameters_stored_before_starter_sheets_read_as_permanent_cathodes() {
+        let mut old = serde_json::to_value(CellParams::default()).unwrap();
+        old.as_object_mut().unwrap().remove("starter_sheet_kg");
+        let p: CellParams = serde_json::from_value(old).unwrap();
+        assert_eq!(p.starter_sheet_kg, 0.0);
+        assert_eq!(p.starter_sheets_kg(), 0.0);
+        let sheets = CellParams { starter_sheet_kg: 6.0, ..CellParams::default() };
+        assert_eq!(sheets.starter_sheets_kg(), 6.0 * 51.0);
     }
 
     #[test]

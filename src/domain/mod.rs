@@ -2,6 +2,7 @@
 //! terminal and no clock (every "now" is passed in).
 
 pub mod anode;
+pub mod balance;
 pub mod cathode;
 pub mod charge;
 pub mod electrochem;
@@ -13,3 +14,4 @@ pub mod levelling;
 pub mod outlook;
 pub mod plan;
 pub mod plant_time;
+pub mod shift;

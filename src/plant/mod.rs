@@ -5,11 +5,13 @@
 //! questioned entry, or a failed import, leaves the database as it was.
 
 mod backup;
+mod balance;
 mod detail;
 mod forecast;
 mod import;
 mod plan;
 mod record;
+mod report;
 
 use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
@@ -19,6 +21,7 @@ pub use detail::{CellDetail, CircuitTrend};
 pub use import::{CurrentRows, ImportSummary, parse_current_csv};
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
+pub use report::{ReportPeriod, WrittenReport};
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
@@ -57,6 +60,8 @@ pub enum PlantError {
     Internal(String),
     #[error("{file} cannot be restored: {why}. Nothing was changed")]
     NotRestorable { file: PathBuf, why: String },
+    #[error("cannot write {0}: {1}")]
+    Write(PathBuf, std::io::Error),
 }
 
 /// How many damaged entries a refusal names (`check` lists all of them).
@@ -279,7 +284,13 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
         }
         let Some(curve) = curve.as_ref() else { continue };
         let q = cell_charge(curve, &cuts, c.started_at, end)?;
-        figures.push(Some(CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) }));
+        // starter sheets are weighed with the crop but were never plated
+        let sheets = db.params_at(cell, c.started_at)?.starter_sheets_kg();
+        figures.push(Some(CropFigures {
+            charge_ah: q.total(),
+            estimated_ah: q.estimated,
+            efficiency: measured_efficiency(kg - sheets, q.total()),
+        }));
     }
     db.write_history(cell, &h, &figures)?;
     Ok(())
@@ -292,10 +303,11 @@ pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<(
     for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
         let cuts = db.cutouts(&cell, far_future())?;
         let q = cell_charge(&curve, &cuts, start, end)?;
+        let sheets = db.params_at(&cell, start)?.starter_sheets_kg();
         db.set_crop_figures(
             &cell,
             start,
-            CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg, q.total()) },
+            CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg - sheets, q.total()) },
         )?;
     }
     Ok(())

@@ -49,13 +49,13 @@ pub struct LoadRow {
     pub scrap_kg: Option<f64>,
 }
 
-const EVENT_COLS: &str =
+pub(super) const EVENT_COLS: &str =
     "e.id, e.kind, e.cell_id, c.name, e.at, e.end_at, e.count, e.kg, e.amps, e.volts, e.logged_by, e.forced, e.recorded_at, e.voids,
      EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id)";
 
 /// One event row. A kind this version does not know, or a time that does not
 /// decode, is [`Damage`] naming the entry: never replayed as something else.
-fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Result<Event, Damage>> {
+pub(super) fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Result<Event, Damage>> {
     let id: i64 = r.get(0)?;
     let kind: String = r.get(1)?;
     let Some(kind) = EventKind::from_name(&kind) else { return Ok(Err(Damage::UnknownKind { entry: id, kind })) };
@@ -93,7 +93,7 @@ fn event(r: &rusqlite::Row<'_>) -> rusqlite::Result<Result<Event, Damage>> {
 }
 
 /// The rows' events, or the first damaged one's [`StoreError::Damaged`].
-fn decoded(rows: impl Iterator<Item = rusqlite::Result<Result<Event, Damage>>>) -> Result<Vec<Event>> {
+pub(super) fn decoded(rows: impl Iterator<Item = rusqlite::Result<Result<Event, Damage>>>) -> Result<Vec<Event>> {
     let mut out = Vec::new();
     for r in rows {
         out.push(r?.map_err(StoreError::Damaged)?);

@@ -9,6 +9,7 @@ mod cells;
 mod events;
 mod migrations;
 mod readings;
+mod report;
 
 use rusqlite::{Connection, OpenFlags, TransactionBehavior};
 use std::path::{Path, PathBuf};
@@ -22,6 +23,7 @@ pub use events::{CropFigures, LoadRow, NewEvent};
 const OUR_TABLES: [&str; 4] = ["plant_meta", "circuit", "reading", "event"];
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use readings::StoreCurve;
+pub use report::CropRow;
 
 use crate::domain::charge::Time;
 
