@@ -42,8 +42,8 @@ pub struct DemoSummary {
     pub to: Time,
 }
 
-/// The demo plant's name; a database whose plant is not named so is never overwritten.
-pub const DEMO_NAME: &str = "Vega Refinery (demo)";
+/// The demo plant's name (kept in the plant layer, which skips the demo's backups).
+pub use crate::plant::DEMO_NAME;
 
 /// SplitMix64: small, fast and the same on every machine, which is all a demo needs.
 struct Rng(u64);

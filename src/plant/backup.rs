@@ -98,7 +98,7 @@ pub fn backup_if_due(db_path: &Path, now: Time) -> Result<Option<PathBuf>> {
     let store = Store::open(db_path)?;
     let Some(info) = store.db().plant_info()? else { return Ok(None) };
     // the demo is rewritten at will and needs no history of copies
-    if info.name == crate::demo::DEMO_NAME {
+    if info.name == super::DEMO_NAME {
         return Ok(None);
     }
     let folder = backup_folder(db_path);

@@ -75,6 +75,10 @@ impl PlantError {
 
 pub type Result<T, E = PlantError> = std::result::Result<T, E>;
 
+/// The demo plant's name: a database whose plant is not named so is never
+/// overwritten by `tankbook demo`, and one that is gets no daily backups.
+pub const DEMO_NAME: &str = "Vega Refinery (demo)";
+
 /// Who records and when: the foreman's initials, whether a questioned entry is
 /// accepted anyway, and the clock reading the entry is stamped with.
 #[derive(Debug, Clone, PartialEq)]
