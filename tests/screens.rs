@@ -11,6 +11,7 @@ use tankbook::demo::{DemoSpec, build};
 use tankbook::domain::charge::Time;
 use tankbook::plant::Plant;
 use tankbook::tui::app::{Action, Overlay, View};
+use tankbook::tui::form::FieldKey;
 use tankbook::tui::keys::Key;
 use tankbook::tui::{Session, draw};
 
@@ -382,4 +383,31 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
     f.s.press(Key::Esc);
     f.s.press(Key::Char('z'));
     assert!(f.s.app.plan_moves.is_empty());
+}
+
+#[test]
+fn a_bad_crop_weight_in_the_anode_change_form_is_shown_beside_the_crop_field() {
+    let mut f = session();
+    start(&mut f);
+    let due =
+        f.s.app.cells.iter().find(|c| c.anode.as_ref().and_then(|a| a.pull_due).is_some_and(|t| t < f.s.app.day_end())).unwrap().clone();
+    f.s.type_str(&format!("/{}", due.cell));
+    f.s.press(Key::Enter);
+    let a = due.anode.as_ref().unwrap();
+    let scrap = format!("{:.0}", a.remaining_kg * f64::from(a.count));
+    f.s.type_str("na");
+    f.s.type_str(&scrap);
+    f.s.press(Key::Tab);
+    // a plausible scrap and an impossible crop: over 300 kg a cathode for 51 cathodes
+    f.s.type_str("99999");
+    f.s.press(Key::Tab);
+    f.s.press(Key::Tab);
+    f.s.type_str("381");
+    f.s.press(Key::Enter);
+    let Some(Overlay::Form(form)) = &f.s.app.overlay else { panic!("{:?}", f.s.app.overlay) };
+    let err = |k: FieldKey| form.fields.iter().find(|x| x.key == k).unwrap().error.clone();
+    assert!(err(FieldKey::CropKg).is_some_and(|e| e.contains("at most 15300")), "{form:?}");
+    assert_eq!(err(FieldKey::TotalKg), None, "the scrap weight was fine");
+    assert_eq!(form.fields[form.focus].key, FieldKey::CropKg, "the cursor goes to the crop field");
+    assert!(screen(&f.s, 80, 24).contains("✗ 99999 kg is out of range"));
 }

@@ -15,8 +15,8 @@ pub use args::{Cli, Command};
 use args::{ImportCmd, LayoutCmd, LogCmd, Who};
 
 use crate::domain::charge::Time;
-use crate::domain::entry::Entry;
-use crate::plant::{Opts, Plant};
+use crate::domain::entry::{Entry, Field};
+use crate::plant::{Opts, Plant, PlantError};
 
 /// The clock: `TANKBOOK_NOW` (RFC 3339) when set, for demos and tests; else the system clock.
 pub fn now() -> Result<Time> {
@@ -47,10 +47,43 @@ pub fn main() -> ExitCode {
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("tankbook: {e:#}");
+            eprintln!("tankbook: {}", message(&e));
             ExitCode::from(1)
         }
     }
+}
+
+/// The command-line option that sets an entry field.
+pub fn option(field: Field) -> &'static str {
+    match field {
+        Field::Cell => "--cell",
+        Field::Circuit => "--circuit",
+        Field::At => "--at",
+        Field::From => "--from",
+        Field::To => "--to",
+        Field::TotalKg => "--total-kg",
+        Field::Count => "--count",
+        Field::MeanKg => "--mean-kg",
+        Field::Amps => "--amps",
+        Field::Volts => "--volts",
+        Field::By => "--by",
+        Field::Event => "EVENT",
+    }
+}
+
+/// An error as the command line says it: each cause in turn, a refused entry
+/// naming the option the user typed.
+fn message(e: &anyhow::Error) -> String {
+    e.chain()
+        .map(|cause| match cause.downcast_ref::<PlantError>() {
+            Some(PlantError::Rejected { field, entry, message }) => {
+                let place = entry.map_or(String::new(), |i| format!("entry {} of the batch, ", i + 1));
+                format!("{place}{}: {message}", option(*field))
+            }
+            _ => cause.to_string(),
+        })
+        .collect::<Vec<_>>()
+        .join(": ")
 }
 
 fn open(db: &Option<PathBuf>) -> Result<Plant> {
@@ -112,7 +145,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Events(a) => print::events(&plant, a.cell.as_deref(), a.limit, a.json)?,
         Command::Forecast(a) => {
             let as_of = match &a.at {
-                Some(s) => plant.parse_time("--at", s)?,
+                Some(s) => plant.parse_time(Field::At, s)?,
                 None => now,
             };
             let f = plant.forecast(as_of, a.cell.as_deref())?;
@@ -200,21 +233,21 @@ fn screens(plant: Plant) -> Result<()> {
 }
 
 fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
-    let t = |field: &str, s: &str| plant.parse_time(field, s);
+    let t = |field: Field, s: &str| plant.parse_time(field, s);
     Ok(match cmd {
-        LogCmd::Anodes { cell, at, count, mean_kg, who } => (Entry::Anodes { cell, at: t("--at", &at)?, count, mean_kg }, who),
-        LogCmd::Harvest { cell, at, total_kg, who } => (Entry::Harvest { cell, at: t("--at", &at)?, total_kg }, who),
-        LogCmd::Scrap { cell, at, total_kg, who } => (Entry::Scrap { cell, at: t("--at", &at)?, total_kg }, who),
+        LogCmd::Anodes { cell, at, count, mean_kg, who } => (Entry::Anodes { cell, at: t(Field::At, &at)?, count, mean_kg }, who),
+        LogCmd::Harvest { cell, at, total_kg, who } => (Entry::Harvest { cell, at: t(Field::At, &at)?, total_kg }, who),
+        LogCmd::Scrap { cell, at, total_kg, who } => (Entry::Scrap { cell, at: t(Field::At, &at)?, total_kg }, who),
         LogCmd::Cutout { cell, from, to, who } => {
             let to = match to {
-                Some(s) => Some(t("--to", &s)?),
+                Some(s) => Some(t(Field::To, &s)?),
                 None => None,
             };
-            (Entry::Cutout { cell, from: t("--from", &from)?, to }, who)
+            (Entry::Cutout { cell, from: t(Field::From, &from)?, to }, who)
         }
-        LogCmd::Outage { circuit, from, to, who } => (Entry::Outage { circuit, from: t("--from", &from)?, to: t("--to", &to)? }, who),
-        LogCmd::Shorts { cell, at, count, who } => (Entry::Shorts { cell, at: t("--at", &at)?, count }, who),
-        LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t("--from", &from)?, amps }, who),
-        LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t("--at", &at)?, volts }, who),
+        LogCmd::Outage { circuit, from, to, who } => (Entry::Outage { circuit, from: t(Field::From, &from)?, to: t(Field::To, &to)? }, who),
+        LogCmd::Shorts { cell, at, count, who } => (Entry::Shorts { cell, at: t(Field::At, &at)?, count }, who),
+        LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t(Field::From, &from)?, amps }, who),
+        LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t(Field::At, &at)?, volts }, who),
     })
 }

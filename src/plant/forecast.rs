@@ -5,6 +5,7 @@ use std::collections::HashMap;
 
 use super::{Plant, PlantError, Result};
 use crate::domain::charge::{GAP_WARNING, Time};
+use crate::domain::entry::Field;
 use crate::domain::forecast::{CellInput, Forecast, Warning, forecast_cell};
 use crate::store::{Db, StoreCurve};
 
@@ -20,7 +21,7 @@ impl Plant {
         if let Some(id) = only_cell {
             cells.retain(|c| c.id == id);
             if cells.is_empty() {
-                return Err(PlantError::rejected("--cell", format!("unknown cell {id}: it is not in the layout")));
+                return Err(PlantError::rejected(Field::Cell, format!("unknown cell {id}: it is not in the layout")));
             }
         }
         let params = db.params_at_all(as_of)?;

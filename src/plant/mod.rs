@@ -20,6 +20,7 @@ pub use record::Recorded;
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
+use crate::domain::entry::Field;
 use crate::domain::history::{Contradiction, replay};
 use crate::domain::layout;
 use crate::store::{CellRow, CropFigures, Db, LayoutSummary, PlantInfo, Store, StoreCurve, StoreError};
@@ -35,17 +36,40 @@ pub enum PlantError {
     Layout { file: String, source: layout::LayoutError },
     #[error("{file} line {line}, field {field}: {message}")]
     Input { file: String, line: u64, field: String, message: String },
-    #[error("{field}: {message}")]
-    Rejected { field: String, message: String },
+    /// An entry refused: the field it names and, in a batch, the entry's position (0-based).
+    #[error("{}{field}: {message}", place(*.entry))]
+    Rejected { field: Field, entry: Option<usize>, message: String },
+    /// A setting refused that is no entry field: a plan option (`--days`, `--move`)
+    /// or a layout key (`plan.crew_cells_per_day`), named as the user wrote it.
+    #[error("{name}: {message}")]
+    Setting { name: String, message: String },
     #[error("this entry needs a second look: {}. Check it, then repeat with --force to record it anyway", .0.join("; "))]
     Questioned(Vec<String>),
     #[error("cannot read {0}: {1}")]
     Read(PathBuf, std::io::Error),
 }
 
+fn place(entry: Option<usize>) -> String {
+    entry.map_or(String::new(), |i| format!("entry {} of the batch, ", i + 1))
+}
+
 impl PlantError {
-    fn rejected(field: &str, message: impl Into<String>) -> Self {
-        PlantError::Rejected { field: field.to_string(), message: message.into() }
+    /// A refused entry (not in a batch) naming its field.
+    pub fn rejected(field: Field, message: impl Into<String>) -> Self {
+        PlantError::Rejected { field, entry: None, message: message.into() }
+    }
+
+    /// A refused setting (a plan option or a layout key).
+    pub fn setting(name: impl Into<String>, message: impl Into<String>) -> Self {
+        PlantError::Setting { name: name.into(), message: message.into() }
+    }
+
+    /// The same error, placed at entry `i` of a batch (only rejections carry it).
+    pub fn in_batch(self, i: usize) -> Self {
+        match self {
+            PlantError::Rejected { field, message, .. } => PlantError::Rejected { field, entry: Some(i), message },
+            e => e,
+        }
     }
 }
 
@@ -98,7 +122,7 @@ impl Plant {
     }
 
     /// Parses a time as a foreman types it (RFC 3339 or local `YYYY-MM-DD HH:MM`).
-    pub fn parse_time(&self, field: &str, s: &str) -> Result<Time> {
+    pub fn parse_time(&self, field: Field, s: &str) -> Result<Time> {
         let zone = self.info()?.days.zone;
         zone.parse_time(s).map_err(|e| PlantError::rejected(field, e.to_string()))
     }
@@ -183,10 +207,10 @@ pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
 
 /// The rebuild itself; `reuse = false` recomputes every crop (for `check`).
 fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
-    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected(Field::Cell, format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
-    let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected("--at", message))?;
+    let h = replay(&events, |t| zone.show(t)).map_err(|Contradiction { message, .. }| PlantError::rejected(Field::At, message))?;
     let cuts: Vec<OpenSpan> = h.cutouts.iter().map(|c| c.span).collect();
     let old_cuts = db.cutouts(cell, far_future())?;
     let changed: Vec<OpenSpan> =

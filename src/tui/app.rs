@@ -4,10 +4,10 @@
 
 use chrono::{Duration, NaiveDate};
 
-use super::form::{FieldKey, Form, FormContext, FormKind, MENU, Submission};
+use super::form::{Form, FormContext, FormKind, MENU, Submission, form_field};
 use super::keys::Key;
 use crate::domain::charge::Time;
-use crate::domain::entry::Entry;
+use crate::domain::entry::{Entry, Field};
 use crate::domain::forecast::{CellForecast, Forecast, Warning};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::plan::Plan;
@@ -780,9 +780,19 @@ impl App {
             Err(CheckVerdict::Questioned(questions)) => {
                 self.overlay = Some(Overlay::Review(Review { form, entries, reading: None, summary, questions, forced: false }))
             }
-            Err(CheckVerdict::Rejected { field, message }) => {
-                match form.fields.iter_mut().find(|f| f.key.option() == field || (field == "--cell" && f.key == FieldKey::Cells)) {
-                    Some(f) => f.error = Some(message.clone()),
+            Err(CheckVerdict::Rejected { field, entry, message }) => {
+                let rejected = entry.and_then(|i| entries.get(i)).map(|(e, _)| e);
+                // in a form for several cells, say which cell's entry it was
+                let message = match rejected.and_then(|e| e.cell()) {
+                    Some(cell) if entries.iter().filter_map(|(e, _)| e.cell()).any(|c| c != cell) => format!("{cell}: {message}"),
+                    _ => message,
+                };
+                let key = field.and_then(|f| form_field(form.kind, rejected.map(|e| e.kind()), f));
+                match key.and_then(|k| form.fields.iter().position(|f| f.key == k)) {
+                    Some(i) => {
+                        form.fields[i].error = Some(message.clone());
+                        form.focus = i;
+                    }
                     None => form.message = Some(message.clone()),
                 }
                 self.warn(message);
@@ -870,7 +880,13 @@ impl App {
 #[derive(Debug, Clone, PartialEq)]
 pub enum CheckVerdict {
     Questioned(Vec<String>),
-    Rejected { field: String, message: String },
+    /// The entry field the plant names (none for a refusal of the whole entry)
+    /// and the rejected entry's position in the batch.
+    Rejected {
+        field: Option<Field>,
+        entry: Option<usize>,
+        message: String,
+    },
 }
 
 /// One line saying what an entry records.

@@ -2,7 +2,8 @@
 //! and checked as it is typed, and how a filled form becomes entries.
 
 use crate::domain::charge::Time;
-use crate::domain::entry::Entry;
+use crate::domain::entry::{Entry, Field as EntryField};
+use crate::domain::history::EventKind;
 use crate::domain::plant_time::PlantZone;
 
 /// The kinds of entry a form records.
@@ -103,22 +104,29 @@ impl FieldKey {
             FieldKey::Volts => "V",
         }
     }
+}
 
-    /// The command-line option a plant message names for this field.
-    pub fn option(self) -> &'static str {
-        match self {
-            FieldKey::Cells => "--cell",
-            FieldKey::Circuit => "--circuit",
-            FieldKey::At => "--at",
-            FieldKey::From => "--from",
-            FieldKey::To => "--to",
-            FieldKey::TotalKg | FieldKey::CropKg => "--total-kg",
-            FieldKey::Count => "--count",
-            FieldKey::MeanKg => "--mean-kg",
-            FieldKey::Amps => "--amps",
-            FieldKey::Volts => "--volts",
-        }
-    }
+/// The form field that typed an entry field: a form of `kind` made the rejected
+/// entry (of `entry` kind) and the plant names `field`. An anode change's crop
+/// is its harvest entry's weight, its scrap the scrap entry's weight.
+pub fn form_field(kind: FormKind, entry: Option<EventKind>, field: EntryField) -> Option<FieldKey> {
+    Some(match (kind, entry, field) {
+        (_, _, EntryField::Cell) => FieldKey::Cells,
+        (_, _, EntryField::Circuit) => FieldKey::Circuit,
+        (FormKind::AnodeChange, Some(EventKind::Harvest), EntryField::TotalKg) => FieldKey::CropKg,
+        (_, _, EntryField::TotalKg) => FieldKey::TotalKg,
+        (_, _, EntryField::Count) => FieldKey::Count,
+        (_, _, EntryField::MeanKg) => FieldKey::MeanKg,
+        (_, _, EntryField::Amps) => FieldKey::Amps,
+        (_, _, EntryField::Volts) => FieldKey::Volts,
+        // a cut-out's start is its "at": the forms that type it call it From
+        (FormKind::CutoutStart | FormKind::Outage | FormKind::Setpoint, _, EntryField::At | EntryField::From) => FieldKey::From,
+        (FormKind::CutoutEnd, _, EntryField::At | EntryField::To) => FieldKey::To,
+        (_, _, EntryField::At) => FieldKey::At,
+        (_, _, EntryField::From) => FieldKey::From,
+        (_, _, EntryField::To) => FieldKey::To,
+        (_, _, EntryField::By | EntryField::Event) => return None,
+    })
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -381,6 +389,16 @@ mod tests {
         assert!(parse_cells("A03-A01", &ids()).unwrap_err().contains("backwards"));
         assert!(parse_cells("A09", &ids()).unwrap_err().contains("no cell"));
         assert!(parse_cells("A01,A01", &ids()).unwrap_err().contains("twice"));
+    }
+
+    #[test]
+    fn a_rejection_lands_on_the_field_that_typed_it() {
+        let crop = form_field(FormKind::AnodeChange, Some(EventKind::Harvest), EntryField::TotalKg);
+        assert_eq!(crop, Some(FieldKey::CropKg));
+        let scrap = form_field(FormKind::AnodeChange, Some(EventKind::Scrap), EntryField::TotalKg);
+        assert_eq!(scrap, Some(FieldKey::TotalKg));
+        assert_eq!(form_field(FormKind::CutoutStart, Some(EventKind::Cutout), EntryField::At), Some(FieldKey::From));
+        assert_eq!(form_field(FormKind::Harvest, None, EntryField::By), None);
     }
 
     #[test]

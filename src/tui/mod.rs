@@ -130,8 +130,10 @@ impl Session {
                 let verdict = match plant.check_batch(&batch) {
                     Ok(_) => Ok(()),
                     Err(PlantError::Questioned(q)) => Err(CheckVerdict::Questioned(q)),
-                    Err(PlantError::Rejected { field, message }) => Err(CheckVerdict::Rejected { field, message }),
-                    Err(e) => Err(CheckVerdict::Rejected { field: String::new(), message: e.to_string() }),
+                    Err(PlantError::Rejected { field, entry, message }) => {
+                        Err(CheckVerdict::Rejected { field: Some(field), entry, message })
+                    }
+                    Err(e) => Err(CheckVerdict::Rejected { field: None, entry: None, message: e.to_string() }),
                 };
                 app.checked(batch, verdict);
                 None
