@@ -197,11 +197,11 @@ fn moving_jumping_and_views() {
     assert_eq!(f.s.app.selected().unwrap().cell, "C01");
     f.s.press(Key::Enter);
     assert_eq!(f.s.app.view, View::Cell);
-    assert_eq!(f.s.app.detail.as_ref().unwrap().forecast.cell, "C01");
+    assert_eq!(f.s.app.cell.detail.as_ref().unwrap().forecast.cell, "C01");
     f.s.press(Key::Esc);
     f.s.press(Key::Char('r'));
     assert_eq!(f.s.app.view, View::Rectifier);
-    assert_eq!(f.s.app.trends.len(), 2);
+    assert_eq!(f.s.app.rectifiers.trends.len(), 2);
     f.s.press(Key::Char('q'));
     assert!(f.s.app.quit);
 }
@@ -330,7 +330,7 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
     start(&mut f);
     f.s.press(Key::Char('p'));
     assert_eq!(f.s.app.view, View::Plan);
-    let plan = f.s.app.plan.clone().expect("a plan");
+    let plan = f.s.app.plan.plan.clone().expect("a plan");
     assert!(plan.days.iter().all(|d| d.crew_load <= d.crew_capacity));
     // a change of the running load whose window opens after the first day and has another day with crew to spare
     let (day, job, target) = plan
@@ -362,27 +362,27 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
     assert_eq!(f.s.app.selected_change().unwrap().cell, cell);
     f.s.press(Key::Char('m'));
     assert!(matches!(&f.s.app.overlay, Some(Overlay::PlanMove(c)) if *c == cell));
-    while f.s.app.plan_day != target {
-        f.s.press(if f.s.app.plan_day < target { Key::Down } else { Key::Up });
+    while f.s.app.plan.day != target {
+        f.s.press(if f.s.app.plan.day < target { Key::Down } else { Key::Up });
     }
     f.s.press(Key::Enter);
-    let p = f.s.app.plan.clone().unwrap();
+    let p = f.s.app.plan.plan.clone().unwrap();
     let job = p.days[target].anode_changes.iter().position(|c| c.cell == cell && c.cycle == 0).expect("moved to the chosen day");
     assert!(p.days[target].anode_changes[job].moved);
     assert!(p.days.iter().all(|d| d.crew_load <= d.crew_capacity));
     // the first day is before the window opens: refused, with a notice, and the earlier move stays
-    f.s.app.plan_day = target;
-    f.s.app.plan_job = job;
+    f.s.app.plan.day = target;
+    f.s.app.plan.job = job;
     f.s.press(Key::Char('m'));
-    while f.s.app.plan_day != 0 {
+    while f.s.app.plan.day != 0 {
         f.s.press(Key::Up);
     }
     f.s.press(Key::Enter);
     assert!(matches!(&f.s.app.overlay, Some(Overlay::Notice(t)) if t.contains(&cell)), "{:?} {:?}", f.s.app.overlay, f.s.app.status);
-    assert_eq!(f.s.app.plan_moves, vec![(cell.clone(), p.days[target].date)], "the refused move is taken back");
+    assert_eq!(f.s.app.plan.moves, vec![(cell.clone(), p.days[target].date)], "the refused move is taken back");
     f.s.press(Key::Esc);
     f.s.press(Key::Char('z'));
-    assert!(f.s.app.plan_moves.is_empty());
+    assert!(f.s.app.plan.moves.is_empty());
 }
 
 #[test]
@@ -410,4 +410,23 @@ fn a_bad_crop_weight_in_the_anode_change_form_is_shown_beside_the_crop_field() {
     assert_eq!(err(FieldKey::TotalKg), None, "the scrap weight was fine");
     assert_eq!(form.fields[form.focus].key, FieldKey::CropKg, "the cursor goes to the crop field");
     assert!(screen(&f.s, 80, 24).contains("✗ 99999 kg is out of range"));
+}
+
+#[test]
+fn help_scrolls_to_the_quit_key_at_80x24() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('?'));
+    let first = screen(&f.s, 80, 24);
+    assert!(first.contains("previous cell") && !first.contains(" quit"), "{first}");
+    for _ in 0..10 {
+        f.s.press(Key::Char('j'));
+    }
+    let end = screen(&f.s, 80, 24);
+    assert!(end.contains("           q  quit"), "{end}");
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Help(_))), "scrolling keeps the help open");
+    f.s.press(Key::Home);
+    assert!(screen(&f.s, 80, 24).contains("Tankhouse screen"));
+    f.s.press(Key::Char('q'));
+    assert!(f.s.app.overlay.is_none() && !f.s.app.quit, "q closes the help, it does not quit");
 }

@@ -15,6 +15,12 @@ use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
 use crate::plant::CellDetail;
 
+/// The cell screen's state: the selected cell in depth, once loaded.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct CellScreen {
+    pub detail: Option<CellDetail>,
+}
+
 /// Chart points (hours since the start, value).
 type Series = Vec<(f64, f64)>;
 
@@ -115,7 +121,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let Some(c) = app.selected() else { return };
-    let detail = app.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
+    let detail = app.cell.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
     let wide = area.width >= 100;
     let [left, right] = Layout::horizontal([Constraint::Length(if wide { 56 } else { 40 }), Constraint::Min(20)]).areas(area);
     let l = summary(app, c, detail, wide, left.height as usize);

@@ -1,16 +1,15 @@
 //! The frame around every screen: title line, status line, hint bar, and the
-//! overlays (help, legend, menu, forms, questions). Draws from `&App` only.
+//! screen in view, then the overlay on top (see [`super::overlay`]). Draws from `&App` only.
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
+use ratatui::widgets::Paragraph;
 
-use super::app::{App, Overlay, View};
-use super::form::MENU;
-use super::keys::{self, GLOBAL};
-use super::{cell, entries, plan, rectifier, tankhouse};
+use super::app::{App, View};
+use super::keys;
+use super::{cell, entries, overlay, plan, rectifier, tankhouse};
 use crate::domain::outlook::CellState;
 
 /// A style with `fg`, or plain when colour is off (`NO_COLOR`).
@@ -50,7 +49,7 @@ pub fn draw(f: &mut Frame, app: &App) {
     draw_status(f, app, status);
     draw_hints(f, app, hints);
     if let Some(o) = &app.overlay {
-        draw_overlay(f, app, o);
+        overlay::draw(f, app, o);
     }
 }
 
@@ -104,9 +103,14 @@ pub fn shorten(s: &str, max: usize) -> String {
     if n <= max { s.to_string() } else { format!("…{}", s.chars().skip(n + 1 - max).collect::<String>()) }
 }
 
+/// The hint bar: the keys of the overlay that has the keyboard, else of the screen.
 fn draw_hints(f: &mut Frame, app: &App, area: Rect) {
     let mut spans = Vec::new();
-    for (k, help) in keys::hints(app.view) {
+    let items = match &app.overlay {
+        Some(o) => overlay::hints(o.table()),
+        None => keys::hints(app.view),
+    };
+    for (k, help) in items {
         spans.push(Span::styled(format!(" {k}"), bold().patch(fg(app, Color::Cyan))));
         spans.push(Span::raw(format!(" {help} ")));
     }
@@ -118,148 +122,4 @@ pub fn centered(area: Rect, w: u16, h: u16) -> Rect {
     let w = w.min(area.width);
     let h = h.min(area.height);
     Rect { x: area.x + (area.width - w) / 2, y: area.y + (area.height - h) / 2, width: w, height: h }
-}
-
-/// Draws a bordered box; `area`'s height grows to fit wrapped lines where the screen allows.
-fn popup(f: &mut Frame, area: Rect, title: &str, lines: Vec<Line<'_>>) {
-    let inner_w = area.width.saturating_sub(2).max(1) as usize;
-    let need: usize = lines.iter().map(|l| l.width().div_ceil(inner_w).max(1)).sum::<usize>() + 2;
-    let screen = f.area();
-    let area = centered(screen, area.width, (need as u16).max(area.height));
-    f.render_widget(Clear, area);
-    let block = Block::default().borders(Borders::ALL).title(format!(" {title} "));
-    f.render_widget(Paragraph::new(lines).block(block).wrap(Wrap { trim: false }), area);
-}
-
-fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
-    let full = f.area();
-    match o {
-        Overlay::Help => {
-            let mut lines = vec![Line::styled(format!("{} screen", app.view.title()), bold())];
-            for b in keys::table(app.view).iter().chain(GLOBAL) {
-                lines.push(Line::from(vec![
-                    Span::styled(format!("{:>12}  ", keys::keys_label(b)), bold().patch(fg(app, Color::Cyan))),
-                    Span::raw(b.help),
-                ]));
-            }
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 74, h), "Help · any key closes", lines);
-        }
-        Overlay::Legend => {
-            let mut lines = vec![
-                Line::raw("Each tile: cell id, state, days to harvest, anode % left"),
-                Line::raw("('-' where there is none or the anodes are inert)."),
-            ];
-            for s in CellState::ALL {
-                let (c, col) = state_mark(Some(s));
-                lines.push(Line::from(vec![Span::styled(format!("  {c}  "), bold().patch(fg(app, col))), Span::raw(s.meaning())]));
-            }
-            let (c, col) = state_mark(None);
-            lines.push(Line::from(vec![Span::styled(format!("  {c}  "), fg(app, col)), Span::raw("nothing due today")]));
-            lines.push(Line::raw("The first state that applies is shown; the cell screen lists them all."));
-            lines.push(Line::raw("Any key closes the legend."));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 72, h), "Legend", lines);
-        }
-        Overlay::Menu => {
-            let mut lines = vec![Line::raw("Record what happened. Press a letter:")];
-            for (k, _, label) in MENU {
-                lines.push(Line::from(vec![Span::styled(format!("  {k}  "), bold().patch(fg(app, Color::Cyan))), Span::raw(*label)]));
-            }
-            lines.push(Line::raw("  Esc  cancel"));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 50, h), "New entry", lines);
-        }
-        Overlay::Jump(s) => {
-            popup(f, centered(full, 40, 4), "Go to cell", vec![Line::raw(format!("Cell id: {s}▏")), Line::raw("Enter go · Esc cancel")])
-        }
-        Overlay::Initials(s) => popup(
-            f,
-            centered(full, 56, 6),
-            "Who is logging this shift?",
-            vec![
-                Line::raw("Your initials are recorded with every entry."),
-                Line::styled(format!("Initials: {s}▏"), bold()),
-                Line::raw(""),
-                Line::raw("Enter to start"),
-            ],
-        ),
-        Overlay::Form(form) => {
-            let mut lines = Vec::new();
-            for (i, fl) in form.fields.iter().enumerate() {
-                let focus = i == form.focus;
-                let marker = if focus { "▶" } else { " " };
-                let style = if focus { bold() } else { Style::default() };
-                lines.push(Line::from(vec![
-                    Span::styled(format!("{marker}{:>20}: ", fl.label), style),
-                    Span::styled(format!("{}{}", fl.value, if focus { "▏" } else { "" }), style.add_modifier(Modifier::UNDERLINED)),
-                ]));
-                match &fl.error {
-                    Some(e) => lines.push(Line::styled(format!("{:>23}✗ {e}", ""), fg(app, Color::Red))),
-                    None => lines.push(Line::styled(format!("{:>23}{}", "", fl.hint), fg(app, Color::DarkGray))),
-                }
-            }
-            if let Some(m) = &form.message {
-                lines.push(Line::styled(format!("✗ {m}"), bold().patch(fg(app, Color::Red))));
-            }
-            lines.push(Line::raw("Tab/↑↓ field · Enter check and review · Esc drop"));
-            lines.push(Line::raw("Nothing is recorded until you confirm."));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 78, h), form.kind.title(), lines);
-        }
-        Overlay::Review(r) => {
-            let mut lines = vec![Line::styled("To be recorded:", bold())];
-            let shown = r.summary.len().min(8);
-            for s in &r.summary[..shown] {
-                lines.push(Line::raw(format!("  {s}")));
-            }
-            if r.summary.len() > shown {
-                lines.push(Line::raw(format!("  … and {} more", r.summary.len() - shown)));
-            }
-            if r.questions.is_empty() {
-                lines.push(Line::raw(""));
-                lines.push(Line::styled("y record · n back to the form", bold()));
-            } else {
-                lines.push(Line::styled("The program questions this entry:", bold().patch(fg(app, Color::Red))));
-                for q in &r.questions {
-                    lines.push(Line::styled(format!("  ? {q}"), fg(app, Color::Red)));
-                }
-                if r.forced {
-                    lines.push(Line::styled("y record it anyway (marked forced) · n back", bold()));
-                } else {
-                    lines.push(Line::styled("F record anyway (asks again) · n back to the form", bold()));
-                }
-            }
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 78, h), "Review", lines);
-        }
-        Overlay::ConfirmUndo(e) => {
-            let place = e.cell.clone().or(e.circuit.clone()).unwrap_or_default();
-            popup(
-                f,
-                centered(full, 64, 6),
-                "Undo",
-                vec![
-                    Line::raw(format!("Undo entry {} — {} {place} at {}, by {}?", e.id, e.kind.name(), app.days.zone.show(e.at), e.by)),
-                    Line::raw("The entry stays in the log, marked undone."),
-                    Line::raw(""),
-                    Line::styled("y undo · any other key keeps it", bold()),
-                ],
-            );
-        }
-        // the board stays in view while a day is chosen; the status line says what to do
-        Overlay::PlanMove(_) => {}
-        Overlay::Notice(text) => {
-            popup(f, centered(full, 70, 5), "Note · any key closes", vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red)))])
-        }
-        Overlay::ConfirmQuit => popup(
-            f,
-            centered(full, 60, 5),
-            "Quit?",
-            vec![
-                Line::styled("An entry did not save and is only kept on screen.", fg(app, Color::Red)),
-                Line::raw("y quit and lose it · any other key stays (w retries)"),
-            ],
-        ),
-    }
 }

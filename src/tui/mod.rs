@@ -8,6 +8,7 @@ mod draw;
 mod entries;
 pub mod form;
 pub mod keys;
+pub mod overlay;
 mod plan;
 mod rectifier;
 mod tankhouse;
@@ -103,7 +104,7 @@ impl Session {
                 None
             }
             Effect::LoadTrends => {
-                match plant.rectifiers(app.as_of, app.span_days) {
+                match plant.rectifiers(app.as_of, app.rectifiers.span_days) {
                     Ok(t) => app.loaded_trends(t),
                     Err(e) => app.failed(format!("could not read the current log: {e}")),
                 }
@@ -117,7 +118,7 @@ impl Session {
                 None
             }
             Effect::LoadPlan => {
-                let opts = crate::plant::PlanOptions { days: app.plan_days, moves: app.plan_moves.clone(), ..Default::default() };
+                let opts = crate::plant::PlanOptions { days: app.plan.days, moves: app.plan.moves.clone(), ..Default::default() };
                 match plant.plan(&opts, app.as_of) {
                     Ok(p) => {
                         app.loaded_plan(p);
