@@ -8,6 +8,7 @@ mod print;
 use anyhow::{Context, Result, anyhow};
 use chrono::Utc;
 use clap::Parser;
+use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -35,7 +36,23 @@ pub fn default_db() -> Result<PathBuf> {
     Ok(dirs.data_dir().join("plant.db"))
 }
 
+/// A panic prints one line (where, and what), never a backtrace; inside the
+/// screens the terminal is restored before it (ratatui's hook runs first).
+fn one_line_panics() {
+    std::panic::set_hook(Box::new(|info| {
+        let what = info
+            .payload()
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| info.payload().downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "no message".into());
+        let place = info.location().map_or(String::new(), |l| format!(" at {}:{}", l.file(), l.line()));
+        let _ = writeln!(std::io::stderr(), "tankbook: internal error{place}: {what} (nothing was recorded by it; please report it)");
+    }));
+}
+
 pub fn main() -> ExitCode {
+    one_line_panics();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
@@ -46,8 +63,11 @@ pub fn main() -> ExitCode {
     };
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,
+        // said in one line by the panic hook already
+        Err(e) if e.is::<crate::tui::Panicked>() => ExitCode::from(1),
         Err(e) => {
-            eprintln!("tankbook: {}", message(&e));
+            // stderr may be a terminal that is gone: never panic over it
+            let _ = writeln!(std::io::stderr(), "tankbook: {}", message(&e));
             ExitCode::from(1)
         }
     }
@@ -225,9 +245,15 @@ fn clock() -> Time {
 }
 
 /// Opens the screens, or says how to start when the database holds no plant.
+/// Without a terminal (a pipe, cron, a script) it prints the forecast table instead.
 fn screens(plant: Plant) -> Result<()> {
     if !plant.has_layout()? {
         return print::empty(&plant);
+    }
+    if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
+        let f = plant.forecast(clock(), None)?;
+        print::forecast(&plant, &f);
+        return Ok(());
     }
     crate::tui::run(plant, clock)
 }

@@ -5,6 +5,7 @@
 //! questioned entry, or a failed import, leaves the database as it was.
 
 mod detail;
+mod drafts;
 mod forecast;
 mod import;
 mod plan;
@@ -14,6 +15,7 @@ use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
 
 pub use detail::{CellDetail, CircuitTrend};
+pub use drafts::Draft;
 pub use import::ImportSummary;
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;

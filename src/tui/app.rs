@@ -21,7 +21,7 @@ use crate::domain::forecast::{CellForecast, Forecast, Warning};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::plan::Plan;
 use crate::domain::plant_time::ProductionDays;
-use crate::plant::{CellDetail, CircuitTrend, Opts, Recorded};
+use crate::plant::{CellDetail, CircuitTrend, Draft, Opts, Recorded};
 
 pub use super::keys::Key;
 pub use super::overlay::{Overlay, Review};
@@ -99,6 +99,8 @@ pub enum Effect {
     /// Find the newest live entry and offer to undo it.
     OfferUndo,
     Undo(i64),
+    /// A draft was taken up again or thrown away: remove it from the database.
+    DropDraft(i64),
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -132,6 +134,8 @@ pub struct App {
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
+    /// Forms kept when the terminal went away last time, not yet offered back.
+    pub drafts: Vec<Draft>,
     pub width: u16,
     pub height: u16,
     pub color: bool,
@@ -160,6 +164,7 @@ impl App {
             plan: PlanScreen::default(),
             status: None,
             unsaved: None,
+            drafts: Vec::new(),
             width: 80,
             height: 24,
             color,
@@ -440,6 +445,28 @@ impl App {
             Some(Overlay::Review(r)) => Some(&r.form),
             _ => None,
         }
+    }
+
+    /// Offers the next kept draft, if any (after the initials, so it is logged by who is here now).
+    pub(super) fn offer_draft(&mut self) {
+        if self.overlay.is_none() && !self.drafts.is_empty() {
+            let d = self.drafts.remove(0);
+            self.overlay = Some(Overlay::Draft(d));
+        }
+    }
+
+    /// Takes a draft up again: its form, as typed, checked afresh.
+    pub(super) fn reopen_draft(&mut self, d: Draft) -> Option<Effect> {
+        match FormKind::from_name(&d.form) {
+            Some(kind) => {
+                let mut form = Form::from_typed(kind, &d.fields);
+                self.validate(&mut form);
+                self.overlay = Some(Overlay::Form(form));
+                self.say("the draft is open again: nothing is recorded until you confirm");
+            }
+            None => self.warn(format!("draft {} is of a form this tankbook does not know ('{}'): dropped", d.id, d.form)),
+        }
+        Some(Effect::DropDraft(d.id))
     }
 
     // ---- results of effects, reported back by the runner ----

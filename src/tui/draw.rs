@@ -103,13 +103,19 @@ pub fn shorten(s: &str, max: usize) -> String {
     if n <= max { s.to_string() } else { format!("…{}", s.chars().skip(n + 1 - max).collect::<String>()) }
 }
 
-/// The hint bar: the keys of the overlay that has the keyboard, else of the screen.
+/// The hint bar: the keys of the overlay that has the keyboard, else of the
+/// screen. On a narrow terminal the screen's hints are dropped from the end,
+/// never help and quit (the last two), so `?` always leads to every key.
 fn draw_hints(f: &mut Frame, app: &App, area: Rect) {
-    let mut spans = Vec::new();
-    let items = match &app.overlay {
+    let mut items = match &app.overlay {
         Some(o) => overlay::hints(o.table()),
         None => keys::hints(app.view),
     };
+    let width = |items: &[(String, &str)]| items.iter().map(|(k, h)| k.chars().count() + h.chars().count() + 3).sum::<usize>();
+    while app.overlay.is_none() && items.len() > 2 && width(&items) > area.width as usize {
+        items.remove(items.len() - 3);
+    }
+    let mut spans = Vec::new();
     for (k, help) in items {
         spans.push(Span::styled(format!(" {k}"), bold().patch(fg(app, Color::Cyan))));
         spans.push(Span::raw(format!(" {help} ")));

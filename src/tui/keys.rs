@@ -2,8 +2,6 @@
 //! keys through these tables and the help and hint bar are printed from them,
 //! so the help can never drift from what the keys do.
 
-use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-
 use super::app::{Action, View};
 
 /// A key as the tables name it.
@@ -27,33 +25,6 @@ pub enum Key {
 }
 
 impl Key {
-    pub fn from_event(e: KeyEvent) -> Option<Key> {
-        if e.modifiers.contains(KeyModifiers::CONTROL) {
-            return match e.code {
-                KeyCode::Char('c') => Some(Key::Char('q')),
-                _ => None,
-            };
-        }
-        Some(match e.code {
-            KeyCode::Char(c) => Key::Char(c),
-            KeyCode::Up => Key::Up,
-            KeyCode::Down => Key::Down,
-            KeyCode::Left => Key::Left,
-            KeyCode::Right => Key::Right,
-            KeyCode::Enter => Key::Enter,
-            KeyCode::Esc => Key::Esc,
-            KeyCode::Tab => Key::Tab,
-            KeyCode::BackTab => Key::BackTab,
-            KeyCode::PageUp => Key::PageUp,
-            KeyCode::PageDown => Key::PageDown,
-            KeyCode::Home => Key::Home,
-            KeyCode::End => Key::End,
-            KeyCode::Backspace => Key::Backspace,
-            KeyCode::F(n) => Key::F(n),
-            _ => return None,
-        })
-    }
-
     pub fn label(self) -> String {
         match self {
             Key::Char(' ') => "Space".into(),

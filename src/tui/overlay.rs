@@ -16,7 +16,7 @@ use crate::domain::charge::Time;
 use crate::domain::entry::Entry;
 use crate::domain::history::Event;
 use crate::domain::outlook::CellState;
-use crate::plant::Opts;
+use crate::plant::{Draft, Opts};
 
 /// An overlay that has the keyboard.
 #[derive(Debug, Clone, PartialEq)]
@@ -35,6 +35,8 @@ pub enum Overlay {
     PlanMove(String),
     /// A message too long for the status line; any key closes it.
     Notice(String),
+    /// A form kept when the terminal went away, offered back.
+    Draft(Draft),
 }
 
 /// A checked entry waiting for the foreman's yes.
@@ -69,6 +71,7 @@ pub enum Do {
     PageDown,
     Top,
     Bottom,
+    Discard,
 }
 
 /// Which keys a row of an overlay's table answers to.
@@ -169,6 +172,12 @@ pub const PLAN_MOVE: &[OverlayBinding] = &[
     o(These(&[Esc]), Do::Cancel, "leave it where it is", Some("leave")),
 ];
 
+pub const DRAFT: &[OverlayBinding] = &[
+    o(These(&[Enter, Char('y')]), Do::Confirm, "open it again to finish it", Some("open it")),
+    o(These(&[Char('x')]), Do::Discard, "throw it away", Some("throw away")),
+    o(These(&[Esc]), Do::Cancel, "keep it for later (offered at the next start)", Some("later")),
+];
+
 impl Overlay {
     /// The overlay's key table.
     pub fn table(&self) -> &'static [OverlayBinding] {
@@ -185,6 +194,7 @@ impl Overlay {
             Overlay::ConfirmUndo(_) => CONFIRM_UNDO,
             Overlay::ConfirmQuit => CONFIRM_QUIT,
             Overlay::PlanMove(_) => PLAN_MOVE,
+            Overlay::Draft(_) => DRAFT,
         }
     }
 }
@@ -317,10 +327,12 @@ impl App {
                         self.who = Some(who.clone());
                         self.who_shift = Some(self.shift());
                         self.say(format!("logging as {who}"));
+                        self.offer_draft();
                         return None;
                     }
                     Some(Do::Cancel) if self.who.is_some() => {
                         self.who_shift = Some(self.shift());
+                        self.offer_draft();
                         return None;
                     }
                     Some(Do::Erase) => {
@@ -359,6 +371,23 @@ impl App {
                 self.overlay = Some(Overlay::PlanMove(cell));
                 None
             }
+            Overlay::Draft(d) => match does {
+                Some(Do::Confirm) => self.reopen_draft(d),
+                Some(Do::Discard) => {
+                    self.say(format!("draft of the {} form thrown away", d.form.replace('_', " ")));
+                    self.offer_draft();
+                    Some(Effect::DropDraft(d.id))
+                }
+                Some(Do::Cancel) => {
+                    self.say("the draft is kept: it is offered again at the next start");
+                    self.offer_draft();
+                    None
+                }
+                _ => {
+                    self.overlay = Some(Overlay::Draft(d));
+                    None
+                }
+            },
             Overlay::ConfirmUndo(e) => match does {
                 Some(Do::Confirm) => Some(Effect::Undo(e.id)),
                 _ => {
@@ -590,6 +619,20 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
         Overlay::PlanMove(_) => {}
         Overlay::Notice(text) => {
             popup(f, centered(full, 70, 5), "Note · any key closes", vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red)))])
+        }
+        Overlay::Draft(d) => {
+            let title = super::form::FormKind::from_name(&d.form).map_or(d.form.clone(), |k| k.title().to_string());
+            let by = d.by.as_deref().map_or(String::new(), |b| format!(", by {b}"));
+            let mut lines = vec![
+                Line::styled(format!("{title}: typed but not recorded{by}"), bold()),
+                Line::raw(format!("kept {} ({})", app.days.zone.show(d.saved_at), d.reason)),
+            ];
+            for (k, v) in d.fields.iter().filter(|(_, v)| !v.trim().is_empty()) {
+                lines.push(Line::raw(format!("  {}: {v}", k.replace('_', " "))));
+            }
+            lines.push(keys_line(DRAFT));
+            let h = lines.len() as u16 + 2;
+            popup(f, centered(full, 70, h), "An entry was left unfinished", lines);
         }
         Overlay::ConfirmQuit => popup(
             f,
