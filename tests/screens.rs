@@ -430,3 +430,40 @@ fn help_scrolls_to_the_quit_key_at_80x24() {
     f.s.press(Key::Char('q'));
     assert!(f.s.app.overlay.is_none() && !f.s.app.quit, "q closes the help, it does not quit");
 }
+
+/// 04:58 plant time (Madrid, UTC+1 in winter, IANA tz database) on 21 November:
+/// still production day 11-20, which starts at 06:00, in its night shift.
+fn night() -> Time {
+    DateTime::parse_from_rfc3339("2026-11-21T03:58:00Z").unwrap().with_timezone(&Utc)
+}
+
+#[test]
+fn the_night_shift_sees_the_coming_days_first_shift_work() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plant.db");
+    Plant::open(demo_db()).unwrap().backup(&path).unwrap();
+    let mut s = Session::open(Plant::open(&path).unwrap(), night, false).unwrap();
+    s.app.db_path = "demo.db".into();
+    s.act(Action::Resize(80, 24));
+    s.type_str("ak");
+    s.press(Key::Enter);
+    s.app.status = None;
+    let coming = s.app.coming_shift().expect("the last shift of the day shows the next day's first shift");
+    let zone = s.app.days.zone;
+    assert_eq!((zone.show(coming.shift.start), zone.show(coming.shift.end)), ("2026-11-21 06:00".into(), "2026-11-21 18:00".into()));
+    // what the header counts, counted here from the forecast: due from 06:00 to 18:00 on 11-21
+    let within = |t: Option<Time>| t.is_some_and(|t| t >= coming.shift.start && t < coming.shift.end);
+    let harvests = s.app.cells.iter().filter(|c| within(c.cathode.as_ref().and_then(|k| k.harvest_due))).count();
+    assert_eq!(coming.harvests, harvests);
+    assert!(coming.harvests + coming.anode_changes > 0, "the demo has work on the morning of 11-21");
+    let text = screen(&s, 80, 24);
+    assert!(text.lines().next().unwrap().contains("day 11-20 · night shift"), "{text}");
+    assert!(text.lines().nth(1).unwrap().starts_with(" next day 11-21 06:00→18:00: "), "{text}");
+    let wide = screen(&s, 160, 48);
+    assert!(wide.lines().next().unwrap().contains("day 11-20 (06:00→06:00) · night shift"), "{wide}");
+    assert!(wide.lines().nth(1).unwrap().contains("first shift (day shift) 06:00→18:00"), "{wide}");
+    snap("night_shift_tankhouse", &s);
+    s.press(Key::Char('p'));
+    s.app.status = None;
+    snap("night_shift_plan", &s);
+}

@@ -172,7 +172,7 @@ pub fn run(cli: Cli) -> Result<()> {
             if a.json {
                 println!("{}", serde_json::to_string_pretty(&f)?);
             } else {
-                print::forecast(&plant, &f);
+                print::forecast(&plant, &f)?;
             }
         }
         Command::Plan(a) => plan::run(&plant, a, now)?,
@@ -252,8 +252,7 @@ fn screens(plant: Plant) -> Result<()> {
     }
     if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
         let f = plant.forecast(clock(), None)?;
-        print::forecast(&plant, &f);
-        return Ok(());
+        return print::forecast(&plant, &f);
     }
     crate::tui::run(plant, clock)
 }

@@ -20,7 +20,7 @@ use crate::domain::entry::{Entry, Field};
 use crate::domain::forecast::{CellForecast, Forecast, Warning};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::plan::Plan;
-use crate::domain::plant_time::ProductionDays;
+use crate::domain::plant_time::{ProductionDays, Shift};
 use crate::plant::{CellDetail, CircuitTrend, Draft, Opts, Recorded};
 
 pub use super::keys::Key;
@@ -103,6 +103,16 @@ pub enum Effect {
     DropDraft(i64),
 }
 
+/// What the next production day's first shift must do, shown before the day turns.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ComingShift {
+    pub shift: Shift,
+    pub harvests: usize,
+    pub anode_changes: usize,
+    /// The earliest of those due times.
+    pub first: Option<Time>,
+}
+
 #[derive(Debug, Clone, PartialEq)]
 pub struct Status {
     pub text: String,
@@ -180,10 +190,39 @@ impl App {
 
     /// The shift `as_of` falls in: its production day and number (0 = the first).
     pub fn shift(&self) -> (chrono::NaiveDate, u32) {
-        let day = self.days.day_of(self.as_of);
-        let into = (self.as_of - self.days.start_of(day)).num_minutes().max(0);
-        let len = (24 * 60 / i64::from(self.shifts_per_day.max(1))).max(1);
-        (day, (into / len) as u32)
+        let s = self.shift_now();
+        (s.day, s.index)
+    }
+
+    pub fn shift_now(&self) -> Shift {
+        self.days.shift_at(self.as_of, self.shifts_per_day)
+    }
+
+    /// In the production day's last shift (or its last 8 hours, with one shift a
+    /// day): the work due in the next production day's first shift, so the night
+    /// shift sees what the morning brings before the day turns.
+    pub fn coming_shift(&self) -> Option<ComingShift> {
+        let now = self.shift_now();
+        let soon = if now.of == 1 { self.day_end() - Duration::hours(8) <= self.as_of } else { now.is_last() };
+        if !soon {
+            return None;
+        }
+        let shift = self.days.next_day_first_shift(&now);
+        let within = |t: Option<Time>| t.filter(|t| *t >= shift.start && *t < shift.end);
+        let harvests: Vec<Time> = self.cells.iter().filter_map(|c| within(c.cathode.as_ref().and_then(|k| k.harvest_due))).collect();
+        let changes: Vec<Time> = self
+            .cells
+            .iter()
+            .filter(|c| c.anode_kind == crate::domain::layout::AnodeKind::Soluble)
+            .filter_map(|c| within(c.anode.as_ref().and_then(|a| a.pull_due)))
+            .collect();
+        let first = harvests.iter().chain(&changes).min().copied();
+        Some(ComingShift { shift, harvests: harvests.len(), anode_changes: changes.len(), first })
+    }
+
+    /// Lines the header takes: one, two while the next day's first shift is shown.
+    pub fn header_rows(&self) -> u16 {
+        if self.coming_shift().is_some() { 2 } else { 1 }
     }
 
     /// The cell selected on the tankhouse screen (the cell screen shows it).
@@ -220,9 +259,9 @@ impl App {
         (self.grid_width().saturating_sub(1) / TILE_W).max(1) as usize
     }
 
-    /// Lines the tankhouse grid may use (the screen less title, status and hint lines).
+    /// Lines the tankhouse grid may use (the screen less header, status and hint lines).
     pub fn body_rows(&self) -> usize {
-        self.height.saturating_sub(4).max(1) as usize
+        self.height.saturating_sub(2 + self.header_rows()).max(1) as usize
     }
 
     /// Keeps the selected tile on screen.

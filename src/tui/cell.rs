@@ -13,6 +13,7 @@ use super::draw::{bold, fg, state_mark};
 use crate::domain::charge::Time;
 use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
+use crate::domain::plant_time::{relative, span_text};
 use crate::plant::CellDetail;
 
 /// The cell screen's state: the selected cell in depth, once loaded.
@@ -25,9 +26,7 @@ pub struct CellScreen {
 type Series = Vec<(f64, f64)>;
 
 fn when(app: &App, t: Time) -> String {
-    let d = (t - app.as_of).num_minutes() as f64 / 1440.0;
-    let rel = if d >= 0.0 { format!("in {d:.1} d") } else { format!("{:.1} d ago", -d) };
-    format!("{} ({rel})", short(app, t))
+    format!("{} ({})", short(app, t), relative(t, app.as_of))
 }
 
 /// Month, day and time on the plant clock: enough inside one anode cycle.
@@ -54,8 +53,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     }
     match &c.anode {
         Some(a) => {
-            let age = (app.as_of - a.set_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(format!("Anodes set {} ({age:.1} d ago)", short(app, a.set_at)), bold()));
+            l.push(Line::styled(format!("Anodes set {}", when(app, a.set_at)), bold()));
             l.push(Line::raw(format!("  {} × {:.0} kg at set", a.count, a.initial_kg)));
             if c.anode_kind == crate::domain::layout::AnodeKind::Soluble {
                 l.push(Line::raw(format!(
@@ -73,8 +71,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     }
     match &c.cathode {
         Some(k) => {
-            let age = (app.as_of - k.started_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(format!("Crop since {} ({age:.1} d)", short(app, k.started_at)), bold()));
+            l.push(Line::styled(format!("Crop since {} ({})", short(app, k.started_at), span_text(app.as_of - k.started_at)), bold()));
             l.push(Line::raw(format!("  {:.1} kg/cathode, inner {:.1} kg", k.mass_kg, k.inner_mass_kg)));
             l.push(Line::raw(format!("  harvest due {}", k.harvest_due.map_or("not in sight".into(), |t| when(app, t)))));
         }

@@ -37,7 +37,8 @@ pub fn state_mark(s: Option<CellState>) -> (char, Color) {
 
 pub fn draw(f: &mut Frame, app: &App) {
     let [title, body, status, hints] =
-        Layout::vertical([Constraint::Length(1), Constraint::Min(1), Constraint::Length(1), Constraint::Length(1)]).areas(f.area());
+        Layout::vertical([Constraint::Length(app.header_rows()), Constraint::Min(1), Constraint::Length(1), Constraint::Length(1)])
+            .areas(f.area());
     draw_title(f, app, title);
     match app.view {
         View::Tankhouse => tankhouse::draw(f, app, body),
@@ -53,6 +54,13 @@ pub fn draw(f: &mut Frame, app: &App) {
     }
 }
 
+fn plural(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
+}
+
+/// The header: the production day and shift, what is due before the day turns,
+/// and, in the day's last shift, what the next day's first shift must do. The
+/// richest form that fits the width is drawn.
 fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     let end = app.day_end();
     let mut counts = [0usize; 4];
@@ -63,13 +71,67 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
         counts[2] += usize::from(s.contains(&CellState::LowEfficiency));
         counts[3] += usize::from(s.contains(&CellState::CutOut));
     }
-    let line = Line::from(vec![
-        Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow))),
-        Span::raw(format!("│ {} │ {} │ ", shorten(&app.plant_name, 24), app.view.title())),
-        Span::styled(format!("today: {} harvest, {} anodes", counts[0], counts[1]), fg(app, Color::Yellow)),
-        Span::raw(format!(" · {} low η · {} out", counts[2], counts[3])),
-    ]);
-    f.render_widget(Paragraph::new(line).style(Style::default().add_modifier(Modifier::REVERSED)), area);
+    let zone = app.days.zone;
+    let hm = |t| zone.local(t).format("%H:%M").to_string();
+    let shift = app.shift_now();
+    let name = shift.name(zone).map_or(String::new(), |n| format!(" · {n}"));
+    let day = shift.day.format("%m-%d");
+    let day_long = format!("│ day {day} ({}→{}){name} ", hm(app.days.start_of(shift.day)), hm(end));
+    let day_short = format!("│ day {day}{name} ");
+    let due =
+        format!("due by {}: {}, {}", hm(end), plural(counts[0], "harvest", "harvests"), plural(counts[1], "anode change", "anode changes"));
+    let due_short = format!("by {}: {} H, {} A", hm(end), counts[0], counts[1]);
+    let rest = format!(" · {} low η · {} out", counts[2], counts[3]);
+    let plant = format!("│ {} ", shorten(&app.plant_name, 24));
+    let view = format!("│ {} ", app.view.title());
+    let w = area.width as usize;
+    // the richest that fits: the plant's name goes first, then η and cut-outs, then the screen's name
+    let forms: [&[&str]; 8] = [
+        &[&plant, &view, &day_long, "│ ", &due, &rest],
+        &[&view, &day_long, "│ ", &due, &rest],
+        &[&view, &day_long, "│ ", &due],
+        &[&view, &day_short, "│ ", &due],
+        &[&day_long, "│ ", &due],
+        &[&day_short, "│ ", &due],
+        &[&view, &day_short, "│ ", &due_short],
+        &[&day_short, "│ ", &due_short],
+    ];
+    let len = |parts: &[&str]| 10 + parts.iter().map(|p| p.chars().count()).sum::<usize>();
+    let parts = forms.iter().find(|p| len(p) <= w).unwrap_or(&forms[7]);
+    let mut spans = vec![Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow)))];
+    for p in parts.iter() {
+        if p.starts_with("due by") || p.starts_with("by ") {
+            spans.push(Span::styled(p.to_string(), fg(app, Color::Yellow)));
+        } else {
+            spans.push(Span::raw(p.to_string()));
+        }
+    }
+    let reversed = Style::default().add_modifier(Modifier::REVERSED);
+    let [top, coming] = Layout::vertical([Constraint::Length(1), Constraint::Length(area.height.saturating_sub(1))]).areas(area);
+    f.render_widget(Paragraph::new(Line::from(spans)).style(reversed), top);
+    if let Some(next) = app.coming_shift() {
+        let (a, b) = (hm(next.shift.start), hm(next.shift.end));
+        let first = next.first.map_or(String::new(), |t| format!(", first at {}", hm(t)));
+        let name = next.shift.name(zone).map_or(String::new(), |n| format!(" ({n})"));
+        let work =
+            format!("{}, {}", plural(next.harvests, "harvest", "harvests"), plural(next.anode_changes, "anode change", "anode changes"));
+        let day = next.shift.day.format("%m-%d");
+        let candidates = [
+            (format!("day {day}, first shift{name} {a}→{b}: "), format!("{work}{first}")),
+            (format!("day {day}, first shift {a}→{b}: "), format!("{work}{first}")),
+            (format!("day {day} {a}→{b}: "), format!("{work}{first}")),
+            (format!("{day} first shift {a}→{b}: "), work.clone()),
+            (format!("{day} {a}→{b}: "), format!("{} H, {} A", next.harvests, next.anode_changes)),
+        ];
+        let fits = |(l, r): &(String, String)| 6 + l.chars().count() + r.chars().count() <= w;
+        let (label, counts) = candidates.iter().find(|c| fits(c)).unwrap_or(&candidates[4]);
+        let line = Line::from(vec![
+            Span::styled(" next ", bold().patch(fg(app, Color::Yellow))),
+            Span::raw(label.clone()),
+            Span::styled(counts.clone(), bold()),
+        ]);
+        f.render_widget(Paragraph::new(line), coming);
+    }
 }
 
 /// The status line: the latest message on the left; the database file, who is
@@ -77,7 +139,9 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
 fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     let who = app.who.clone().unwrap_or_else(|| "—".into());
     let file = std::path::Path::new(&app.db_path).file_name().map_or(app.db_path.clone(), |n| n.to_string_lossy().into_owned());
-    let right = format!(" {} │ by {who} │ as of {} ", shorten(&file, 20), app.days.zone.show(app.as_of));
+    // the one place the zone is named: every time on screen is on this clock
+    let zone = app.days.zone;
+    let right = format!(" {} │ by {who} │ as of {} {zone} ", shorten(&file, 20), zone.local(app.as_of).format("%m-%d %H:%M"));
     let room = (area.width as usize).saturating_sub(right.chars().count());
     let mut left = Vec::new();
     let mut used = 0;
@@ -95,6 +159,20 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     left.push(Span::raw(" ".repeat(room.saturating_sub(used))));
     left.push(Span::styled(right, Style::default().add_modifier(Modifier::REVERSED)));
     f.render_widget(Paragraph::new(Line::from(left)), area);
+}
+
+/// Warning lines for a screen: the recent ones in full, the old resolved ones
+/// (ended more than a day ago) folded into one count line.
+pub fn warning_lines<'a>(app: &App, warnings: &'a [crate::domain::forecast::Warning]) -> Vec<Line<'a>> {
+    let ended = |w: &crate::domain::forecast::Warning| w.to.or(w.from).filter(|_| w.code != "stale_readings");
+    let (old, news): (Vec<_>, Vec<_>) =
+        warnings.iter().partition(|w| ended(w).is_some_and(|t| crate::domain::plant_time::is_old(t, app.as_of)));
+    let mut lines: Vec<Line> = news.iter().map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red))).collect();
+    if let Some(last) = old.iter().filter_map(|w| ended(w)).max() {
+        let when = app.days.zone.local(last).format("%m-%d");
+        lines.push(Line::styled(format!("  + {} older, resolved (latest ended {when})", old.len()), fg(app, Color::DarkGray)));
+    }
+    lines
 }
 
 /// Keeps the end of a long path, which names the file.

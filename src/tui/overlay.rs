@@ -522,8 +522,9 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
         }
         Overlay::Legend => {
             let mut lines = vec![
-                Line::raw("Each tile: cell id, state, days to harvest, anode % left"),
-                Line::raw("('-' where there is none or the anodes are inert)."),
+                Line::raw("Each tile: cell id, state, time to harvest, anode % left"),
+                Line::raw("(57m, 5h, 2.3d: minutes, hours, days; -5h is 5 h overdue;"),
+                Line::raw("'-' where there is none or the anodes are inert)."),
             ];
             for s in CellState::ALL {
                 let (c, col) = state_mark(Some(s));

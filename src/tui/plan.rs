@@ -170,6 +170,15 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let Some(day) = plan.days.get(screen.day) else { return };
     let mut l = Vec::new();
     let mut head = format!("{} {}", day.date.weekday(), day.date);
+    // the production day running now ends at its day start, which can be minutes away
+    if day.date == app.shift_now().day {
+        let end = app.day_end();
+        head.push_str(&format!(
+            " · today, ends {} ({})",
+            app.days.zone.local(end).format("%H:%M"),
+            crate::domain::plant_time::relative(end, app.as_of)
+        ));
+    }
     if let Some(why) = &day.no_anode_work {
         head.push_str(&format!(" · no anode work: {why}"));
     }

@@ -52,7 +52,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         f.render_widget(Paragraph::new("loading…"), area);
         return;
     }
-    let warn_lines: Vec<Line> = app.plant_warnings.iter().map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red))).collect();
+    let warn_lines = super::draw::warning_lines(app, &app.plant_warnings);
     let list_h = (screen.trends.len() as u16 + 2 + warn_lines.len() as u16).min(area.height / 2);
     let [list, chart] = Layout::vertical([Constraint::Length(list_h), Constraint::Min(5)]).areas(area);
     let mut lines =

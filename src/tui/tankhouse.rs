@@ -103,13 +103,10 @@ impl TankhouseScreen {
     }
 }
 
-/// A tile's text: id, state letter, days to harvest, anode % left (14 columns).
+/// A tile's text: id, state letter, time to harvest (`57m`, `5h`, `2.3d`), anode % left (14 columns).
 pub fn tile_text(c: &CellForecast, mark: char, app: &App) -> String {
     let days = match c.cathode.as_ref().and_then(|k| k.harvest_due) {
-        Some(t) => {
-            let d = (t - app.as_of).num_minutes() as f64 / 1440.0;
-            if d.abs() < 10.0 { format!("{d:.1}") } else { format!("{d:.0}") }
-        }
+        Some(t) => crate::domain::plant_time::compact(t - app.as_of),
         None => "-".into(),
     };
     let pct = match &c.anode {
@@ -181,9 +178,7 @@ fn draw_side(f: &mut Frame, app: &App, area: Rect) {
     if !app.plant_warnings.is_empty() {
         lines.push(Line::raw(""));
         lines.push(Line::styled("Data warnings", bold()));
-        for w in &app.plant_warnings {
-            lines.push(Line::styled(format!("! {}", w.message), fg(app, Color::Red)));
-        }
+        lines.extend(super::draw::warning_lines(app, &app.plant_warnings));
     }
     let block = Block::default().borders(Borders::LEFT).title(" selected cell ");
     f.render_widget(Paragraph::new(lines).block(block).wrap(Wrap { trim: false }), area);
