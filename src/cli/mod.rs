@@ -102,7 +102,14 @@ fn message(e: &anyhow::Error) -> String {
             }
             _ => cause.to_string(),
         })
-        .collect::<Vec<_>>()
+        // an error that shows its source in its own text (`{file}: {source}`) is followed by it in
+        // the chain: say each text once
+        .fold(Vec::<String>::new(), |mut out, m| {
+            if !out.last().is_some_and(|l| l.ends_with(&m)) {
+                out.push(m);
+            }
+            out
+        })
         .join(": ")
 }
 

@@ -5,6 +5,7 @@ use std::io::Write;
 
 use crate::domain::charge::Time;
 use crate::domain::forecast::Forecast;
+use crate::domain::layout::AnodeKind;
 use crate::domain::plant_time::{is_old, relative};
 use crate::plant::Plant;
 
@@ -35,7 +36,13 @@ fn write_forecast(out: &mut impl Write, plant: &Plant, f: &Forecast) -> std::io:
     )?;
     for c in &f.cells {
         let (frac, mm, pull) = match &c.anode {
-            Some(a) => (format!("{:.0}%", a.remaining_fraction * 100.0), format!("{:.1}", a.thickness_mm), due(plant, a.pull_due, f.as_of)),
+            // inert anodes are not consumed: no fraction, thickness or pull
+            Some(_) if c.anode_kind == AnodeKind::Inert => ("inert".into(), "-".into(), "-".into()),
+            Some(a) => (
+                format!("{:.0}%", a.remaining_fraction * 100.0),
+                a.thickness_mm.map_or("-".into(), |mm| format!("{mm:.1}")),
+                due(plant, a.pull_due, f.as_of),
+            ),
             None => ("-".into(), "-".into(), "-".into()),
         };
         let (kg, harvest) = match &c.cathode {

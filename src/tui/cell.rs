@@ -56,12 +56,8 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
             l.push(Line::styled(format!("Anodes set {}", when(app, a.set_at)), bold()));
             l.push(Line::raw(format!("  {} × {:.0} kg at set", a.count, a.initial_kg)));
             if c.anode_kind == crate::domain::layout::AnodeKind::Soluble {
-                l.push(Line::raw(format!(
-                    "  left {:.1} kg each ({:.1} %), ~{:.1} mm",
-                    a.remaining_kg,
-                    a.remaining_fraction * 100.0,
-                    a.thickness_mm
-                )));
+                let mm = a.thickness_mm.map_or(String::new(), |mm| format!(", ~{mm:.1} mm"));
+                l.push(Line::raw(format!("  left {:.1} kg each ({:.1} %){mm}", a.remaining_kg, a.remaining_fraction * 100.0)));
                 l.push(Line::raw(format!("  pull due {}", a.pull_due.map_or("not in sight".into(), |t| when(app, t)))));
             } else {
                 l.push(Line::raw("  inert anodes: not consumed"));
@@ -91,8 +87,12 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     let volts = detail.and_then(|d| d.events.iter().find(|e| e.volts.is_some() && !e.voided).map(|e| (e.at, e.volts.unwrap_or(0.0))));
     match (volts, c.energy_kwh_per_t) {
         (Some((t, v)), Some(e)) => l.push(Line::raw(format!("Voltage {v} V ({}), {e:.0} kWh/t", short(app, t)))),
-        (_, Some(e)) => l.push(Line::raw(format!("Energy {e:.0} kWh/t at the last voltage"))),
-        _ => {}
+        // a reading outside the cell's plausible range gives no energy figure
+        (Some((t, v)), None) => {
+            l.push(Line::styled(format!("Voltage {v} V ({}): implausible, no kWh/t from it", short(app, t)), fg(app, Color::Red)))
+        }
+        (None, Some(e)) => l.push(Line::raw(format!("Energy {e:.0} kWh/t at the last voltage"))),
+        (None, None) => {}
     }
     l.push(Line::raw(format!("Shorts this crop: {}", c.shorts.unwrap_or(0))));
     for w in &c.warnings {
