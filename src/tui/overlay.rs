@@ -114,7 +114,7 @@ pub const CLOSE: &[OverlayBinding] = &[o(Other, Do::Close, "close", Some("closes
 
 pub const MENU_KEYS: &[OverlayBinding] = &[
     o(These(&[Esc]), Do::Cancel, "cancel", Some("cancel")),
-    o(Typed, Do::Pick, "the letter of an entry opens its form", Some("choose")),
+    o(Typed, Do::Pick, "the letter of an entry opens its form", Some("a letter above")),
     o(Other, Do::Cancel, "cancel", None),
 ];
 
@@ -514,9 +514,10 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
             let rows = help_rows(full.height).min(n);
             let top = (*top).min(n - rows);
             let area = centered(full, 78, rows as u16 + 2);
-            let more = if n > rows { format!(" · {}–{} of {n}, ↓ PgDn End scroll", top + 1, top + rows) } else { String::new() };
+            let more = if n > rows { format!(" · lines {}–{} of {n}", top + 1, top + rows) } else { String::new() };
             f.render_widget(Clear, area);
-            let block = Block::default().borders(Borders::ALL).title(format!(" Help{more} ")).title_bottom(" any other key closes ");
+            let block =
+                Block::default().borders(Borders::ALL).title(format!(" Help{more} ")).title_bottom(format!(" {} ", hint_text(HELP)));
             let shown: Vec<Line> = lines.into_iter().skip(top).take(rows).collect();
             f.render_widget(Paragraph::new(shown).block(block), area);
         }
@@ -533,7 +534,7 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
             let (c, col) = state_mark(None);
             lines.push(Line::from(vec![Span::styled(format!("  {c}  "), fg(app, col)), Span::raw("nothing due today")]));
             lines.push(Line::raw("The first state that applies is shown; the cell screen lists them all."));
-            lines.push(Line::raw("Any key closes the legend."));
+            lines.push(keys_line(CLOSE));
             let h = lines.len() as u16 + 2;
             popup(f, centered(full, 72, h), "Legend", lines);
         }
@@ -542,7 +543,7 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
             for (k, _, label) in MENU {
                 lines.push(Line::from(vec![Span::styled(format!("  {k}  "), bold().patch(fg(app, Color::Cyan))), Span::raw(*label)]));
             }
-            lines.push(Line::raw("  Esc  cancel"));
+            lines.push(keys_line(MENU_KEYS));
             let h = lines.len() as u16 + 2;
             popup(f, centered(full, 50, h), "New entry", lines);
         }
@@ -619,7 +620,8 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
         // the board stays in view while a day is chosen; the hint bar says what to do
         Overlay::PlanMove(_) => {}
         Overlay::Notice(text) => {
-            popup(f, centered(full, 70, 5), "Note · any key closes", vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red)))])
+            let lines = vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red))), keys_line(CLOSE)];
+            popup(f, centered(full, 70, 5), "Note", lines)
         }
         Overlay::Draft(d) => {
             let title = super::form::FormKind::from_name(&d.form).map_or(d.form.clone(), |k| k.title().to_string());
