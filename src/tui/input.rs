@@ -29,7 +29,7 @@ pub fn spawn(tx: Sender<Input>) -> std::io::Result<()> {
         let mut stdin = std::io::stdin().lock();
         loop {
             let why = match stdin.read(&mut buf) {
-                Ok(0) => "end of input: the terminal was closed".to_string(),
+                Ok(0) => "the terminal was closed (end of input)".to_string(),
                 Ok(n) => {
                     if parse(&buf[..n]).into_iter().any(|k| tx.send(Input::Key(k)).is_err()) {
                         return;
@@ -37,7 +37,8 @@ pub fn spawn(tx: Sender<Input>) -> std::io::Result<()> {
                     continue;
                 }
                 Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
-                Err(e) => format!("the terminal cannot be read: {e}"),
+                // a hung-up terminal answers EIO
+                Err(e) => format!("the terminal was closed ({})", e.to_string().split(" (os error").next().unwrap_or("read error")),
             };
             let _ = tx.send(Input::Gone(why));
             return;

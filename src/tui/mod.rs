@@ -15,6 +15,9 @@ mod rectifier;
 mod tankhouse;
 
 use anyhow::Result;
+use ratatui::crossterm::cursor::Show;
+use ratatui::crossterm::execute;
+use ratatui::crossterm::terminal::{EnterAlternateScreen, LeaveAlternateScreen, disable_raw_mode, enable_raw_mode};
 use std::io::Write;
 use std::panic::AssertUnwindSafe;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
@@ -238,10 +241,10 @@ pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
     }
     let (tx, keys) = mpsc::channel();
     input::spawn(tx)?;
-    let mut terminal = ratatui::try_init()?;
+    quiet_restore_on_panic();
+    let mut terminal = enter()?;
     let ended = std::panic::catch_unwind(AssertUnwindSafe(|| event_loop(&mut terminal, &mut session, &keys, &which)));
-    // the terminal may be gone: restoring it may fail, and that is no news to print
-    let _ = ratatui::try_restore();
+    leave(terminal);
     let mut err = std::io::stderr();
     match ended {
         Ok(Ok(Ended::Quit)) => Ok(()),
@@ -267,6 +270,34 @@ pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
             Err(Panicked.into())
         }
     }
+}
+
+/// Raw mode and the alternate screen, and a terminal to draw on.
+fn enter() -> std::io::Result<ratatui::DefaultTerminal> {
+    enable_raw_mode()?;
+    execute!(std::io::stdout(), EnterAlternateScreen)?;
+    ratatui::Terminal::new(ratatui::prelude::CrosstermBackend::new(std::io::stdout()))
+}
+
+/// Puts the terminal back (line mode, main screen, cursor shown), each step
+/// tried even if another fails. The terminal may be gone, so nothing here
+/// prints or panics: ratatui's own restore and its terminal's drop print with
+/// `eprintln!`, which panics on a dead terminal, so the terminal is not dropped.
+fn leave(terminal: ratatui::DefaultTerminal) {
+    let _ = disable_raw_mode();
+    let _ = execute!(std::io::stdout(), LeaveAlternateScreen, Show);
+    std::mem::forget(terminal);
+}
+
+/// A panic inside the screens puts the terminal back first, quietly, then the
+/// hook before it says what happened in one line.
+fn quiet_restore_on_panic() {
+    let hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        let _ = disable_raw_mode();
+        let _ = execute!(std::io::stdout(), LeaveAlternateScreen, Show);
+        hook(info);
+    }));
 }
 
 /// Draws and reads keys until the screens end. It waits on the keyboard
