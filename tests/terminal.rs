@@ -114,10 +114,12 @@ impl Term {
     }
 
     /// Waits for the program to end: how long it took, or `None` after `limit`.
+    /// Ending means exiting cleanly: not killed by a signal or an abort.
     fn exited_within(&mut self, limit: Duration) -> Option<Duration> {
         let t0 = Instant::now();
         while t0.elapsed() < limit {
-            if self.child.try_wait().unwrap().is_some() {
+            if let Some(status) = self.child.try_wait().unwrap() {
+                assert!(status.success(), "tankbook ended with {status:?}");
                 return Some(t0.elapsed());
             }
             std::thread::sleep(Duration::from_millis(20));
