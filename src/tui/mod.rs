@@ -239,11 +239,13 @@ pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
         signal_hook::flag::register(sig, Arc::clone(&signalled))?;
         signal_hook::flag::register_usize(sig, Arc::clone(&which), sig as usize)?;
     }
+    let resized = Arc::new(AtomicBool::new(true));
+    signal_hook::flag::register(signal_hook::consts::SIGWINCH, Arc::clone(&resized))?;
     let (tx, keys) = mpsc::channel();
     input::spawn(tx)?;
     quiet_restore_on_panic();
     let mut terminal = enter()?;
-    let ended = std::panic::catch_unwind(AssertUnwindSafe(|| event_loop(&mut terminal, &mut session, &keys, &which)));
+    let ended = std::panic::catch_unwind(AssertUnwindSafe(|| event_loop(&mut terminal, &mut session, &keys, &which, &resized)));
     leave(terminal);
     let mut err = std::io::stderr();
     match ended {
@@ -308,8 +310,10 @@ fn event_loop(
     session: &mut Session,
     keys: &mpsc::Receiver<input::Input>,
     which: &AtomicUsize,
+    resized: &AtomicBool,
 ) -> Result<Ended> {
     let mut size = (0, 0);
+    let mut size_asked = Instant::now();
     let mut dirty = true;
     let mut last_reload = Instant::now();
     loop {
@@ -320,15 +324,18 @@ fn event_loop(
         if session.app.quit {
             return Ok(Ended::Quit);
         }
-        // the size is asked each turn (one ioctl), so a resize is never missed
-        match terminal.size() {
-            Ok(s) if (s.width, s.height) != size => {
-                size = (s.width, s.height);
-                session.act(Action::Resize(s.width, s.height));
-                dirty = true;
+        // the size is asked on SIGWINCH, and every few seconds in case one was missed
+        if resized.swap(false, Ordering::Relaxed) || size_asked.elapsed() > StdDuration::from_secs(2) {
+            size_asked = Instant::now();
+            match terminal.size() {
+                Ok(s) if (s.width, s.height) != size => {
+                    size = (s.width, s.height);
+                    session.act(Action::Resize(s.width, s.height));
+                    dirty = true;
+                }
+                Ok(_) => {}
+                Err(e) => return Ok(Ended::Gone(format!("the terminal's size cannot be read: {e}"))),
             }
-            Ok(_) => {}
-            Err(e) => return Ok(Ended::Gone(format!("the terminal's size cannot be read: {e}"))),
         }
         if dirty {
             if let Err(e) = terminal.draw(|f| draw(f, &session.app)) {
