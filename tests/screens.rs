@@ -423,7 +423,7 @@ fn help_scrolls_to_the_quit_key_at_80x24() {
         f.s.press(Key::Char('j'));
     }
     let end = screen(&f.s, 80, 24);
-    assert!(end.contains("           q  quit"), "{end}");
+    assert!(end.contains("q/Ctrl-C  quit"), "{end}");
     assert!(matches!(f.s.app.overlay, Some(Overlay::Help(_))), "scrolling keeps the help open");
     f.s.press(Key::Home);
     assert!(screen(&f.s, 80, 24).contains("Tankhouse screen"));

@@ -249,9 +249,9 @@ fn help_reaches_the_quit_key_at_80x24() {
     t.start();
     t.send("?");
     t.wait_for("Help").unwrap();
-    assert!(!t.text().contains("           q  quit"));
+    assert!(!t.text().contains("q/Ctrl-C  quit"));
     t.send("\x1b[F");
-    t.wait_for("           q  quit").unwrap();
+    t.wait_for("q/Ctrl-C  quit").unwrap();
     t.send("q");
     t.wait_for("q quit").unwrap();
     assert!(t.child.try_wait().unwrap().is_none(), "q closes the help; it does not quit");
@@ -272,4 +272,21 @@ fn without_a_terminal_bare_tankbook_prints_the_forecast_table() {
     assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
     assert!(stdout.contains("forecast as of") && stdout.contains("harvest due"), "{stdout}");
     assert!(stdout.lines().filter(|l| l.starts_with("A0")).count() >= 3, "{stdout}");
+}
+
+#[test]
+fn ctrl_c_in_a_form_ends_at_once_and_keeps_the_form() {
+    let (_dir, db) = plant();
+    let mut t = Term::open(&db);
+    t.start();
+    t.type_keys("nt");
+    t.wait_for("Shorts found").unwrap();
+    t.type_keys("3");
+    t.send("\x03");
+    assert!(t.exited_within(Duration::from_secs(2)).is_some(), "Ctrl-C ends the screens");
+    drop(t);
+    let mut t = Term::open(&db);
+    t.start();
+    t.wait_for("Shorts found: typed but not recorded").unwrap();
+    t.wait_for("ended by Ctrl-C").unwrap();
 }

@@ -476,6 +476,16 @@ impl App {
         Opts { by: self.who.clone().unwrap_or_default(), force, now: self.as_of }
     }
 
+    /// Ctrl-C: whether the screens end now (a form being typed is then kept as a
+    /// draft). With an entry that failed to save, only in memory, it asks first.
+    pub fn interrupt(&mut self) -> bool {
+        if self.unsaved.is_some() {
+            self.overlay = Some(Overlay::ConfirmQuit);
+            return false;
+        }
+        true
+    }
+
     /// The form typed but not yet recorded (in a form or its review), if any:
     /// what is kept as a draft when the terminal goes away.
     pub fn unconfirmed_form(&self) -> Option<&Form> {

@@ -80,8 +80,8 @@ pub fn parse(bytes: &[u8]) -> Vec<Key> {
             b'\r' | b'\n' => out.push(Key::Enter),
             b'\t' => out.push(Key::Tab),
             0x7f | 0x08 => out.push(Key::Backspace),
-            // Ctrl-C (raw mode delivers it as a byte): quit, as the q key
-            0x03 => out.push(Key::Char('q')),
+            // Ctrl-C: raw mode delivers it as a byte, not as SIGINT
+            0x03 => out.push(Key::CtrlC),
             0x00..=0x1f => {}
             _ => {
                 // one UTF-8 character
@@ -146,7 +146,7 @@ mod tests {
         assert_eq!(parse(b"\x1b"), vec![Key::Esc]);
         assert_eq!(parse(b"a\r\t\x7f"), vec![Key::Char('a'), Key::Enter, Key::Tab, Key::Backspace]);
         assert_eq!(parse("é±".as_bytes()), vec![Key::Char('é'), Key::Char('±')]);
-        assert_eq!(parse(b"\x03"), vec![Key::Char('q')]);
+        assert_eq!(parse(b"\x03"), vec![Key::CtrlC]);
         // an unknown or cut-off sequence is dropped, not typed
         assert_eq!(parse(b"\x1b[99~x"), vec![Key::Char('x')]);
         assert_eq!(parse(b"\x1b[1;"), vec![]);

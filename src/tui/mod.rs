@@ -195,7 +195,7 @@ pub enum Ended {
     Quit,
     /// The terminal went away (closed, end of input, a read or write error).
     Gone(String),
-    /// SIGTERM, SIGHUP or SIGINT.
+    /// SIGTERM, SIGHUP, SIGINT or Ctrl-C.
     Signal(&'static str),
 }
 
@@ -344,6 +344,12 @@ fn event_loop(
             dirty = false;
         }
         match keys.recv_timeout(StdDuration::from_millis(100)) {
+            Ok(input::Input::Key(Key::CtrlC)) => {
+                if session.app.interrupt() {
+                    return Ok(Ended::Signal("Ctrl-C"));
+                }
+                dirty = true;
+            }
             Ok(input::Input::Key(k)) => {
                 session.press(k);
                 dirty = true;
