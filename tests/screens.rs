@@ -467,3 +467,27 @@ fn the_night_shift_sees_the_coming_days_first_shift_work() {
     s.app.status = None;
     snap("night_shift_plan", &s);
 }
+
+#[test]
+fn an_entry_that_did_not_save_is_kept_as_a_draft_when_the_terminal_goes() {
+    let mut f = session();
+    start(&mut f);
+    f.s.type_str("/A05");
+    f.s.press(Key::Enter);
+    f.s.type_str("nt");
+    f.s.type_str("2");
+    f.s.press(Key::Enter);
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Review(_))), "{:?}", f.s.app.overlay);
+    // the yes asks for a commit; the commit fails (a full disk, say)
+    let Some(tankbook::tui::app::Effect::Commit(batch)) = f.s.app.update(Action::Input(Key::Char('y'))) else { panic!() };
+    f.s.app.committed(batch, Err("disk I/O error".into()));
+    assert!(f.s.app.unconfirmed_form().is_some(), "the form of the unsaved entry is kept");
+    let id = f.s.keep_draft("the terminal was closed").expect("kept");
+    let d = f.s.plant.drafts().unwrap();
+    assert_eq!(d.iter().map(|d| (d.id, d.form.as_str())).collect::<Vec<_>>(), [(id, "shorts")]);
+    assert!(d[0].fields.contains(&("count".to_string(), "2".to_string())), "{:?}", d[0].fields);
+    // once it saves, nothing is left to keep
+    f.s.press(Key::Esc);
+    f.s.press(Key::Char('w'));
+    assert!(f.s.app.unsaved.is_none() && f.s.app.unconfirmed_form().is_none());
+}

@@ -144,6 +144,10 @@ pub struct App {
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
+    /// The form those entries were typed in: kept as a draft if the terminal goes away.
+    pub unsaved_form: Option<Form>,
+    /// The form of the entries being committed, until the result is known.
+    pub(super) committing: Option<Form>,
     /// Forms kept when the terminal went away last time, not yet offered back.
     pub drafts: Vec<Draft>,
     pub width: u16,
@@ -174,6 +178,8 @@ impl App {
             plan: PlanScreen::default(),
             status: None,
             unsaved: None,
+            unsaved_form: None,
+            committing: None,
             drafts: Vec::new(),
             width: 80,
             height: 24,
@@ -492,7 +498,8 @@ impl App {
         match &self.overlay {
             Some(Overlay::Form(f)) => Some(f),
             Some(Overlay::Review(r)) => Some(&r.form),
-            _ => None,
+            // an entry that did not save is only in memory: it is kept the same way
+            _ => self.unsaved_form.as_ref(),
         }
     }
 
@@ -589,6 +596,8 @@ impl App {
         match result {
             Ok(rec) => {
                 self.unsaved = None;
+                self.unsaved_form = None;
+                self.committing = None;
                 let ids: Vec<String> = rec.iter().map(|r| r.event.to_string()).collect();
                 let what = entries.first().map(|(e, _)| e.kind().name()).unwrap_or("entry");
                 let cells: Vec<&str> = entries.iter().filter_map(|(e, _)| e.cell()).collect();
@@ -602,6 +611,9 @@ impl App {
             }
             Err(e) => {
                 self.unsaved = Some(entries);
+                if let Some(form) = self.committing.take() {
+                    self.unsaved_form = Some(form);
+                }
                 self.warn(format!("NOT SAVED: {e}. The entry is kept here: press w to try again"));
                 None
             }

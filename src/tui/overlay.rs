@@ -468,6 +468,7 @@ impl App {
                     return Some(Effect::ImportReading { circuit, at, amps, by: self.who.clone().unwrap_or_default() });
                 }
                 let forced = r.forced;
+                self.committing = Some(r.form);
                 Some(Effect::Commit(r.entries.into_iter().map(|(e, o)| (e, Opts { force: forced, ..o })).collect()))
             }
             Some(Do::Confirm) => {
