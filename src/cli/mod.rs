@@ -40,15 +40,19 @@ pub fn default_db() -> Result<PathBuf> {
 /// screens the terminal is restored before it (ratatui's hook runs first).
 fn one_line_panics() {
     std::panic::set_hook(Box::new(|info| {
-        let what = info
-            .payload()
-            .downcast_ref::<&str>()
-            .map(|s| s.to_string())
-            .or_else(|| info.payload().downcast_ref::<String>().cloned())
-            .unwrap_or_else(|| "no message".into());
-        let place = info.location().map_or(String::new(), |l| format!(" at {}:{}", l.file(), l.line()));
-        let _ = writeln!(std::io::stderr(), "tankbook: internal error{place}: {what} (nothing was recorded by it; please report it)");
+        let _ = writeln!(std::io::stderr(), "{}", panic_line(info.payload(), info.location()));
     }));
+}
+
+/// The one line a panic prints: where and what, never a backtrace.
+fn panic_line(payload: &(dyn std::any::Any + Send), at: Option<&std::panic::Location<'_>>) -> String {
+    let what = payload
+        .downcast_ref::<&str>()
+        .map(|s| s.to_string())
+        .or_else(|| payload.downcast_ref::<String>().cloned())
+        .unwrap_or_else(|| "no message".into());
+    let place = at.map_or(String::new(), |l| format!(" at {}:{}", l.file(), l.line()));
+    format!("tankbook: internal error{place}: {} (nothing was recorded by it; please report it)", what.replace('\n', " "))
 }
 
 pub fn main() -> ExitCode {
@@ -282,4 +286,27 @@ fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
         LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t(Field::From, &from)?, amps }, who),
         LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t(Field::At, &at)?, volts }, who),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_panic_is_said_in_one_line() {
+        let at = std::panic::Location::caller();
+        let line = panic_line(&String::from("index out of bounds:\nthe len is 3"), Some(at));
+        assert!(line.starts_with("tankbook: internal error at src/cli/mod.rs:"), "{line}");
+        assert!(line.contains("index out of bounds: the len is 3") && !line.contains('\n'), "{line}");
+        assert!(panic_line(&42u8, None).contains("no message"));
+    }
+
+    #[test]
+    fn a_rejection_names_the_option_the_user_typed() {
+        let e = anyhow::Error::from(PlantError::Rejected { field: Field::TotalKg, entry: Some(1), message: "too heavy".into() });
+        assert_eq!(message(&e.context("logging")), "logging: entry 2 of the batch, --total-kg: too heavy");
+        for f in [Field::Cell, Field::At, Field::MeanKg, Field::Volts, Field::By] {
+            assert!(option(f).starts_with("--"), "{f:?}");
+        }
+    }
 }
