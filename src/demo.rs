@@ -440,8 +440,8 @@ fn plan_cells(designs: &[CircuitDesign], spec: &DemoSpec, start: Time, now: Time
 /// Refuses to write over a database that holds a real plant.
 pub fn check_target(plant: &Plant) -> Result<()> {
     match plant.info() {
-        Ok(info) if info.name != DEMO_NAME => Err(PlantError::Rejected {
-            field: "--db".into(),
+        Ok(info) if info.name != DEMO_NAME => Err(PlantError::Setting {
+            name: "--db".into(),
             message: format!(
                 "{} holds the plant '{}'; the demo writes only to a new file or to a demo database",
                 plant.path().display(),

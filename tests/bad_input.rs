@@ -52,7 +52,7 @@ fn bad_layouts() {
         ("zero_anodes.toml", &["zero_anodes.toml", "line 9", "anodes_per_cell is 0"]),
         ("scrap_lower_below_lugs.toml", &["line 15", "scrap_lower", "lug_kg"]),
         ("cathode_count.toml", &["line 10", "cathodes_as_given"]),
-        ("efficiency_too_high.toml", &["line 17", "cathode_efficiency", "(0, 1.05]"]),
+        ("efficiency_too_high.toml", &["line 17", "cathode_efficiency", "(0, 1]"]),
         ("scrap_bounds_order.toml", &["line 14", "out of order"]),
     ];
     for (file, frags) in cases {

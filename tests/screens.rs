@@ -12,6 +12,7 @@ use tankbook::demo::{DemoSpec, build};
 use tankbook::domain::charge::Time;
 use tankbook::plant::Plant;
 use tankbook::tui::app::{Action, Overlay, View};
+use tankbook::tui::form::FieldKey;
 use tankbook::tui::keys::Key;
 use tankbook::tui::{Session, draw};
 
@@ -197,11 +198,11 @@ fn moving_jumping_and_views() {
     assert_eq!(f.s.app.selected().unwrap().cell, "C01");
     f.s.press(Key::Enter);
     assert_eq!(f.s.app.view, View::Cell);
-    assert_eq!(f.s.app.detail.as_ref().unwrap().forecast.cell, "C01");
+    assert_eq!(f.s.app.cell.detail.as_ref().unwrap().forecast.cell, "C01");
     f.s.press(Key::Esc);
     f.s.press(Key::Char('r'));
     assert_eq!(f.s.app.view, View::Rectifier);
-    assert_eq!(f.s.app.trends.len(), 2);
+    assert_eq!(f.s.app.rectifiers.trends.len(), 2);
     f.s.press(Key::Char('q'));
     assert!(f.s.app.quit);
 }
@@ -330,7 +331,7 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
     start(&mut f);
     f.s.press(Key::Char('p'));
     assert_eq!(f.s.app.view, View::Plan);
-    let plan = f.s.app.plan.clone().expect("a plan");
+    let plan = f.s.app.plan.plan.clone().expect("a plan");
     assert!(plan.days.iter().all(|d| d.crew_load <= d.crew_capacity));
     // a change of the running load whose window opens after the first day and has another day with crew to spare
     let (day, job, target) = plan
@@ -362,25 +363,132 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
     assert_eq!(f.s.app.selected_change().unwrap().cell, cell);
     f.s.press(Key::Char('m'));
     assert!(matches!(&f.s.app.overlay, Some(Overlay::PlanMove(c)) if *c == cell));
-    while f.s.app.plan_day != target {
-        f.s.press(if f.s.app.plan_day < target { Key::Down } else { Key::Up });
+    while f.s.app.plan.day != target {
+        f.s.press(if f.s.app.plan.day < target { Key::Down } else { Key::Up });
     }
     f.s.press(Key::Enter);
-    let p = f.s.app.plan.clone().unwrap();
+    let p = f.s.app.plan.plan.clone().unwrap();
     let job = p.days[target].anode_changes.iter().position(|c| c.cell == cell && c.cycle == 0).expect("moved to the chosen day");
     assert!(p.days[target].anode_changes[job].moved);
     assert!(p.days.iter().all(|d| d.crew_load <= d.crew_capacity));
     // the first day is before the window opens: refused, with a notice, and the earlier move stays
-    f.s.app.plan_day = target;
-    f.s.app.plan_job = job;
+    f.s.app.plan.day = target;
+    f.s.app.plan.job = job;
     f.s.press(Key::Char('m'));
-    while f.s.app.plan_day != 0 {
+    while f.s.app.plan.day != 0 {
         f.s.press(Key::Up);
     }
     f.s.press(Key::Enter);
     assert!(matches!(&f.s.app.overlay, Some(Overlay::Notice(t)) if t.contains(&cell)), "{:?} {:?}", f.s.app.overlay, f.s.app.status);
-    assert_eq!(f.s.app.plan_moves, vec![(cell.clone(), p.days[target].date)], "the refused move is taken back");
+    assert_eq!(f.s.app.plan.moves, vec![(cell.clone(), p.days[target].date)], "the refused move is taken back");
     f.s.press(Key::Esc);
     f.s.press(Key::Char('z'));
-    assert!(f.s.app.plan_moves.is_empty());
+    assert!(f.s.app.plan.moves.is_empty());
+}
+
+#[test]
+fn a_bad_crop_weight_in_the_anode_change_form_is_shown_beside_the_crop_field() {
+    let mut f = session();
+    start(&mut f);
+    let due =
+        f.s.app.cells.iter().find(|c| c.anode.as_ref().and_then(|a| a.pull_due).is_some_and(|t| t < f.s.app.day_end())).unwrap().clone();
+    f.s.type_str(&format!("/{}", due.cell));
+    f.s.press(Key::Enter);
+    let a = due.anode.as_ref().unwrap();
+    let scrap = format!("{:.0}", a.remaining_kg * f64::from(a.count));
+    f.s.type_str("na");
+    f.s.type_str(&scrap);
+    f.s.press(Key::Tab);
+    // a plausible scrap and an impossible crop: over 300 kg a cathode for 51 cathodes
+    f.s.type_str("99999");
+    f.s.press(Key::Tab);
+    f.s.press(Key::Tab);
+    f.s.type_str("381");
+    f.s.press(Key::Enter);
+    let Some(Overlay::Form(form)) = &f.s.app.overlay else { panic!("{:?}", f.s.app.overlay) };
+    let err = |k: FieldKey| form.fields.iter().find(|x| x.key == k).unwrap().error.clone();
+    assert!(err(FieldKey::CropKg).is_some_and(|e| e.contains("at most 15300")), "{form:?}");
+    assert_eq!(err(FieldKey::TotalKg), None, "the scrap weight was fine");
+    assert_eq!(form.fields[form.focus].key, FieldKey::CropKg, "the cursor goes to the crop field");
+    assert!(screen(&f.s, 80, 24).contains("✗ 99999 kg is out of range"));
+}
+
+#[test]
+fn help_scrolls_to_the_quit_key_at_80x24() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('?'));
+    let first = screen(&f.s, 80, 24);
+    assert!(first.contains("previous cell") && !first.contains(" quit"), "{first}");
+    for _ in 0..10 {
+        f.s.press(Key::Char('j'));
+    }
+    let end = screen(&f.s, 80, 24);
+    assert!(end.contains("q/Ctrl-C  quit"), "{end}");
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Help(_))), "scrolling keeps the help open");
+    f.s.press(Key::Home);
+    assert!(screen(&f.s, 80, 24).contains("Tankhouse screen"));
+    f.s.press(Key::Char('q'));
+    assert!(f.s.app.overlay.is_none() && !f.s.app.quit, "q closes the help, it does not quit");
+}
+
+/// 04:58 plant time (Madrid, UTC+1 in winter, IANA tz database) on 21 November:
+/// still production day 11-20, which starts at 06:00, in its night shift.
+fn night() -> Time {
+    DateTime::parse_from_rfc3339("2026-11-21T03:58:00Z").unwrap().with_timezone(&Utc)
+}
+
+#[test]
+fn the_night_shift_sees_the_coming_days_first_shift_work() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plant.db");
+    Plant::open(demo_db()).unwrap().backup(&path).unwrap();
+    let mut s = Session::open(Plant::open(&path).unwrap(), night, false).unwrap();
+    s.app.db_path = "demo.db".into();
+    s.act(Action::Resize(80, 24));
+    s.type_str("ak");
+    s.press(Key::Enter);
+    s.app.status = None;
+    let coming = s.app.coming_shift().expect("the last shift of the day shows the next day's first shift");
+    let zone = s.app.days.zone;
+    assert_eq!((zone.show(coming.shift.start), zone.show(coming.shift.end)), ("2026-11-21 06:00".into(), "2026-11-21 18:00".into()));
+    // what the header counts, counted here from the forecast: due from 06:00 to 18:00 on 11-21
+    let within = |t: Option<Time>| t.is_some_and(|t| t >= coming.shift.start && t < coming.shift.end);
+    let harvests = s.app.cells.iter().filter(|c| within(c.cathode.as_ref().and_then(|k| k.harvest_due))).count();
+    assert_eq!(coming.harvests, harvests);
+    assert!(coming.harvests + coming.anode_changes > 0, "the demo has work on the morning of 11-21");
+    let text = screen(&s, 80, 24);
+    assert!(text.lines().next().unwrap().contains("day 11-20 · night shift"), "{text}");
+    assert!(text.lines().nth(1).unwrap().starts_with(" next day 11-21 06:00→18:00: "), "{text}");
+    let wide = screen(&s, 160, 48);
+    assert!(wide.lines().next().unwrap().contains("day 11-20 (06:00→06:00) · night shift"), "{wide}");
+    assert!(wide.lines().nth(1).unwrap().contains("first shift (day shift) 06:00→18:00"), "{wide}");
+    snap("night_shift_tankhouse", &s);
+    s.press(Key::Char('p'));
+    s.app.status = None;
+    snap("night_shift_plan", &s);
+}
+
+#[test]
+fn an_entry_that_did_not_save_is_kept_as_a_draft_when_the_terminal_goes() {
+    let mut f = session();
+    start(&mut f);
+    f.s.type_str("/A05");
+    f.s.press(Key::Enter);
+    f.s.type_str("nt");
+    f.s.type_str("2");
+    f.s.press(Key::Enter);
+    assert!(matches!(f.s.app.overlay, Some(Overlay::Review(_))), "{:?}", f.s.app.overlay);
+    // the yes asks for a commit; the commit fails (a full disk, say)
+    let Some(tankbook::tui::app::Effect::Commit(batch)) = f.s.app.update(Action::Input(Key::Char('y'))) else { panic!() };
+    f.s.app.committed(batch, Err("disk I/O error".into()));
+    assert!(f.s.app.unconfirmed_form().is_some(), "the form of the unsaved entry is kept");
+    let id = f.s.keep_draft("the terminal was closed").expect("kept");
+    let d = f.s.plant.drafts().unwrap();
+    assert_eq!(d.iter().map(|d| (d.id, d.form.as_str())).collect::<Vec<_>>(), [(id, "shorts")]);
+    assert!(d[0].fields.contains(&("count".to_string(), "2".to_string())), "{:?}", d[0].fields);
+    // once it saves, nothing is left to keep
+    f.s.press(Key::Esc);
+    f.s.press(Key::Char('w'));
+    assert!(f.s.app.unsaved.is_none() && f.s.app.unconfirmed_form().is_none());
 }

@@ -9,6 +9,7 @@ mod report;
 use anyhow::{Context, Result, anyhow};
 use chrono::Utc;
 use clap::Parser;
+use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -16,8 +17,8 @@ pub use args::{Cli, Command};
 use args::{ImportCmd, LayoutCmd, LogCmd, Who};
 
 use crate::domain::charge::Time;
-use crate::domain::entry::Entry;
-use crate::plant::{Opts, Plant};
+use crate::domain::entry::{Entry, Field};
+use crate::plant::{Opts, Plant, PlantError};
 
 /// The clock: `TANKBOOK_NOW` (RFC 3339) when set, for demos and tests; else the system clock.
 pub fn now() -> Result<Time> {
@@ -36,7 +37,27 @@ pub fn default_db() -> Result<PathBuf> {
     Ok(dirs.data_dir().join("plant.db"))
 }
 
+/// A panic prints one line (where, and what), never a backtrace; inside the
+/// screens the terminal is restored before it (ratatui's hook runs first).
+fn one_line_panics() {
+    std::panic::set_hook(Box::new(|info| {
+        let _ = writeln!(std::io::stderr(), "{}", panic_line(info.payload(), info.location()));
+    }));
+}
+
+/// The one line a panic prints: where and what, never a backtrace.
+fn panic_line(payload: &(dyn std::any::Any + Send), at: Option<&std::panic::Location<'_>>) -> String {
+    let what = payload
+        .downcast_ref::<&str>()
+        .map(|s| s.to_string())
+        .or_else(|| payload.downcast_ref::<String>().cloned())
+        .unwrap_or_else(|| "no message".into());
+    let place = at.map_or(String::new(), |l| format!(" at {}:{}", l.file(), l.line()));
+    format!("tankbook: internal error{place}: {} (nothing was recorded by it; please report it)", what.replace('\n', " "))
+}
+
 pub fn main() -> ExitCode {
+    one_line_panics();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
@@ -47,11 +68,54 @@ pub fn main() -> ExitCode {
     };
     match run(cli) {
         Ok(()) => ExitCode::SUCCESS,
+        // said in one line by the panic hook already
+        Err(e) if e.is::<crate::tui::Panicked>() => ExitCode::from(1),
         Err(e) => {
-            eprintln!("tankbook: {e:#}");
+            // stderr may be a terminal that is gone: never panic over it
+            let _ = writeln!(std::io::stderr(), "tankbook: {}", message(&e));
             ExitCode::from(1)
         }
     }
+}
+
+/// The command-line option that sets an entry field.
+pub fn option(field: Field) -> &'static str {
+    match field {
+        Field::Cell => "--cell",
+        Field::Circuit => "--circuit",
+        Field::At => "--at",
+        Field::From => "--from",
+        Field::To => "--to",
+        Field::TotalKg => "--total-kg",
+        Field::Count => "--count",
+        Field::MeanKg => "--mean-kg",
+        Field::Amps => "--amps",
+        Field::Volts => "--volts",
+        Field::By => "--by",
+        Field::Event => "EVENT",
+    }
+}
+
+/// An error as the command line says it: each cause in turn, a refused entry
+/// naming the option the user typed.
+fn message(e: &anyhow::Error) -> String {
+    e.chain()
+        .map(|cause| match cause.downcast_ref::<PlantError>() {
+            Some(PlantError::Rejected { field, entry, message }) => {
+                let place = entry.map_or(String::new(), |i| format!("entry {} of the batch, ", i + 1));
+                format!("{place}{}: {message}", option(*field))
+            }
+            _ => cause.to_string(),
+        })
+        // an error that shows its source in its own text (`{file}: {source}`) is followed by it in
+        // the chain: say each text once
+        .fold(Vec::<String>::new(), |mut out, m| {
+            if !out.last().is_some_and(|l| l.ends_with(&m)) {
+                out.push(m);
+            }
+            out
+        })
+        .join(": ")
 }
 
 fn open(db: &Option<PathBuf>) -> Result<Plant> {
@@ -120,14 +184,14 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Events(a) => print::events(&plant, a.cell.as_deref(), a.limit, a.json)?,
         Command::Forecast(a) => {
             let as_of = match &a.at {
-                Some(s) => plant.parse_time("--at", s)?,
+                Some(s) => plant.parse_time(Field::At, s)?,
                 None => now,
             };
             let f = plant.forecast(as_of, a.cell.as_deref())?;
             if a.json {
                 println!("{}", serde_json::to_string_pretty(&f)?);
             } else {
-                print::forecast(&plant, &f);
+                print::forecast(&plant, &f)?;
             }
         }
         Command::Plan(a) => plan::run(&plant, a, now)?,
@@ -265,30 +329,58 @@ fn clock() -> Time {
 }
 
 /// Opens the screens, or says how to start when the database holds no plant.
+/// Without a terminal (a pipe, cron, a script) it prints the forecast table instead.
 fn screens(plant: Plant) -> Result<()> {
     if !plant.has_layout()? {
         return print::empty(&plant);
     }
     plant.refuse_damage()?;
+    if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
+        let f = plant.forecast(clock(), None)?;
+        return print::forecast(&plant, &f);
+    }
     crate::tui::run(plant, clock)
 }
 
 fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
-    let t = |field: &str, s: &str| plant.parse_time(field, s);
+    let t = |field: Field, s: &str| plant.parse_time(field, s);
     Ok(match cmd {
-        LogCmd::Anodes { cell, at, count, mean_kg, who } => (Entry::Anodes { cell, at: t("--at", &at)?, count, mean_kg }, who),
-        LogCmd::Harvest { cell, at, total_kg, who } => (Entry::Harvest { cell, at: t("--at", &at)?, total_kg }, who),
-        LogCmd::Scrap { cell, at, total_kg, who } => (Entry::Scrap { cell, at: t("--at", &at)?, total_kg }, who),
+        LogCmd::Anodes { cell, at, count, mean_kg, who } => (Entry::Anodes { cell, at: t(Field::At, &at)?, count, mean_kg }, who),
+        LogCmd::Harvest { cell, at, total_kg, who } => (Entry::Harvest { cell, at: t(Field::At, &at)?, total_kg }, who),
+        LogCmd::Scrap { cell, at, total_kg, who } => (Entry::Scrap { cell, at: t(Field::At, &at)?, total_kg }, who),
         LogCmd::Cutout { cell, from, to, who } => {
             let to = match to {
-                Some(s) => Some(t("--to", &s)?),
+                Some(s) => Some(t(Field::To, &s)?),
                 None => None,
             };
-            (Entry::Cutout { cell, from: t("--from", &from)?, to }, who)
+            (Entry::Cutout { cell, from: t(Field::From, &from)?, to }, who)
         }
-        LogCmd::Outage { circuit, from, to, who } => (Entry::Outage { circuit, from: t("--from", &from)?, to: t("--to", &to)? }, who),
-        LogCmd::Shorts { cell, at, count, who } => (Entry::Shorts { cell, at: t("--at", &at)?, count }, who),
-        LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t("--from", &from)?, amps }, who),
-        LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t("--at", &at)?, volts }, who),
+        LogCmd::Outage { circuit, from, to, who } => (Entry::Outage { circuit, from: t(Field::From, &from)?, to: t(Field::To, &to)? }, who),
+        LogCmd::Shorts { cell, at, count, who } => (Entry::Shorts { cell, at: t(Field::At, &at)?, count }, who),
+        LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t(Field::From, &from)?, amps }, who),
+        LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t(Field::At, &at)?, volts }, who),
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_panic_is_said_in_one_line() {
+        let at = std::panic::Location::caller();
+        let line = panic_line(&String::from("index out of bounds:\nthe len is 3"), Some(at));
+        assert!(line.starts_with("tankbook: internal error at src/cli/mod.rs:"), "{line}");
+        assert!(line.contains("index out of bounds: the len is 3") && !line.contains('\n'), "{line}");
+        assert!(panic_line(&42u8, None).contains("no message"));
+    }
+
+    #[test]
+    fn a_rejection_names_the_option_the_user_typed() {
+        let e = anyhow::Error::from(PlantError::Rejected { field: Field::TotalKg, entry: Some(1), message: "too heavy".into() });
+        assert_eq!(message(&e.context("logging")), "logging: entry 2 of the batch, --total-kg: too heavy");
+        for f in [Field::Cell, Field::At, Field::MeanKg, Field::Volts, Field::By] {
+            assert!(option(f).starts_with("--"), "{f:?}");
+        }
+    }
 }

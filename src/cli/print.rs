@@ -1,30 +1,48 @@
 //! Readable tables for the headless commands (the JSON goes out as serde writes it).
 
 use anyhow::Result;
+use std::io::Write;
 
 use crate::domain::charge::Time;
 use crate::domain::forecast::Forecast;
+use crate::domain::layout::AnodeKind;
+use crate::domain::plant_time::{is_old, relative};
 use crate::plant::Plant;
 
+/// A due time on the plant clock and how far away it is: `2026-11-23 15:24 (in 3.4 d)`.
 fn due(plant: &Plant, t: Option<Time>, as_of: Time) -> String {
     match t {
         None => "-".to_string(),
-        Some(t) => {
-            let d = (t - as_of).num_minutes() as f64 / 1440.0;
-            format!("{} ({d:+.1} d)", plant.show_time(t))
-        }
+        Some(t) => format!("{} ({})", plant.show_time(t), relative(t, as_of)),
     }
 }
 
-pub fn forecast(plant: &Plant, f: &Forecast) {
-    println!("forecast as of {} ({})", plant.show_time(f.as_of), f.as_of.to_rfc3339());
-    println!(
-        "{:<7} {:<5} {:<4} {:>5} {:>6} {:<26} {:>6} {:<26} {:>5} {:>5}  notes",
-        "cell", "circ", "sect", "anode", "mm", "pull due", "kg/cth", "harvest due", "η use", "η last"
-    );
+/// The forecast table. Times are on the plant clock, whose zone the first line names.
+/// A closed pipe (`| head`) ends the output quietly.
+pub fn forecast(plant: &Plant, f: &Forecast) -> Result<()> {
+    match write_forecast(&mut std::io::stdout().lock(), plant, f) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        r => Ok(r?),
+    }
+}
+
+fn write_forecast(out: &mut impl Write, plant: &Plant, f: &Forecast) -> std::io::Result<()> {
+    let zone = plant.info().map(|i| i.days.zone.to_string()).unwrap_or_else(|_| "UTC".into());
+    writeln!(out, "forecast as of {} (plant time, {zone}; every time below is on this clock)", plant.show_time(f.as_of))?;
+    writeln!(
+        out,
+        "{:<7} {:<5} {:<4} {:>5} {:>6} {:<30} {:>6} {:<30} {:>6} {:>6}  notes",
+        "cell", "circ", "sect", "anode", "mm", "pull due", "kg/cth", "harvest due", "η used", "η last"
+    )?;
     for c in &f.cells {
         let (frac, mm, pull) = match &c.anode {
-            Some(a) => (format!("{:.0}%", a.remaining_fraction * 100.0), format!("{:.1}", a.thickness_mm), due(plant, a.pull_due, f.as_of)),
+            // inert anodes are not consumed: no fraction, thickness or pull
+            Some(_) if c.anode_kind == AnodeKind::Inert => ("inert".into(), "-".into(), "-".into()),
+            Some(a) => (
+                format!("{:.0}%", a.remaining_fraction * 100.0),
+                a.thickness_mm.map_or("-".into(), |mm| format!("{mm:.1}")),
+                due(plant, a.pull_due, f.as_of),
+            ),
             None => ("-".into(), "-".into(), "-".into()),
         };
         let (kg, harvest) = match &c.cathode {
@@ -35,8 +53,9 @@ pub fn forecast(plant: &Plant, f: &Forecast) {
         if !c.in_circuit {
             notes.insert(0, "cut_out");
         }
-        println!(
-            "{:<7} {:<5} {:<4} {:>5} {:>6} {:<26} {:>6} {:<26} {:>5.1} {:>5}  {}",
+        writeln!(
+            out,
+            "{:<7} {:<5} {:<4} {:>5} {:>6} {:<30} {:>6} {:<30} {:>6} {:>6}  {}",
             c.cell,
             c.circuit,
             c.section,
@@ -45,14 +64,27 @@ pub fn forecast(plant: &Plant, f: &Forecast) {
             pull,
             kg,
             harvest,
-            c.cathode_efficiency * 100.0,
-            c.last_crop_efficiency.map_or("-".into(), |e| format!("{:.1}", e * 100.0)),
+            format!("{:.1}%", c.cathode_efficiency * 100.0),
+            c.last_crop_efficiency.map_or("-".into(), |e| format!("{:.1}%", e * 100.0)),
             notes.join(",")
-        );
+        )?;
     }
-    for w in &f.warnings {
-        println!("warning [{}]: {}", w.code, w.message);
+    writeln!(out, "η used: the cathode current efficiency the forecast runs on; η last: measured on the cell's last weighed crop")?;
+    let ended = |w: &&crate::domain::forecast::Warning| w.to.or(w.from).filter(|_| w.code != "stale_readings");
+    let (old, news): (Vec<_>, Vec<_>) = f.warnings.iter().partition(|w| ended(w).is_some_and(|t| is_old(t, f.as_of)));
+    for w in news {
+        writeln!(out, "warning [{}]: {}", w.code, w.message)?;
     }
+    if let Some(last) = old.iter().filter_map(ended).max() {
+        writeln!(
+            out,
+            "and {} older {}, resolved (the latest ended {}): `tankbook forecast --json` lists them",
+            old.len(),
+            if old.len() == 1 { "warning" } else { "warnings" },
+            plant.show_time(last)
+        )?;
+    }
+    Ok(())
 }
 
 pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Result<()> {

@@ -8,14 +8,15 @@ use std::io::Write as _;
 use super::args::{BalanceArgs, ReportArgs, ShiftArg};
 use crate::domain::balance::Balance;
 use crate::domain::charge::Time;
+use crate::domain::entry::Field;
 use crate::plant::{Plant, ReportPeriod};
 
 pub fn report(plant: &Plant, a: ReportArgs, now: Time) -> Result<()> {
     let which = match (&a.from, &a.to, a.shift) {
         (Some(f), Some(t), _) => {
-            let to = plant.parse_time("--to", t)?;
+            let to = plant.parse_time(Field::To, t)?;
             not_ahead(plant, "--to", to, now)?;
-            ReportPeriod::Between(plant.parse_time("--from", f)?, to)
+            ReportPeriod::Between(plant.parse_time(Field::From, f)?, to)
         }
         (_, _, Some(ShiftArg::Last)) => ReportPeriod::LastShift,
         _ => ReportPeriod::CurrentShift,
@@ -54,11 +55,11 @@ fn emit(text: &str) -> Result<()> {
 pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
     let (month, _) = plant.month_so_far(now)?;
     let from = match &a.from {
-        Some(s) => plant.parse_time("--from", s)?,
+        Some(s) => plant.parse_time(Field::From, s)?,
         None => month,
     };
     let to = match &a.to {
-        Some(s) => plant.parse_time("--to", s)?,
+        Some(s) => plant.parse_time(Field::To, s)?,
         None => now,
     };
     not_ahead(plant, "--to", to, now)?;

@@ -76,15 +76,63 @@ impl Entry {
     }
 }
 
+/// Every field of a shift-log entry, and of an undo: what a rejection names.
+/// The faces map it to what they show (the command line to `--total-kg`, the
+/// screens to a form field), so no layer matches another layer's strings.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Field {
+    Cell,
+    Circuit,
+    At,
+    From,
+    To,
+    TotalKg,
+    Count,
+    MeanKg,
+    Amps,
+    Volts,
+    /// Who recorded the entry (initials).
+    By,
+    /// The entry an undo names.
+    Event,
+}
+
+impl Field {
+    /// The field's name in plain words, for messages that name it.
+    pub fn name(self) -> &'static str {
+        match self {
+            Field::Cell => "cell",
+            Field::Circuit => "circuit",
+            Field::At => "time",
+            Field::From => "from",
+            Field::To => "to",
+            Field::TotalKg => "total kg",
+            Field::Count => "count",
+            Field::MeanKg => "mean kg",
+            Field::Amps => "amps",
+            Field::Volts => "volts",
+            Field::By => "initials",
+            Field::Event => "entry",
+        }
+    }
+}
+
+impl std::fmt::Display for Field {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
 /// A rejected entry: the field and why.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error("{field}: {message}")]
 pub struct Rejection {
-    pub field: &'static str,
+    pub field: Field,
     pub message: String,
 }
 
-fn reject(field: &'static str, message: String) -> Result<Vec<String>, Rejection> {
+fn reject(field: Field, message: String) -> Result<Vec<String>, Rejection> {
     Err(Rejection { field, message })
 }
 
@@ -108,17 +156,17 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
         Entry::Anodes { count, mean_kg, .. } => {
             if *count == 0 || *count > p.anodes_per_cell * 2 {
                 return reject(
-                    "--count",
+                    Field::Count,
                     format!("{count} anodes: the cell holds {} (1 to {} accepted)", p.anodes_per_cell, p.anodes_per_cell * 2),
                 );
             }
             let (lo, hi) = ANODE_KG_LIMITS;
             if !(mean_kg.is_finite() && *mean_kg >= lo && *mean_kg <= hi) {
-                return reject("--mean-kg", format!("{mean_kg} kg per anode is out of range: {lo}–{hi} kg"));
+                return reject(Field::MeanKg, format!("{mean_kg} kg per anode is out of range: {lo}–{hi} kg"));
             }
             if p.anode_kind == AnodeKind::Soluble && p.scrap_lower * mean_kg <= p.lug_kg {
                 return reject(
-                    "--mean-kg",
+                    Field::MeanKg,
                     format!(
                         "{mean_kg} kg anodes would reach scrap_lower ({}) below the {} kg of lugs that never dissolve",
                         p.scrap_lower, p.lug_kg
@@ -137,7 +185,7 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             let max = f64::from(p.cathodes_per_cell) * HARVEST_KG_PER_CATHODE_MAX;
             if !(total_kg.is_finite() && *total_kg > 0.0 && *total_kg <= max) {
                 return reject(
-                    "--total-kg",
+                    Field::TotalKg,
                     format!("{total_kg} kg is out of range for {} cathodes: more than 0 and at most {max} kg", p.cathodes_per_cell),
                 );
             }
@@ -152,12 +200,12 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
         }
         Entry::Scrap { total_kg, .. } => {
             let Some((count, mean)) = cx.load else {
-                return reject("--cell", "no anodes are in the cell to scrap".to_string());
+                return reject(Field::Cell, "no anodes are in the cell to scrap".to_string());
             };
             let max = f64::from(count) * mean;
             if !(total_kg.is_finite() && *total_kg > 0.0 && *total_kg <= max) {
                 return reject(
-                    "--total-kg",
+                    Field::TotalKg,
                     format!("{total_kg} kg is out of range: more than 0 and at most {max} kg, what was set ({count} × {mean} kg)"),
                 );
             }
@@ -176,20 +224,20 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             if let Some(to) = to
                 && to <= from
             {
-                return reject("--to", "the cut-out ends before it starts".to_string());
+                return reject(Field::To, "the cut-out ends before it starts".to_string());
             }
         }
         Entry::Shorts { count, .. } => {
             if *count > p.cathodes_per_cell * 2 {
                 return reject(
-                    "--count",
+                    Field::Count,
                     format!("{count} shorts: at most {} in a cell of {} cathodes", p.cathodes_per_cell * 2, p.cathodes_per_cell),
                 );
             }
         }
         Entry::Voltage { volts, .. } => {
             if !(volts.is_finite() && *volts >= 0.0 && *volts <= 10.0) {
-                return reject("--volts", format!("{volts} V is not a cell voltage: 0–10 V"));
+                return reject(Field::Volts, format!("{volts} V is not a cell voltage: 0–10 V"));
             }
             if *volts < p.voltage_min || *volts > p.voltage_max {
                 q.push(format!("{volts} V is outside {}–{} V for this cell", p.voltage_min, p.voltage_max));
@@ -203,9 +251,9 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
 /// Checks a circuit entry against the circuit's rating.
 pub fn check_circuit_entry(entry: &Entry, max_amps: f64) -> Result<Vec<String>, Rejection> {
     match entry {
-        Entry::Outage { from, to, .. } if to <= from => reject("--to", "the outage ends before it starts".to_string()),
+        Entry::Outage { from, to, .. } if to <= from => reject(Field::To, "the outage ends before it starts".to_string()),
         Entry::Setpoint { amps, .. } if !(amps.is_finite() && *amps >= 0.0 && *amps <= max_amps) => {
-            reject("--amps", format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"))
+            reject(Field::Amps, format!("{amps} A is out of range: 0–{max_amps} A (the circuit's max_amps)"))
         }
         _ => Ok(Vec::new()),
     }
@@ -239,7 +287,7 @@ mod tests {
         let cx = CellContext { params: &p, crop_charge_ah: None, load: None, predicted_fraction: None };
         let e = Entry::Anodes { cell: "A01".into(), at: at(), count: 50, mean_kg: 38.0 };
         let r = check_cell_entry(&e, &cx).unwrap_err();
-        assert_eq!(r.field, "--mean-kg");
+        assert_eq!(r.field, Field::MeanKg);
         assert!(r.message.contains("100–600"), "{r}");
     }
 

@@ -6,7 +6,7 @@ use serde::Serialize;
 use super::anode::{AnodeLoad, body_thickness_mm};
 use super::cathode::Cathodes;
 use super::charge::{Curve, OpenSpan, Time, cell_charge, cell_time_reaching};
-use super::electrochem::specific_energy_kwh_per_kg;
+use super::electrochem::{INERT_ANODE_MIN_VOLTS, specific_energy_kwh_per_kg};
 use super::layout::{AnodeKind, CellParams};
 
 /// A structured data warning: a code a script can match, a sentence a person can read.
@@ -51,7 +51,9 @@ pub struct AnodeForecast {
     pub remaining_kg: f64,
     pub remaining_fraction: f64,
     pub pull_due: Option<Time>,
-    pub thickness_mm: f64,
+    /// Body thickness of a soluble anode; `None` for inert anodes, which are
+    /// not copper and are not consumed.
+    pub thickness_mm: Option<f64>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -111,11 +113,11 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 remaining_kg: initial_kg,
                 remaining_fraction: 1.0,
                 pull_due: None,
-                thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2),
+                thickness_mm: None,
             }
         } else {
             let remaining_kg = load.remaining_kg(q.total());
-            let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
+            let thickness_mm = Some(body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2));
             let pull_due = match load.charge_to_fraction_ah(p.scrap_target) {
                 Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
                 None => None,
@@ -131,16 +133,13 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             }
         });
     }
-    if let Some(a) = &anode
+    if let Some(mm) = anode.as_ref().and_then(|a| a.thickness_mm)
         && p.anode_kind == AnodeKind::Soluble
-        && a.thickness_mm < p.thin_anode_mm
+        && mm < p.thin_anode_mm
     {
         warn(
             "thin_anode",
-            format!(
-                "anodes about {:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs",
-                a.thickness_mm, p.thin_anode_mm
-            ),
+            format!("anodes about {mm:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs", p.thin_anode_mm),
         );
     }
     let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
@@ -175,7 +174,10 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         && (v < p.voltage_min || v > p.voltage_max)
     {
         let why = if p.anode_kind == AnodeKind::Inert && v < p.voltage_min {
-            format!("below the {:.2} V an inert-anode cell needs (E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading", p.voltage_min)
+            format!(
+                "below the {:.2} V an inert-anode cell runs at (its floor is {INERT_ANODE_MIN_VOLTS:.2} V, E°(O₂/H₂O) − E°(Cu²⁺/Cu)): a short or a bad reading",
+                p.voltage_min
+            )
         } else {
             format!("outside the plausible {}–{} V", p.voltage_min, p.voltage_max)
         };
@@ -202,7 +204,11 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         last_crop_efficiency: input.last_crop_efficiency,
         charge_ah: charge.total(),
         estimated_ah: charge.estimated,
-        energy_kwh_per_t: input.last_voltage.map(|(_, v)| specific_energy_kwh_per_kg(v, eta_c) * 1000.0),
+        // only from a reading that passed the check: an implausible one gives no figure
+        energy_kwh_per_t: input
+            .last_voltage
+            .filter(|(_, v)| *v >= p.voltage_min && *v <= p.voltage_max)
+            .map(|(_, v)| specific_energy_kwh_per_kg(v, eta_c) * 1000.0),
         shorts: input.shorts.map(|(n, _)| n),
         warnings,
     })
@@ -258,5 +264,36 @@ mod tests {
         assert!((f.energy_kwh_per_t.unwrap() - 263.6).abs() < 0.05);
         assert!(f.warnings.iter().any(|w| w.code == "low_efficiency"));
         assert!(f.in_circuit);
+        assert!(f.anode.as_ref().unwrap().thickness_mm.is_some());
+    }
+
+    #[test]
+    fn inert_anode_cells_have_no_thickness_and_no_energy_from_a_bad_reading() {
+        let readings: Vec<RawReading> = (0..=24).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 30_000.0 }).collect();
+        let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(24));
+        let mut params = CellParams { anode_kind: AnodeKind::Inert, ..CellParams::default() };
+        params.voltage_min = crate::domain::layout::INERT_CELL_VOLTS.0;
+        params.voltage_max = crate::domain::layout::INERT_CELL_VOLTS.1;
+        let mut input = CellInput {
+            cell: "L1".into(),
+            circuit: "C1".into(),
+            section: "L".into(),
+            params,
+            load: Some((t0(), 50, 90.0)),
+            crop_started: Some(t0()),
+            cutouts: vec![],
+            last_crop_efficiency: None,
+            last_voltage: Some((t0(), 0.95)),
+            shorts: None,
+        };
+        let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
+        assert_eq!(f.anode.as_ref().unwrap().thickness_mm, None, "a lead anode has no copper thickness");
+        assert_eq!(f.energy_kwh_per_t, None, "0.95 V failed the check: no energy from it");
+        assert!(f.warnings.iter().any(|w| w.code == "voltage_range"));
+        input.last_voltage = Some((t0(), 2.0));
+        let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
+        // 2.0 V at 96 %: 2.0 / (1.18549 g/(A·h) × 0.96) = 1757.4 kWh/t (ECE from CODATA/IUPAC, DOMAIN.md)
+        assert!((f.energy_kwh_per_t.unwrap() - 1757.4).abs() < 0.1, "{:?}", f.energy_kwh_per_t);
+        assert!(!f.warnings.iter().any(|w| w.code == "voltage_range"));
     }
 }

@@ -719,7 +719,8 @@ where
         if rules.no_anode_work.contains(&cal.date(d as i64)) {
             *b = Some("no anode work (layout no_anode_work)".to_string());
         } else if let Some((circuit, s)) = rules.outages.iter().find(|(_, s)| s.from < z && s.to > a) {
-            *b = Some(format!("outage on {circuit} from {} to {} (UTC)", s.from.format("%Y-%m-%d %H:%M"), s.to.format("%Y-%m-%d %H:%M")));
+            // on the plant's clock, as the foreman typed the outage
+            *b = Some(format!("outage on {circuit} from {} to {}", cal.days.zone.show(s.from), cal.days.zone.show(s.to)));
         }
     }
     let max_cathodes = jobs.iter().map(|j| cells[j.cell].params.cathodes_per_cell).max().unwrap_or(1).max(1);

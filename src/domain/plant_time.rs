@@ -1,7 +1,7 @@
 //! The plant's clock face: its time zone, how a foreman's typed time becomes
 //! an instant, and the production day that starts at the layout's `day_starts_at`.
 
-use chrono::{DateTime, FixedOffset, LocalResult, NaiveDate, NaiveDateTime, NaiveTime, Offset, TimeZone, Utc};
+use chrono::{DateTime, Duration, FixedOffset, LocalResult, NaiveDate, NaiveDateTime, NaiveTime, Offset, TimeZone, Utc};
 use chrono_tz::Tz;
 use std::fmt;
 
@@ -139,6 +139,122 @@ impl ProductionDays {
     }
 }
 
+/// One shift of a production day split into `of` equal shifts.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Shift {
+    pub day: NaiveDate,
+    /// 0 is the day's first shift.
+    pub index: u32,
+    pub of: u32,
+    pub start: Time,
+    pub end: Time,
+}
+
+impl ProductionDays {
+    /// The shift an instant falls in, with `per_day` equal shifts a production
+    /// day (a day that daylight saving makes 23 or 25 h long has shorter or longer shifts).
+    pub fn shift_at(&self, t: Time, per_day: u32) -> Shift {
+        let of = per_day.max(1);
+        let day = self.day_of(t);
+        let (start, end) = (self.start_of(day), self.start_of(day + Duration::days(1)));
+        let len = ((end - start).num_seconds() / i64::from(of)).max(1);
+        let index = ((t - start).num_seconds() / len).clamp(0, i64::from(of) - 1) as u32;
+        let at = |k: i64| if k >= i64::from(of) { end } else { start + Duration::seconds(k * len) };
+        Shift { day, index, of, start: at(i64::from(index)), end: at(i64::from(index) + 1) }
+    }
+
+    /// The first shift of the production day after `s`'s.
+    pub fn next_day_first_shift(&self, s: &Shift) -> Shift {
+        self.shift_at(self.start_of(s.day + Duration::days(1)), s.of)
+    }
+}
+
+impl Shift {
+    pub fn is_last(&self) -> bool {
+        self.index + 1 == self.of
+    }
+
+    /// What a foreman calls the shift: the one holding 02:00 on the plant clock
+    /// is the night shift; of two, the other is the day shift; of three, the
+    /// ones holding 10:00 and 18:00 are the morning and afternoon shifts; else
+    /// `shift 2 of 4`. One shift a day has no name (`None`).
+    pub fn name(&self, zone: PlantZone) -> Option<String> {
+        if self.of == 1 {
+            return None;
+        }
+        let holds = |hh: u32| {
+            let (a, b) = (zone.local(self.start).time(), zone.local(self.end).time());
+            let h = NaiveTime::from_hms_opt(hh, 0, 0).unwrap_or(NaiveTime::MIN);
+            if a <= b { a <= h && h < b } else { h >= a || h < b }
+        };
+        Some(
+            match self.of {
+                _ if holds(2) => "night shift",
+                2 => "day shift",
+                3 if holds(10) => "morning shift",
+                3 if holds(18) => "afternoon shift",
+                _ => return Some(format!("shift {} of {}", self.index + 1, self.of)),
+            }
+            .to_string(),
+        )
+    }
+}
+
+/// How long a resolved warning stays news; older ones fold into a count on screen.
+pub const NEWS_FOR: Duration = Duration::hours(24);
+
+/// Whether something that ended at `end` is old news at `now`.
+pub fn is_old(end: Time, now: Time) -> bool {
+    now - end > NEWS_FOR
+}
+
+/// A length of time as a foreman reads it: `57 min`, `1.5 h`, `14 h`, `2.3 d`
+/// (the sign is dropped; see [`relative`]).
+pub fn span_text(d: Duration) -> String {
+    let min = (d.num_seconds().abs() as f64 / 60.0).round();
+    let h = min / 60.0;
+    if min < 60.0 {
+        format!("{min:.0} min")
+    } else if h < 10.0 {
+        let t = format!("{h:.1}");
+        format!("{} h", t.strip_suffix(".0").unwrap_or(&t))
+    } else if h < 48.0 {
+        format!("{h:.0} h")
+    } else {
+        format!("{:.1} d", h / 24.0)
+    }
+}
+
+/// When `t` is, seen from `now`: `in 57 min`, `57 min ago`, `now` (within a minute).
+pub fn relative(t: Time, now: Time) -> String {
+    let d = t - now;
+    if d.num_seconds().abs() < 30 {
+        "now".to_string()
+    } else if d > Duration::zero() {
+        format!("in {}", span_text(d))
+    } else {
+        format!("{} ago", span_text(d))
+    }
+}
+
+/// A signed time to something in at most five characters, for a tile:
+/// `57m`, `5h`, `2.3d`, `12d`, and `-57m` when it is past.
+pub fn compact(d: Duration) -> String {
+    let sign = if d < Duration::zero() { "-" } else { "" };
+    let min = (d.num_seconds().abs() as f64 / 60.0).round();
+    let h = min / 60.0;
+    let body = if min < 60.0 {
+        format!("{min:.0}m")
+    } else if h < 48.0 {
+        format!("{h:.0}h")
+    } else if h < 240.0 {
+        format!("{:.1}d", h / 24.0)
+    } else {
+        format!("{:.0}d", (h / 24.0).min(999.0))
+    };
+    format!("{sign}{body}")
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -160,6 +276,45 @@ mod tests {
         let e = z.parse_time("2026-10-25 02:30").unwrap_err();
         assert!(e.to_string().contains("+02:00"), "{e}");
         assert!(z.parse_time("2026-10-25T02:30:00+01:00").is_ok());
+    }
+
+    #[test]
+    fn durations_read_at_a_glance() {
+        let now = Utc.with_ymd_and_hms(2026, 12, 1, 4, 58, 0).unwrap();
+        assert_eq!(relative(now + Duration::minutes(57), now), "in 57 min");
+        assert_eq!(relative(now - Duration::minutes(57), now), "57 min ago");
+        assert_eq!(relative(now + Duration::hours(5), now), "in 5 h");
+        assert_eq!(relative(now + Duration::minutes(90), now), "in 1.5 h");
+        assert_eq!(relative(now + Duration::minutes(55 * 60 + 12), now), "in 2.3 d");
+        assert_eq!(relative(now + Duration::seconds(10), now), "now");
+        assert_eq!(compact(Duration::minutes(57)), "57m");
+        assert_eq!(compact(Duration::minutes(-3)), "-3m");
+        assert_eq!(compact(Duration::hours(30)), "30h");
+        assert_eq!(compact(Duration::hours(60)), "2.5d");
+        assert_eq!(compact(Duration::days(-12)), "-12d");
+        for m in [-100_000i64, -3000, -61, -1, 0, 59, 2879, 14_399, 100_000, 10_000_000] {
+            assert!(compact(Duration::minutes(m)).chars().count() <= 5, "{m}");
+            assert!(!compact(Duration::minutes(m)).contains("-0"), "{m}");
+        }
+    }
+
+    #[test]
+    fn shifts_of_a_production_day_and_their_names() {
+        let z = PlantZone::parse("Europe/Madrid").unwrap();
+        let days = ProductionDays { zone: z, day_starts_at: parse_day_start("06:00").unwrap() };
+        // 04:58 local on 2 December is still production day 1 December, its night shift
+        let t = z.parse_time("2026-12-02 04:58").unwrap();
+        let s = days.shift_at(t, 2);
+        assert_eq!((s.day, s.index, s.is_last()), (NaiveDate::from_ymd_opt(2026, 12, 1).unwrap(), 1, true));
+        assert_eq!(z.show(s.start), "2026-12-01 18:00");
+        assert_eq!(s.name(z).as_deref(), Some("night shift"));
+        let next = days.next_day_first_shift(&s);
+        assert_eq!((z.show(next.start), z.show(next.end)), ("2026-12-02 06:00".to_string(), "2026-12-02 18:00".to_string()));
+        assert_eq!(next.name(z).as_deref(), Some("day shift"));
+        let three: Vec<Option<String>> =
+            [6, 14, 22].iter().map(|h| days.shift_at(z.parse_time(&format!("2026-12-02 {h:02}:30")).unwrap(), 3).name(z)).collect();
+        assert_eq!(three, [Some("morning shift".into()), Some("afternoon shift".into()), Some("night shift".into())]);
+        assert_eq!(days.shift_at(t, 1).name(z), None);
     }
 
     #[test]

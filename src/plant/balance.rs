@@ -7,6 +7,7 @@ use std::collections::HashMap;
 use super::{Plant, PlantError, Result};
 use crate::domain::balance::{Balance, CellCopper, HeldCopper, balance, held_copper};
 use crate::domain::charge::{Time, cell_charge};
+use crate::domain::entry::Field;
 use crate::domain::forecast::{CellForecast, Forecast};
 use crate::domain::history::EventKind;
 use crate::domain::layout::{AnodeKind, CellParams};
@@ -32,7 +33,7 @@ impl Plant {
     pub fn balance(&self, from: Time, to: Time) -> Result<Balance> {
         if from > to {
             return Err(PlantError::rejected(
-                "--from",
+                Field::From,
                 format!("the period must not end before it starts ({} is after {})", self.show_time(from), self.show_time(to)),
             ));
         }

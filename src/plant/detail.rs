@@ -6,6 +6,7 @@ use serde::Serialize;
 
 use super::{Plant, PlantError, Result};
 use crate::domain::charge::{Curve, Point, Span, Time};
+use crate::domain::entry::Field;
 use crate::domain::forecast::CellForecast;
 use crate::domain::history::Event;
 use crate::domain::layout::CellParams;
@@ -47,9 +48,9 @@ impl Plant {
     /// One cell's forecast, history and trajectory as of `as_of`.
     pub fn cell_detail(&self, cell: &str, as_of: Time) -> Result<CellDetail> {
         let f = self.forecast(as_of, Some(cell))?;
-        let forecast = f.cells.into_iter().next().ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+        let forecast = f.cells.into_iter().next().ok_or_else(|| PlantError::rejected(Field::Cell, format!("unknown cell {cell}")))?;
         let db = self.store.db();
-        let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+        let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected(Field::Cell, format!("unknown cell {cell}")))?;
         let params = db.params_at(cell, as_of)?;
         let curve = StoreCurve::new(db, row.circuit_id, as_of)?;
         let cutouts = db.cutouts(cell, as_of)?;

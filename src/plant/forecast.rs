@@ -5,7 +5,9 @@ use std::collections::HashMap;
 
 use super::{Plant, PlantError, Result};
 use crate::domain::charge::{GAP_WARNING, Time};
+use crate::domain::entry::Field;
 use crate::domain::forecast::{CellInput, Forecast, Warning, forecast_cell};
+use crate::domain::plant_time::{relative, span_text};
 use crate::store::{Db, StoreCurve};
 
 /// How far back the forecast looks for reading gaps and stray readings.
@@ -21,7 +23,7 @@ impl Plant {
         if let Some(id) = only_cell {
             cells.retain(|c| c.id == id);
             if cells.is_empty() {
-                return Err(PlantError::rejected("--cell", format!("unknown cell {id}: it is not in the layout")));
+                return Err(PlantError::rejected(Field::Cell, format!("unknown cell {id}: it is not in the layout")));
             }
         }
         let params = db.params_at_all(as_of)?;
@@ -61,30 +63,47 @@ impl Plant {
     }
 }
 
+/// The circuits' data warnings, each with its time on the plant clock and its
+/// age, so a gap of weeks ago is not read as news.
 fn circuit_warnings(db: Db<'_>, name: &str, id: i64, curve: &StoreCurve<'_>, as_of: Time) -> Result<Vec<Warning>> {
     let w = |code, message: String, from, to| Warning { code, message, cell: None, circuit: Some(name.to_string()), from, to };
+    let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
+    let at = |t: Time| zone.local(t).format("%m-%d %H:%M").to_string();
     let since = as_of - WARNING_LOOKBACK;
     let mut v = Vec::new();
     for g in db.reading_gaps(id, since, as_of)? {
-        let h = (g.to - g.from).num_minutes() as f64 / 60.0;
         v.push(w(
             "reading_gap",
-            format!("no current readings for {h:.1} h on {name}, and no outage logged for it"),
+            format!(
+                "no current readings on {name} for {}, {} to {} ({}), and no outage logged for it",
+                span_text(g.to - g.from),
+                at(g.from),
+                at(g.to),
+                relative(g.to, as_of)
+            ),
             Some(g.from),
             Some(g.to),
         ));
     }
     for (t, a) in db.live_readings_in_outages(id, since, as_of)? {
-        v.push(w("reading_in_outage", format!("a reading of {a} A on {name} falls inside a logged outage; it was ignored"), Some(t), None));
+        v.push(w(
+            "reading_in_outage",
+            format!("a reading of {a} A on {name} at {} ({}) falls inside a logged outage; it was ignored", at(t), relative(t, as_of)),
+            Some(t),
+            None,
+        ));
     }
     match curve.last_reading() {
         None => v.push(w("no_readings", format!("no current readings for {name}: charge is estimated from setpoints only"), None, None)),
         Some(p) if as_of - p.t > GAP_WARNING => {
-            let h = (as_of - p.t).num_minutes() as f64 / 60.0;
             let est = curve.projection().base_amps;
             v.push(w(
                 "stale_readings",
-                format!("last reading on {name} is {h:.1} h old: charge since then is estimated at {est:.0} A"),
+                format!(
+                    "last reading on {name} is {} old ({}): charge since then is estimated at {est:.0} A",
+                    span_text(as_of - p.t),
+                    at(p.t)
+                ),
                 Some(p.t),
                 Some(as_of),
             ));

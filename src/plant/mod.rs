@@ -7,6 +7,7 @@
 mod backup;
 mod balance;
 mod detail;
+mod drafts;
 mod forecast;
 mod import;
 mod plan;
@@ -18,6 +19,7 @@ use std::path::{Path, PathBuf};
 
 pub use backup::{BACKUP_FOLDER, BackupFile, BackupKind, Restored, backup_folder, backup_if_due, list_backups, restore};
 pub use detail::{CellDetail, CircuitTrend};
+pub use drafts::Draft;
 pub use import::{CurrentRows, ImportSummary, parse_current_csv};
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
@@ -25,6 +27,7 @@ pub use report::{ReportPeriod, WrittenReport};
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};
 use crate::domain::electrochem::measured_efficiency;
+use crate::domain::entry::Field;
 use crate::domain::history::{Contradiction, replay};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::layout;
@@ -41,14 +44,19 @@ pub enum PlantError {
     Layout { file: String, source: layout::LayoutError },
     #[error("{file} line {line}, field {field}: {message}")]
     Input { file: String, line: u64, field: String, message: String },
-    #[error("{field}: {message}")]
-    Rejected { field: String, message: String },
+    /// An entry refused: the field it names and, in a batch, the entry's position (0-based).
+    #[error("{}{field}: {message}", place(*.entry))]
+    Rejected { field: Field, entry: Option<usize>, message: String },
+    /// A setting refused that is no entry field: a plan option (`--days`, `--move`)
+    /// or a layout key (`plan.crew_cells_per_day`), named as the user wrote it.
+    #[error("{name}: {message}")]
+    Setting { name: String, message: String },
     #[error("this entry needs a second look: {}. Check it, then repeat with --force to record it anyway", .0.join("; "))]
     Questioned(Vec<String>),
     #[error("cannot read {0}: {1}")]
     Read(PathBuf, std::io::Error),
-    #[error("entry {entry} ({what}), field {field}: {message}")]
-    Replay { entry: i64, what: String, field: &'static str, message: String },
+    #[error("entry {entry} ({what}), its {field}: {message}")]
+    Replay { entry: i64, what: String, field: Field, message: String },
     #[error(
         "this database holds entries this tankbook cannot read: {}{}. tankbook shows no figures that would \
          silently leave them out: run `tankbook check` to list every problem, and `tankbook restore FILE` to go back to a backup (`tankbook backup --list` shows them)",
@@ -67,9 +75,27 @@ pub enum PlantError {
 /// How many damaged entries a refusal names (`check` lists all of them).
 const DAMAGE_SHOWN: usize = 20;
 
+fn place(entry: Option<usize>) -> String {
+    entry.map_or(String::new(), |i| format!("entry {} of the batch, ", i + 1))
+}
+
 impl PlantError {
-    fn rejected(field: &str, message: impl Into<String>) -> Self {
-        PlantError::Rejected { field: field.to_string(), message: message.into() }
+    /// A refused entry (not in a batch) naming its field.
+    pub fn rejected(field: Field, message: impl Into<String>) -> Self {
+        PlantError::Rejected { field, entry: None, message: message.into() }
+    }
+
+    /// A refused setting (a plan option or a layout key).
+    pub fn setting(name: impl Into<String>, message: impl Into<String>) -> Self {
+        PlantError::Setting { name: name.into(), message: message.into() }
+    }
+
+    /// The same error, placed at entry `i` of a batch (only rejections carry it).
+    pub fn in_batch(self, i: usize) -> Self {
+        match self {
+            PlantError::Rejected { field, message, .. } => PlantError::Rejected { field, entry: Some(i), message },
+            e => e,
+        }
     }
 }
 
@@ -144,7 +170,7 @@ impl Plant {
     }
 
     /// Parses a time as a foreman types it (RFC 3339 or local `YYYY-MM-DD HH:MM`).
-    pub fn parse_time(&self, field: &str, s: &str) -> Result<Time> {
+    pub fn parse_time(&self, field: Field, s: &str) -> Result<Time> {
         let zone = self.info()?.days.zone;
         zone.parse_time(s).map_err(|e| PlantError::rejected(field, e.to_string()))
     }
@@ -239,11 +265,11 @@ pub(crate) fn rebuild_cell(db: Db<'_>, cell: &str) -> Result<()> {
     })
 }
 
-/// The option an entry's time was given with: what a replay contradiction is about.
-fn time_field(kind: EventKind) -> &'static str {
+/// The field an entry's time was given in: what a replay contradiction is about.
+fn time_field(kind: EventKind) -> Field {
     match kind {
-        EventKind::Cutout | EventKind::Outage | EventKind::Setpoint => "--from",
-        _ => "--at",
+        EventKind::Cutout | EventKind::Outage | EventKind::Setpoint => Field::From,
+        _ => Field::At,
     }
 }
 
@@ -261,7 +287,7 @@ fn contradiction(events: &[Event], c: Contradiction) -> PlantError {
 
 /// The rebuild itself; `reuse = false` recomputes every crop (for `check`).
 fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
-    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}")))?;
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected(Field::Cell, format!("unknown cell {cell}")))?;
     let events = db.cell_events(cell)?;
     let zone = db.plant_info()?.ok_or(PlantError::NoLayout)?.days.zone;
     let h = replay(&events, |t| zone.show(t)).map_err(|c| contradiction(&events, c))?;

@@ -44,8 +44,8 @@ impl Default for PlanOptions {
     }
 }
 
-fn rejected(field: impl Into<String>, message: impl Into<String>) -> PlantError {
-    PlantError::Rejected { field: field.into(), message: message.into() }
+fn rejected(name: impl Into<String>, message: impl Into<String>) -> PlantError {
+    PlantError::setting(name, message)
 }
 
 impl Plant {

@@ -6,7 +6,7 @@ use serde::Serialize;
 use super::{Opts, Plant, PlantError, Result, far_future, rebuild_cell, refresh_crops};
 use crate::domain::anode::AnodeLoad;
 use crate::domain::charge::{Time, cell_charge};
-use crate::domain::entry::{CellContext, Entry, check_cell_entry, check_circuit_entry};
+use crate::domain::entry::{CellContext, Entry, Field, check_cell_entry, check_circuit_entry};
 use crate::domain::history::{Event, EventKind};
 use crate::store::{Db, NewEvent, StoreCurve};
 
@@ -20,7 +20,7 @@ pub struct Recorded {
 pub(super) fn initials(by: &str) -> Result<String> {
     let by = by.trim();
     if by.is_empty() || by.chars().count() > 8 || by.chars().any(char::is_whitespace) {
-        return Err(PlantError::rejected("--by", format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces")));
+        return Err(PlantError::rejected(Field::By, format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces")));
     }
     Ok(by.to_uppercase())
 }
@@ -39,10 +39,10 @@ impl Plant {
         self.store.write(|db| {
             let mut out = Vec::with_capacity(entries.len());
             for (i, (entry, opts)) in entries.iter().enumerate() {
-                let by = initials(&opts.by)?;
+                let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
                 let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
                 out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
-                    PlantError::Rejected { field, message } => PlantError::Rejected { field, message: format!("{place}: {message}") },
+                    e @ PlantError::Rejected { .. } => e.in_batch(i),
                     PlantError::Questioned(mut q) => {
                         q.insert(0, place);
                         PlantError::Questioned(q)
@@ -59,9 +59,9 @@ impl Plant {
     pub fn check_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
         self.store.preview(|db| {
             let mut out = Vec::with_capacity(entries.len());
-            for (entry, opts) in entries {
-                let by = initials(&opts.by)?;
-                out.push(record_in(db, entry, &by, opts)?);
+            for (i, (entry, opts)) in entries.iter().enumerate() {
+                let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
+                out.push(record_in(db, entry, &by, opts).map_err(|e| e.in_batch(i))?);
             }
             Ok(out)
         })
@@ -73,21 +73,21 @@ impl Plant {
         let by = initials(&opts.by)?;
         self.store.write(|db| {
             let target = match event {
-                Some(id) => db.event(id)?.ok_or_else(|| PlantError::rejected("EVENT", format!("there is no entry {id}")))?,
+                Some(id) => db.event(id)?.ok_or_else(|| PlantError::rejected(Field::Event, format!("there is no entry {id}")))?,
                 None => db
                     .recent_events(None, 200)?
                     .into_iter()
                     .find(|e| e.kind != EventKind::Void && !e.voided)
-                    .ok_or_else(|| PlantError::rejected("EVENT", "there is no entry to undo"))?,
+                    .ok_or_else(|| PlantError::rejected(Field::Event, "there is no entry to undo"))?,
             };
             if target.kind == EventKind::Void {
                 return Err(PlantError::rejected(
-                    "EVENT",
+                    Field::Event,
                     format!("entry {} is itself an undo; record the entry again instead", target.id),
                 ));
             }
             if db.is_voided(target.id)? {
-                return Err(PlantError::rejected("EVENT", format!("entry {} is already undone", target.id)));
+                return Err(PlantError::rejected(Field::Event, format!("entry {} is already undone", target.id)));
             }
             let circuit_id = match &target.circuit {
                 Some(name) => db.circuit(name)?.map(|c| c.id),
@@ -111,7 +111,7 @@ impl Plant {
             if let Some(cell) = &target.cell {
                 rebuild_cell(db, cell).map_err(|e| match e {
                     PlantError::Rejected { message, .. } => PlantError::rejected(
-                        "EVENT",
+                        Field::Event,
                         format!("undoing entry {} would leave the history of {cell} inconsistent: {message}", target.id),
                     ),
                     e => e,
@@ -145,7 +145,7 @@ fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorde
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
-    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected("--cell", format!("unknown cell {cell}: it is not in the layout")))?;
+    let row = db.cell(cell)?.ok_or_else(|| PlantError::rejected(Field::Cell, format!("unknown cell {cell}: it is not in the layout")))?;
     let at = entry.at();
     let params = db.params_at(cell, at)?;
     let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
@@ -155,7 +155,7 @@ fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> 
         Entry::Harvest { .. } => {
             let start = db.crop_at(cell, at)?.ok_or_else(|| {
                 PlantError::rejected(
-                    "--at",
+                    Field::At,
                     format!("no crop is growing in {cell} at {}: a harvest before the crop began", db_show(db, at)),
                 )
             })?;
@@ -192,8 +192,9 @@ fn check_for_circuit(db: Db<'_>, entry: &Entry) -> Result<Vec<String>> {
         Entry::Outage { circuit, .. } | Entry::Setpoint { circuit, .. } => circuit,
         _ => return Ok(Vec::new()),
     };
-    let c =
-        db.circuit(name)?.ok_or_else(|| PlantError::rejected("--circuit", format!("unknown circuit {name}: it is not in the layout")))?;
+    let c = db
+        .circuit(name)?
+        .ok_or_else(|| PlantError::rejected(Field::Circuit, format!("unknown circuit {name}: it is not in the layout")))?;
     check_circuit_entry(entry, c.max_amps).map_err(|r| PlantError::rejected(r.field, r.message))
 }
 

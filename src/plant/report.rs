@@ -9,6 +9,7 @@ use std::path::{Path, PathBuf};
 
 use super::{PlanOptions, Plant, PlantError, Result};
 use crate::domain::charge::{Curve, Time};
+use crate::domain::entry::Field;
 use crate::domain::forecast::{CellForecast, Forecast};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::layout::AnodeKind;
@@ -70,7 +71,7 @@ impl Plant {
             }
             ReportPeriod::Between(a, b) => {
                 if a >= b {
-                    return Err(PlantError::rejected("--from", "the period must end after it starts"));
+                    return Err(PlantError::rejected(Field::From, "the period must end after it starts"));
                 }
                 (a, b, "Chosen period".to_string())
             }
@@ -224,7 +225,7 @@ impl Plant {
             .cells
             .iter()
             .filter(|c| c.warnings.iter().any(|w| w.code == "thin_anode"))
-            .filter_map(|c| Some((c.cell.clone(), c.anode.as_ref()?.thickness_mm)))
+            .filter_map(|c| Some((c.cell.clone(), c.anode.as_ref()?.thickness_mm?)))
             .collect();
         let balance = self.balance(from, to)?;
         let energy = crate::domain::balance::mean_energy_kwh_per_t(

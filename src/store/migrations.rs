@@ -10,6 +10,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("001_initial", include_str!("migrations/001_initial.sql")),
     ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
+    ("005_drafts", include_str!("migrations/005_drafts.sql")),
 ];
 
 /// How many migrations the database has had.

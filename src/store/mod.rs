@@ -6,6 +6,7 @@
 //! so the same query code serves both.
 
 mod cells;
+mod drafts;
 mod events;
 mod migrations;
 mod readings;
@@ -16,6 +17,7 @@ use std::path::{Path, PathBuf};
 use std::time::Duration as StdDuration;
 
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
+pub use drafts::DraftRow;
 pub use events::{CropFigures, LoadRow, NewEvent};
 
 /// The tables a tankbook database has from its first migration on: a file

@@ -13,15 +13,20 @@ use super::draw::{bold, fg, state_mark};
 use crate::domain::charge::Time;
 use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
+use crate::domain::plant_time::{relative, span_text};
 use crate::plant::CellDetail;
+
+/// The cell screen's state: the selected cell in depth, once loaded.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct CellScreen {
+    pub detail: Option<CellDetail>,
+}
 
 /// Chart points (hours since the start, value).
 type Series = Vec<(f64, f64)>;
 
 fn when(app: &App, t: Time) -> String {
-    let d = (t - app.as_of).num_minutes() as f64 / 1440.0;
-    let rel = if d >= 0.0 { format!("in {d:.1} d") } else { format!("{:.1} d ago", -d) };
-    format!("{} ({rel})", short(app, t))
+    format!("{} ({})", short(app, t), relative(t, app.as_of))
 }
 
 /// Month, day and time on the plant clock: enough inside one anode cycle.
@@ -48,16 +53,11 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     }
     match &c.anode {
         Some(a) => {
-            let age = (app.as_of - a.set_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(format!("Anodes set {} ({age:.1} d ago)", short(app, a.set_at)), bold()));
+            l.push(Line::styled(format!("Anodes set {}", when(app, a.set_at)), bold()));
             l.push(Line::raw(format!("  {} × {:.0} kg at set", a.count, a.initial_kg)));
             if c.anode_kind == crate::domain::layout::AnodeKind::Soluble {
-                l.push(Line::raw(format!(
-                    "  left {:.1} kg each ({:.1} %), ~{:.1} mm",
-                    a.remaining_kg,
-                    a.remaining_fraction * 100.0,
-                    a.thickness_mm
-                )));
+                let mm = a.thickness_mm.map_or(String::new(), |mm| format!(", ~{mm:.1} mm"));
+                l.push(Line::raw(format!("  left {:.1} kg each ({:.1} %){mm}", a.remaining_kg, a.remaining_fraction * 100.0)));
                 l.push(Line::raw(format!("  pull due {}", a.pull_due.map_or("not in sight".into(), |t| when(app, t)))));
             } else {
                 l.push(Line::raw("  inert anodes: not consumed"));
@@ -67,8 +67,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     }
     match &c.cathode {
         Some(k) => {
-            let age = (app.as_of - k.started_at).num_minutes() as f64 / 1440.0;
-            l.push(Line::styled(format!("Crop since {} ({age:.1} d)", short(app, k.started_at)), bold()));
+            l.push(Line::styled(format!("Crop since {} ({})", short(app, k.started_at), span_text(app.as_of - k.started_at)), bold()));
             l.push(Line::raw(format!("  {:.1} kg/cathode, inner {:.1} kg", k.mass_kg, k.inner_mass_kg)));
             l.push(Line::raw(format!("  harvest due {}", k.harvest_due.map_or("not in sight".into(), |t| when(app, t)))));
         }
@@ -88,8 +87,12 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     let volts = detail.and_then(|d| d.events.iter().find(|e| e.volts.is_some() && !e.voided).map(|e| (e.at, e.volts.unwrap_or(0.0))));
     match (volts, c.energy_kwh_per_t) {
         (Some((t, v)), Some(e)) => l.push(Line::raw(format!("Voltage {v} V ({}), {e:.0} kWh/t", short(app, t)))),
-        (_, Some(e)) => l.push(Line::raw(format!("Energy {e:.0} kWh/t at the last voltage"))),
-        _ => {}
+        // a reading outside the cell's plausible range gives no energy figure
+        (Some((t, v)), None) => {
+            l.push(Line::styled(format!("Voltage {v} V ({}): implausible, no kWh/t from it", short(app, t)), fg(app, Color::Red)))
+        }
+        (None, Some(e)) => l.push(Line::raw(format!("Energy {e:.0} kWh/t at the last voltage"))),
+        (None, None) => {}
     }
     l.push(Line::raw(format!("Shorts this crop: {}", c.shorts.unwrap_or(0))));
     for w in &c.warnings {
@@ -115,7 +118,7 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let Some(c) = app.selected() else { return };
-    let detail = app.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
+    let detail = app.cell.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
     let wide = area.width >= 100;
     let [left, right] = Layout::horizontal([Constraint::Length(if wide { 56 } else { 40 }), Constraint::Min(20)]).areas(area);
     let l = summary(app, c, detail, wide, left.height as usize);

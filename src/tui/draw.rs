@@ -1,16 +1,15 @@
 //! The frame around every screen: title line, status line, hint bar, and the
-//! overlays (help, legend, menu, forms, questions). Draws from `&App` only.
+//! screen in view, then the overlay on top (see [`super::overlay`]). Draws from `&App` only.
 
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier, Style};
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Block, Borders, Clear, Paragraph, Wrap};
+use ratatui::widgets::Paragraph;
 
-use super::app::{App, Overlay, View};
-use super::form::MENU;
-use super::keys::{self, GLOBAL};
-use super::{cell, entries, plan, rectifier, tankhouse};
+use super::app::{App, View};
+use super::keys;
+use super::{cell, entries, overlay, plan, rectifier, tankhouse};
 use crate::domain::outlook::CellState;
 
 /// A style with `fg`, or plain when colour is off (`NO_COLOR`).
@@ -38,7 +37,8 @@ pub fn state_mark(s: Option<CellState>) -> (char, Color) {
 
 pub fn draw(f: &mut Frame, app: &App) {
     let [title, body, status, hints] =
-        Layout::vertical([Constraint::Length(1), Constraint::Min(1), Constraint::Length(1), Constraint::Length(1)]).areas(f.area());
+        Layout::vertical([Constraint::Length(app.header_rows()), Constraint::Min(1), Constraint::Length(1), Constraint::Length(1)])
+            .areas(f.area());
     draw_title(f, app, title);
     match app.view {
         View::Tankhouse => tankhouse::draw(f, app, body),
@@ -50,10 +50,17 @@ pub fn draw(f: &mut Frame, app: &App) {
     draw_status(f, app, status);
     draw_hints(f, app, hints);
     if let Some(o) = &app.overlay {
-        draw_overlay(f, app, o);
+        overlay::draw(f, app, o);
     }
 }
 
+fn plural(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
+}
+
+/// The header: the production day and shift, what is due before the day turns,
+/// and, in the day's last shift, what the next day's first shift must do. The
+/// richest form that fits the width is drawn.
 fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     let end = app.day_end();
     let mut counts = [0usize; 4];
@@ -64,13 +71,67 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
         counts[2] += usize::from(s.contains(&CellState::LowEfficiency));
         counts[3] += usize::from(s.contains(&CellState::CutOut));
     }
-    let line = Line::from(vec![
-        Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow))),
-        Span::raw(format!("│ {} │ {} │ ", shorten(&app.plant_name, 24), app.view.title())),
-        Span::styled(format!("today: {} harvest, {} anodes", counts[0], counts[1]), fg(app, Color::Yellow)),
-        Span::raw(format!(" · {} low η · {} out", counts[2], counts[3])),
-    ]);
-    f.render_widget(Paragraph::new(line).style(Style::default().add_modifier(Modifier::REVERSED)), area);
+    let zone = app.days.zone;
+    let hm = |t| zone.local(t).format("%H:%M").to_string();
+    let shift = app.shift_now();
+    let name = shift.name(zone).map_or(String::new(), |n| format!(" · {n}"));
+    let day = shift.day.format("%m-%d");
+    let day_long = format!("│ day {day} ({}→{}){name} ", hm(app.days.start_of(shift.day)), hm(end));
+    let day_short = format!("│ day {day}{name} ");
+    let due =
+        format!("due by {}: {}, {}", hm(end), plural(counts[0], "harvest", "harvests"), plural(counts[1], "anode change", "anode changes"));
+    let due_short = format!("by {}: {} H, {} A", hm(end), counts[0], counts[1]);
+    let rest = format!(" · {} low η · {} out", counts[2], counts[3]);
+    let plant = format!("│ {} ", shorten(&app.plant_name, 24));
+    let view = format!("│ {} ", app.view.title());
+    let w = area.width as usize;
+    // the richest that fits: the plant's name goes first, then η and cut-outs, then the screen's name
+    let forms: [&[&str]; 8] = [
+        &[&plant, &view, &day_long, "│ ", &due, &rest],
+        &[&view, &day_long, "│ ", &due, &rest],
+        &[&view, &day_long, "│ ", &due],
+        &[&view, &day_short, "│ ", &due],
+        &[&day_long, "│ ", &due],
+        &[&day_short, "│ ", &due],
+        &[&view, &day_short, "│ ", &due_short],
+        &[&day_short, "│ ", &due_short],
+    ];
+    let len = |parts: &[&str]| 10 + parts.iter().map(|p| p.chars().count()).sum::<usize>();
+    let parts = forms.iter().find(|p| len(p) <= w).unwrap_or(&forms[7]);
+    let mut spans = vec![Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow)))];
+    for p in parts.iter() {
+        if p.starts_with("due by") || p.starts_with("by ") {
+            spans.push(Span::styled(p.to_string(), fg(app, Color::Yellow)));
+        } else {
+            spans.push(Span::raw(p.to_string()));
+        }
+    }
+    let reversed = Style::default().add_modifier(Modifier::REVERSED);
+    let [top, coming] = Layout::vertical([Constraint::Length(1), Constraint::Length(area.height.saturating_sub(1))]).areas(area);
+    f.render_widget(Paragraph::new(Line::from(spans)).style(reversed), top);
+    if let Some(next) = app.coming_shift() {
+        let (a, b) = (hm(next.shift.start), hm(next.shift.end));
+        let first = next.first.map_or(String::new(), |t| format!(", first at {}", hm(t)));
+        let name = next.shift.name(zone).map_or(String::new(), |n| format!(" ({n})"));
+        let work =
+            format!("{}, {}", plural(next.harvests, "harvest", "harvests"), plural(next.anode_changes, "anode change", "anode changes"));
+        let day = next.shift.day.format("%m-%d");
+        let candidates = [
+            (format!("day {day}, first shift{name} {a}→{b}: "), format!("{work}{first}")),
+            (format!("day {day}, first shift {a}→{b}: "), format!("{work}{first}")),
+            (format!("day {day} {a}→{b}: "), format!("{work}{first}")),
+            (format!("{day} first shift {a}→{b}: "), work.clone()),
+            (format!("{day} {a}→{b}: "), format!("{} H, {} A", next.harvests, next.anode_changes)),
+        ];
+        let fits = |(l, r): &(String, String)| 6 + l.chars().count() + r.chars().count() <= w;
+        let (label, counts) = candidates.iter().find(|c| fits(c)).unwrap_or(&candidates[4]);
+        let line = Line::from(vec![
+            Span::styled(" next ", bold().patch(fg(app, Color::Yellow))),
+            Span::raw(label.clone()),
+            Span::styled(counts.clone(), bold()),
+        ]);
+        f.render_widget(Paragraph::new(line), coming);
+    }
 }
 
 /// The status line: the latest message on the left; the database file, who is
@@ -78,7 +139,9 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
 fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     let who = app.who.clone().unwrap_or_else(|| "—".into());
     let file = std::path::Path::new(&app.db_path).file_name().map_or(app.db_path.clone(), |n| n.to_string_lossy().into_owned());
-    let right = format!(" {} │ by {who} │ as of {} ", shorten(&file, 20), app.days.zone.show(app.as_of));
+    // the one place the zone is named: every time on screen is on this clock
+    let zone = app.days.zone;
+    let right = format!(" {} │ by {who} │ as of {} {zone} ", shorten(&file, 20), zone.local(app.as_of).format("%m-%d %H:%M"));
     let room = (area.width as usize).saturating_sub(right.chars().count());
     let mut left = Vec::new();
     let mut used = 0;
@@ -98,15 +161,40 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     f.render_widget(Paragraph::new(Line::from(left)), area);
 }
 
+/// Warning lines for a screen: the recent ones in full, the old resolved ones
+/// (ended more than a day ago) folded into one count line.
+pub fn warning_lines<'a>(app: &App, warnings: &'a [crate::domain::forecast::Warning]) -> Vec<Line<'a>> {
+    let ended = |w: &crate::domain::forecast::Warning| w.to.or(w.from).filter(|_| w.code != "stale_readings");
+    let (old, news): (Vec<_>, Vec<_>) =
+        warnings.iter().partition(|w| ended(w).is_some_and(|t| crate::domain::plant_time::is_old(t, app.as_of)));
+    let mut lines: Vec<Line> = news.iter().map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red))).collect();
+    if let Some(last) = old.iter().filter_map(|w| ended(w)).max() {
+        let when = app.days.zone.local(last).format("%m-%d");
+        lines.push(Line::styled(format!("  + {} older, resolved (latest ended {when})", old.len()), fg(app, Color::DarkGray)));
+    }
+    lines
+}
+
 /// Keeps the end of a long path, which names the file.
 pub fn shorten(s: &str, max: usize) -> String {
     let n = s.chars().count();
     if n <= max { s.to_string() } else { format!("…{}", s.chars().skip(n + 1 - max).collect::<String>()) }
 }
 
+/// The hint bar: the keys of the overlay that has the keyboard, else of the
+/// screen. On a narrow terminal the screen's hints are dropped from the end,
+/// never help and quit (the last two), so `?` always leads to every key.
 fn draw_hints(f: &mut Frame, app: &App, area: Rect) {
+    let mut items = match &app.overlay {
+        Some(o) => overlay::hints(o.table()),
+        None => keys::hints(app.view),
+    };
+    let width = |items: &[(String, &str)]| items.iter().map(|(k, h)| k.chars().count() + h.chars().count() + 3).sum::<usize>();
+    while app.overlay.is_none() && items.len() > 2 && width(&items) > area.width as usize {
+        items.remove(items.len() - 3);
+    }
     let mut spans = Vec::new();
-    for (k, help) in keys::hints(app.view) {
+    for (k, help) in items {
         spans.push(Span::styled(format!(" {k}"), bold().patch(fg(app, Color::Cyan))));
         spans.push(Span::raw(format!(" {help} ")));
     }
@@ -118,148 +206,4 @@ pub fn centered(area: Rect, w: u16, h: u16) -> Rect {
     let w = w.min(area.width);
     let h = h.min(area.height);
     Rect { x: area.x + (area.width - w) / 2, y: area.y + (area.height - h) / 2, width: w, height: h }
-}
-
-/// Draws a bordered box; `area`'s height grows to fit wrapped lines where the screen allows.
-fn popup(f: &mut Frame, area: Rect, title: &str, lines: Vec<Line<'_>>) {
-    let inner_w = area.width.saturating_sub(2).max(1) as usize;
-    let need: usize = lines.iter().map(|l| l.width().div_ceil(inner_w).max(1)).sum::<usize>() + 2;
-    let screen = f.area();
-    let area = centered(screen, area.width, (need as u16).max(area.height));
-    f.render_widget(Clear, area);
-    let block = Block::default().borders(Borders::ALL).title(format!(" {title} "));
-    f.render_widget(Paragraph::new(lines).block(block).wrap(Wrap { trim: false }), area);
-}
-
-fn draw_overlay(f: &mut Frame, app: &App, o: &Overlay) {
-    let full = f.area();
-    match o {
-        Overlay::Help => {
-            let mut lines = vec![Line::styled(format!("{} screen", app.view.title()), bold())];
-            for b in keys::table(app.view).iter().chain(GLOBAL) {
-                lines.push(Line::from(vec![
-                    Span::styled(format!("{:>12}  ", keys::keys_label(b)), bold().patch(fg(app, Color::Cyan))),
-                    Span::raw(b.help),
-                ]));
-            }
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 74, h), "Help · any key closes", lines);
-        }
-        Overlay::Legend => {
-            let mut lines = vec![
-                Line::raw("Each tile: cell id, state, days to harvest, anode % left"),
-                Line::raw("('-' where there is none or the anodes are inert)."),
-            ];
-            for s in CellState::ALL {
-                let (c, col) = state_mark(Some(s));
-                lines.push(Line::from(vec![Span::styled(format!("  {c}  "), bold().patch(fg(app, col))), Span::raw(s.meaning())]));
-            }
-            let (c, col) = state_mark(None);
-            lines.push(Line::from(vec![Span::styled(format!("  {c}  "), fg(app, col)), Span::raw("nothing due today")]));
-            lines.push(Line::raw("The first state that applies is shown; the cell screen lists them all."));
-            lines.push(Line::raw("Any key closes the legend."));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 72, h), "Legend", lines);
-        }
-        Overlay::Menu => {
-            let mut lines = vec![Line::raw("Record what happened. Press a letter:")];
-            for (k, _, label) in MENU {
-                lines.push(Line::from(vec![Span::styled(format!("  {k}  "), bold().patch(fg(app, Color::Cyan))), Span::raw(*label)]));
-            }
-            lines.push(Line::raw("  Esc  cancel"));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 50, h), "New entry", lines);
-        }
-        Overlay::Jump(s) => {
-            popup(f, centered(full, 40, 4), "Go to cell", vec![Line::raw(format!("Cell id: {s}▏")), Line::raw("Enter go · Esc cancel")])
-        }
-        Overlay::Initials(s) => popup(
-            f,
-            centered(full, 56, 6),
-            "Who is logging this shift?",
-            vec![
-                Line::raw("Your initials are recorded with every entry."),
-                Line::styled(format!("Initials: {s}▏"), bold()),
-                Line::raw(""),
-                Line::raw("Enter to start"),
-            ],
-        ),
-        Overlay::Form(form) => {
-            let mut lines = Vec::new();
-            for (i, fl) in form.fields.iter().enumerate() {
-                let focus = i == form.focus;
-                let marker = if focus { "▶" } else { " " };
-                let style = if focus { bold() } else { Style::default() };
-                lines.push(Line::from(vec![
-                    Span::styled(format!("{marker}{:>20}: ", fl.label), style),
-                    Span::styled(format!("{}{}", fl.value, if focus { "▏" } else { "" }), style.add_modifier(Modifier::UNDERLINED)),
-                ]));
-                match &fl.error {
-                    Some(e) => lines.push(Line::styled(format!("{:>23}✗ {e}", ""), fg(app, Color::Red))),
-                    None => lines.push(Line::styled(format!("{:>23}{}", "", fl.hint), fg(app, Color::DarkGray))),
-                }
-            }
-            if let Some(m) = &form.message {
-                lines.push(Line::styled(format!("✗ {m}"), bold().patch(fg(app, Color::Red))));
-            }
-            lines.push(Line::raw("Tab/↑↓ field · Enter check and review · Esc drop"));
-            lines.push(Line::raw("Nothing is recorded until you confirm."));
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 78, h), form.kind.title(), lines);
-        }
-        Overlay::Review(r) => {
-            let mut lines = vec![Line::styled("To be recorded:", bold())];
-            let shown = r.summary.len().min(8);
-            for s in &r.summary[..shown] {
-                lines.push(Line::raw(format!("  {s}")));
-            }
-            if r.summary.len() > shown {
-                lines.push(Line::raw(format!("  … and {} more", r.summary.len() - shown)));
-            }
-            if r.questions.is_empty() {
-                lines.push(Line::raw(""));
-                lines.push(Line::styled("y record · n back to the form", bold()));
-            } else {
-                lines.push(Line::styled("The program questions this entry:", bold().patch(fg(app, Color::Red))));
-                for q in &r.questions {
-                    lines.push(Line::styled(format!("  ? {q}"), fg(app, Color::Red)));
-                }
-                if r.forced {
-                    lines.push(Line::styled("y record it anyway (marked forced) · n back", bold()));
-                } else {
-                    lines.push(Line::styled("F record anyway (asks again) · n back to the form", bold()));
-                }
-            }
-            let h = lines.len() as u16 + 2;
-            popup(f, centered(full, 78, h), "Review", lines);
-        }
-        Overlay::ConfirmUndo(e) => {
-            let place = e.cell.clone().or(e.circuit.clone()).unwrap_or_default();
-            popup(
-                f,
-                centered(full, 64, 6),
-                "Undo",
-                vec![
-                    Line::raw(format!("Undo entry {} — {} {place} at {}, by {}?", e.id, e.kind.name(), app.days.zone.show(e.at), e.by)),
-                    Line::raw("The entry stays in the log, marked undone."),
-                    Line::raw(""),
-                    Line::styled("y undo · any other key keeps it", bold()),
-                ],
-            );
-        }
-        // the board stays in view while a day is chosen; the status line says what to do
-        Overlay::PlanMove(_) => {}
-        Overlay::Notice(text) => {
-            popup(f, centered(full, 70, 5), "Note · any key closes", vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red)))])
-        }
-        Overlay::ConfirmQuit => popup(
-            f,
-            centered(full, 60, 5),
-            "Quit?",
-            vec![
-                Line::styled("An entry did not save and is only kept on screen.", fg(app, Color::Red)),
-                Line::raw("y quit and lose it · any other key stays (w retries)"),
-            ],
-        ),
-    }
 }

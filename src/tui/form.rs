@@ -2,7 +2,8 @@
 //! and checked as it is typed, and how a filled form becomes entries.
 
 use crate::domain::charge::Time;
-use crate::domain::entry::Entry;
+use crate::domain::entry::{Entry, Field as EntryField};
+use crate::domain::history::EventKind;
 use crate::domain::plant_time::PlantZone;
 
 /// The kinds of entry a form records.
@@ -37,6 +38,41 @@ pub const MENU: &[(char, FormKind, &str)] = &[
 ];
 
 impl FormKind {
+    pub const ALL: [FormKind; 11] = [
+        FormKind::Harvest,
+        FormKind::AnodeChange,
+        FormKind::Anodes,
+        FormKind::Scrap,
+        FormKind::Shorts,
+        FormKind::CutoutStart,
+        FormKind::CutoutEnd,
+        FormKind::Outage,
+        FormKind::Setpoint,
+        FormKind::Reading,
+        FormKind::Voltage,
+    ];
+
+    /// The form's name in a stored draft (never changed once shipped).
+    pub fn name(self) -> &'static str {
+        match self {
+            FormKind::Harvest => "harvest",
+            FormKind::AnodeChange => "anode_change",
+            FormKind::Anodes => "anodes",
+            FormKind::Scrap => "scrap",
+            FormKind::Shorts => "shorts",
+            FormKind::CutoutStart => "cutout_start",
+            FormKind::CutoutEnd => "cutout_end",
+            FormKind::Outage => "outage",
+            FormKind::Setpoint => "setpoint",
+            FormKind::Reading => "reading",
+            FormKind::Voltage => "voltage",
+        }
+    }
+
+    pub fn from_name(s: &str) -> Option<FormKind> {
+        FormKind::ALL.into_iter().find(|k| k.name() == s)
+    }
+
     pub fn title(self) -> &'static str {
         match self {
             FormKind::Harvest => "Harvest",
@@ -72,6 +108,23 @@ pub enum FieldKey {
 }
 
 impl FieldKey {
+    /// The field's name in a stored draft (never changed once shipped).
+    pub fn name(self) -> &'static str {
+        match self {
+            FieldKey::Cells => "cells",
+            FieldKey::CropKg => "crop_kg",
+            FieldKey::Circuit => "circuit",
+            FieldKey::At => "at",
+            FieldKey::From => "from",
+            FieldKey::To => "to",
+            FieldKey::TotalKg => "total_kg",
+            FieldKey::Count => "count",
+            FieldKey::MeanKg => "mean_kg",
+            FieldKey::Amps => "amps",
+            FieldKey::Volts => "volts",
+        }
+    }
+
     fn label(self, kind: FormKind) -> &'static str {
         match (self, kind) {
             (FieldKey::Cells, _) => "Cells",
@@ -103,22 +156,29 @@ impl FieldKey {
             FieldKey::Volts => "V",
         }
     }
+}
 
-    /// The command-line option a plant message names for this field.
-    pub fn option(self) -> &'static str {
-        match self {
-            FieldKey::Cells => "--cell",
-            FieldKey::Circuit => "--circuit",
-            FieldKey::At => "--at",
-            FieldKey::From => "--from",
-            FieldKey::To => "--to",
-            FieldKey::TotalKg | FieldKey::CropKg => "--total-kg",
-            FieldKey::Count => "--count",
-            FieldKey::MeanKg => "--mean-kg",
-            FieldKey::Amps => "--amps",
-            FieldKey::Volts => "--volts",
-        }
-    }
+/// The form field that typed an entry field: a form of `kind` made the rejected
+/// entry (of `entry` kind) and the plant names `field`. An anode change's crop
+/// is its harvest entry's weight, its scrap the scrap entry's weight.
+pub fn form_field(kind: FormKind, entry: Option<EventKind>, field: EntryField) -> Option<FieldKey> {
+    Some(match (kind, entry, field) {
+        (_, _, EntryField::Cell) => FieldKey::Cells,
+        (_, _, EntryField::Circuit) => FieldKey::Circuit,
+        (FormKind::AnodeChange, Some(EventKind::Harvest), EntryField::TotalKg) => FieldKey::CropKg,
+        (_, _, EntryField::TotalKg) => FieldKey::TotalKg,
+        (_, _, EntryField::Count) => FieldKey::Count,
+        (_, _, EntryField::MeanKg) => FieldKey::MeanKg,
+        (_, _, EntryField::Amps) => FieldKey::Amps,
+        (_, _, EntryField::Volts) => FieldKey::Volts,
+        // a cut-out's start is its "at": the forms that type it call it From
+        (FormKind::CutoutStart | FormKind::Outage | FormKind::Setpoint, _, EntryField::At | EntryField::From) => FieldKey::From,
+        (FormKind::CutoutEnd, _, EntryField::At | EntryField::To) => FieldKey::To,
+        (_, _, EntryField::At) => FieldKey::At,
+        (_, _, EntryField::From) => FieldKey::From,
+        (_, _, EntryField::To) => FieldKey::To,
+        (_, _, EntryField::By | EntryField::Event) => return None,
+    })
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -189,6 +249,22 @@ impl Form {
             .collect();
         let focus = keys.iter().position(|k| matches!(k, TotalKg | MeanKg | Count | Amps | Volts | To)).unwrap_or(0);
         Form { kind, fields, focus, message: None }
+    }
+
+    /// The fields as typed, by name: what a draft keeps.
+    pub fn typed(&self) -> Vec<(String, String)> {
+        self.fields.iter().map(|f| (f.key.name().to_string(), f.value.clone())).collect()
+    }
+
+    /// A form filled in again from a draft's fields (unknown names are ignored).
+    pub fn from_typed(kind: FormKind, typed: &[(String, String)]) -> Form {
+        let mut form = Form::new(kind, "", "", "", 0);
+        for f in &mut form.fields {
+            if let Some((_, v)) = typed.iter().find(|(k, _)| k == f.key.name()) {
+                f.value = v.clone();
+            }
+        }
+        form
     }
 
     pub fn field_mut(&mut self, key: FieldKey) -> Option<&mut Field> {
@@ -381,6 +457,29 @@ mod tests {
         assert!(parse_cells("A03-A01", &ids()).unwrap_err().contains("backwards"));
         assert!(parse_cells("A09", &ids()).unwrap_err().contains("no cell"));
         assert!(parse_cells("A01,A01", &ids()).unwrap_err().contains("twice"));
+    }
+
+    #[test]
+    fn a_rejection_lands_on_the_field_that_typed_it() {
+        let crop = form_field(FormKind::AnodeChange, Some(EventKind::Harvest), EntryField::TotalKg);
+        assert_eq!(crop, Some(FieldKey::CropKg));
+        let scrap = form_field(FormKind::AnodeChange, Some(EventKind::Scrap), EntryField::TotalKg);
+        assert_eq!(scrap, Some(FieldKey::TotalKg));
+        assert_eq!(form_field(FormKind::CutoutStart, Some(EventKind::Cutout), EntryField::At), Some(FieldKey::From));
+        assert_eq!(form_field(FormKind::Harvest, None, EntryField::By), None);
+    }
+
+    #[test]
+    fn a_form_comes_back_from_its_draft_as_typed() {
+        for kind in FormKind::ALL {
+            assert_eq!(FormKind::from_name(kind.name()), Some(kind));
+            let mut f = Form::new(kind, "A01-A03", "C1", "2026-03-01 12:00", 50);
+            for (i, fl) in f.fields.iter_mut().enumerate() {
+                fl.value = format!("{i} typed");
+            }
+            let back = Form::from_typed(kind, &f.typed());
+            assert_eq!(back.fields.iter().map(|x| &x.value).collect::<Vec<_>>(), f.fields.iter().map(|x| &x.value).collect::<Vec<_>>());
+        }
     }
 
     #[test]

@@ -2,8 +2,6 @@
 //! keys through these tables and the help and hint bar are printed from them,
 //! so the help can never drift from what the keys do.
 
-use ratatui::crossterm::event::{KeyCode, KeyEvent, KeyModifiers};
-
 use super::app::{Action, View};
 
 /// A key as the tables name it.
@@ -24,36 +22,11 @@ pub enum Key {
     End,
     Backspace,
     F(u8),
+    /// Ctrl-C: ends the screens at once, keeping a form being typed as a draft.
+    CtrlC,
 }
 
 impl Key {
-    pub fn from_event(e: KeyEvent) -> Option<Key> {
-        if e.modifiers.contains(KeyModifiers::CONTROL) {
-            return match e.code {
-                KeyCode::Char('c') => Some(Key::Char('q')),
-                _ => None,
-            };
-        }
-        Some(match e.code {
-            KeyCode::Char(c) => Key::Char(c),
-            KeyCode::Up => Key::Up,
-            KeyCode::Down => Key::Down,
-            KeyCode::Left => Key::Left,
-            KeyCode::Right => Key::Right,
-            KeyCode::Enter => Key::Enter,
-            KeyCode::Esc => Key::Esc,
-            KeyCode::Tab => Key::Tab,
-            KeyCode::BackTab => Key::BackTab,
-            KeyCode::PageUp => Key::PageUp,
-            KeyCode::PageDown => Key::PageDown,
-            KeyCode::Home => Key::Home,
-            KeyCode::End => Key::End,
-            KeyCode::Backspace => Key::Backspace,
-            KeyCode::F(n) => Key::F(n),
-            _ => return None,
-        })
-    }
-
     pub fn label(self) -> String {
         match self {
             Key::Char(' ') => "Space".into(),
@@ -72,6 +45,7 @@ impl Key {
             Key::End => "End".into(),
             Key::Backspace => "Bksp".into(),
             Key::F(n) => format!("F{n}"),
+            Key::CtrlC => "Ctrl-C".into(),
         }
     }
 }
@@ -103,7 +77,7 @@ pub const GLOBAL: &[Binding] = &[
     b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
     b(&[F(5)], Action::Reload, "reload from the database", None),
     b(&[Char('?')], Action::Help, "help: every key of this screen", Some("help")),
-    b(&[Char('q')], Action::Quit, "quit", Some("quit")),
+    b(&[Char('q'), CtrlC], Action::Quit, "quit (Ctrl-C also in a form: the form is kept as a draft)", Some("quit")),
 ];
 
 pub const TANKHOUSE: &[Binding] = &[
@@ -174,9 +148,10 @@ pub fn keys_label(b: &Binding) -> String {
     b.keys.iter().map(|k| k.label()).collect::<Vec<_>>().join("/")
 }
 
-/// The hint bar's items for a screen.
+/// The hint bar's items for a screen: the first key of each main binding (the
+/// help lists all of them).
 pub fn hints(view: View) -> Vec<(String, &'static str)> {
-    table(view).iter().chain(GLOBAL).filter_map(|b| b.hint.map(|h| (keys_label(b), h))).collect()
+    table(view).iter().chain(GLOBAL).filter_map(|b| Some((b.keys.first()?.label(), b.hint?))).collect()
 }
 
 #[cfg(test)]

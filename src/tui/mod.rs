@@ -7,16 +7,22 @@ mod cell;
 mod draw;
 mod entries;
 pub mod form;
+pub mod input;
 pub mod keys;
+pub mod overlay;
 mod plan;
 mod rectifier;
 mod tankhouse;
 
 use anyhow::Result;
-use ratatui::crossterm::event::{self, Event, KeyEventKind};
-use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, Ordering};
-use std::time::Duration as StdDuration;
+use ratatui::crossterm::cursor::Show;
+use ratatui::crossterm::execute;
+use ratatui::crossterm::terminal::{EnterAlternateScreen, LeaveAlternateScreen, disable_raw_mode, enable_raw_mode};
+use std::io::Write;
+use std::panic::AssertUnwindSafe;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::{Arc, mpsc};
+use std::time::{Duration as StdDuration, Instant};
 
 use app::{Action, App, CheckVerdict, Effect};
 use keys::Key;
@@ -39,6 +45,7 @@ impl Session {
         let info = plant.info()?;
         let mut app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
         app.shifts_per_day = info.plan.shifts_per_day.max(1);
+        app.drafts = plant.drafts()?;
         let mut s = Session { plant, app, clock };
         s.perform(Effect::Reload);
         Ok(s)
@@ -103,7 +110,7 @@ impl Session {
                 None
             }
             Effect::LoadTrends => {
-                match plant.rectifiers(app.as_of, app.span_days) {
+                match plant.rectifiers(app.as_of, app.rectifiers.span_days) {
                     Ok(t) => app.loaded_trends(t),
                     Err(e) => app.failed(format!("could not read the current log: {e}")),
                 }
@@ -117,7 +124,7 @@ impl Session {
                 None
             }
             Effect::LoadPlan => {
-                let opts = crate::plant::PlanOptions { days: app.plan_days, moves: app.plan_moves.clone(), ..Default::default() };
+                let opts = crate::plant::PlanOptions { days: app.plan.days, moves: app.plan.moves.clone(), ..Default::default() };
                 match plant.plan(&opts, app.as_of) {
                     Ok(p) => {
                         app.loaded_plan(p);
@@ -130,8 +137,10 @@ impl Session {
                 let verdict = match plant.check_batch(&batch) {
                     Ok(_) => Ok(()),
                     Err(PlantError::Questioned(q)) => Err(CheckVerdict::Questioned(q)),
-                    Err(PlantError::Rejected { field, message }) => Err(CheckVerdict::Rejected { field, message }),
-                    Err(e) => Err(CheckVerdict::Rejected { field: String::new(), message: e.to_string() }),
+                    Err(PlantError::Rejected { field, entry, message }) => {
+                        Err(CheckVerdict::Rejected { field: Some(field), entry, message })
+                    }
+                    Err(e) => Err(CheckVerdict::Rejected { field: None, entry: None, message: e.to_string() }),
                 };
                 app.checked(batch, verdict);
                 None
@@ -164,6 +173,12 @@ impl Session {
                 }
                 None
             }
+            Effect::DropDraft(id) => {
+                if let Err(e) = plant.drop_draft(id) {
+                    app.failed(format!("could not remove draft {id}: {e}"));
+                }
+                None
+            }
             Effect::Undo(id) => {
                 let opts = crate::plant::Opts { by: app.who.clone().unwrap_or_default(), force: false, now: app.as_of };
                 let r = plant.undo(Some(id), &opts).map_err(|e| e.to_string());
@@ -173,42 +188,182 @@ impl Session {
     }
 }
 
-/// Runs the screens in the terminal until the foreman quits or a signal ends it;
-/// the terminal is restored on every way out, a panic included.
+/// How the screens' loop ended.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Ended {
+    /// The foreman quit.
+    Quit,
+    /// The terminal went away (closed, end of input, a read or write error).
+    Gone(String),
+    /// SIGTERM, SIGHUP, SIGINT or Ctrl-C.
+    Signal(&'static str),
+}
+
+/// A panic inside the screens: the terminal is restored, the form kept, and the
+/// one line about it has been printed already.
+#[derive(Debug, thiserror::Error)]
+#[error("internal error in the screens")]
+pub struct Panicked;
+
+impl Session {
+    /// Keeps the form being typed (if any) as a draft in the database; its id.
+    /// Called as the terminal goes away: quick, and it starts nothing else.
+    pub fn keep_draft(&mut self, reason: &str) -> Option<i64> {
+        let form = self.app.unconfirmed_form()?;
+        let (kind, typed) = (form.kind.name(), form.typed());
+        let who = self.app.who.clone();
+        self.plant.save_draft(kind, &typed, who.as_deref(), (self.clock)(), reason).ok()
+    }
+}
+
+fn signal_name(sig: usize) -> &'static str {
+    match sig as i32 {
+        signal_hook::consts::SIGTERM => "SIGTERM",
+        signal_hook::consts::SIGHUP => "SIGHUP",
+        signal_hook::consts::SIGINT => "SIGINT",
+        _ => "a signal",
+    }
+}
+
+/// Runs the screens in the terminal until the foreman quits, the terminal goes
+/// away or a signal ends them; the terminal is restored on every way out, a
+/// panic included, and a form being typed is kept as a draft.
 pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
     let color = std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
     let mut session = Session::open(plant, clock, color)?;
-    let stop = Arc::new(AtomicBool::new(false));
-    for sig in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGHUP] {
-        signal_hook::flag::register(sig, Arc::clone(&stop))?;
+    // the first signal asks the loop to end; a second one ends the process at once
+    let signalled = Arc::new(AtomicBool::new(false));
+    let which = Arc::new(AtomicUsize::new(0));
+    for sig in [signal_hook::consts::SIGTERM, signal_hook::consts::SIGHUP, signal_hook::consts::SIGINT] {
+        signal_hook::flag::register_conditional_shutdown(sig, 1, Arc::clone(&signalled))?;
+        signal_hook::flag::register(sig, Arc::clone(&signalled))?;
+        signal_hook::flag::register_usize(sig, Arc::clone(&which), sig as usize)?;
     }
-    let mut terminal = ratatui::init();
-    let result = (|| -> Result<()> {
-        let size = terminal.size()?;
-        session.act(Action::Resize(size.width, size.height));
-        let mut last_reload = std::time::Instant::now();
-        loop {
-            terminal.draw(|f| draw(f, &session.app))?;
-            if stop.load(Ordering::Relaxed) || session.app.quit {
-                return Ok(());
+    let resized = Arc::new(AtomicBool::new(true));
+    signal_hook::flag::register(signal_hook::consts::SIGWINCH, Arc::clone(&resized))?;
+    let (tx, keys) = mpsc::channel();
+    input::spawn(tx)?;
+    quiet_restore_on_panic();
+    let mut terminal = enter()?;
+    let ended = std::panic::catch_unwind(AssertUnwindSafe(|| event_loop(&mut terminal, &mut session, &keys, &which, &resized)));
+    leave(terminal);
+    let mut err = std::io::stderr();
+    match ended {
+        Ok(Ok(Ended::Quit)) => Ok(()),
+        Ok(Ok(Ended::Gone(why))) => {
+            session.keep_draft(&why);
+            Ok(())
+        }
+        Ok(Ok(Ended::Signal(name))) => {
+            let kept = session.keep_draft(&format!("ended by {name}"));
+            let note = if kept.is_some() { "; the form being typed is kept and offered at the next start" } else { "" };
+            let _ = writeln!(err, "tankbook: ended by {name}{note}");
+            Ok(())
+        }
+        Ok(Err(e)) => {
+            session.keep_draft("the screens failed");
+            Err(e)
+        }
+        Err(_) => {
+            // the panic hook has printed its one line
+            if session.keep_draft("internal error").is_some() {
+                let _ = writeln!(err, "tankbook: the form being typed is kept and offered at the next start");
             }
-            if event::poll(StdDuration::from_millis(250))? {
-                match event::read()? {
-                    Event::Key(k) if k.kind != KeyEventKind::Release => {
-                        if let Some(key) = Key::from_event(k) {
-                            session.press(key);
-                        }
-                    }
-                    Event::Resize(w, h) => session.act(Action::Resize(w, h)),
-                    _ => {}
+            Err(Panicked.into())
+        }
+    }
+}
+
+/// Raw mode and the alternate screen, and a terminal to draw on.
+fn enter() -> std::io::Result<ratatui::DefaultTerminal> {
+    enable_raw_mode()?;
+    execute!(std::io::stdout(), EnterAlternateScreen)?;
+    ratatui::Terminal::new(ratatui::prelude::CrosstermBackend::new(std::io::stdout()))
+}
+
+/// Puts the terminal back (line mode, main screen, cursor shown), each step
+/// tried even if another fails. The terminal may be gone, so nothing here
+/// prints or panics: ratatui's own restore and its terminal's drop print with
+/// `eprintln!`, which panics on a dead terminal, so the terminal is not dropped.
+fn leave(terminal: ratatui::DefaultTerminal) {
+    let _ = disable_raw_mode();
+    let _ = execute!(std::io::stdout(), LeaveAlternateScreen, Show);
+    std::mem::forget(terminal);
+}
+
+/// A panic inside the screens puts the terminal back first, quietly, then the
+/// hook before it says what happened in one line.
+fn quiet_restore_on_panic() {
+    let hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(move |info| {
+        let _ = disable_raw_mode();
+        let _ = execute!(std::io::stdout(), LeaveAlternateScreen, Show);
+        hook(info);
+    }));
+}
+
+/// Draws and reads keys until the screens end. It waits on the keyboard
+/// reader's channel with a timeout, so signals and a vanished terminal are
+/// noticed within a tenth of a second.
+fn event_loop(
+    terminal: &mut ratatui::DefaultTerminal,
+    session: &mut Session,
+    keys: &mpsc::Receiver<input::Input>,
+    which: &AtomicUsize,
+    resized: &AtomicBool,
+) -> Result<Ended> {
+    let mut size = (0, 0);
+    let mut size_asked = Instant::now();
+    let mut dirty = true;
+    let mut last_reload = Instant::now();
+    loop {
+        let sig = which.load(Ordering::Relaxed);
+        if sig != 0 {
+            return Ok(Ended::Signal(signal_name(sig)));
+        }
+        if session.app.quit {
+            return Ok(Ended::Quit);
+        }
+        // the size is asked on SIGWINCH, and every few seconds in case one was missed
+        if resized.swap(false, Ordering::Relaxed) || size_asked.elapsed() > StdDuration::from_secs(2) {
+            size_asked = Instant::now();
+            match terminal.size() {
+                Ok(s) if (s.width, s.height) != size => {
+                    size = (s.width, s.height);
+                    session.act(Action::Resize(s.width, s.height));
+                    dirty = true;
                 }
-            } else if last_reload.elapsed() > StdDuration::from_secs(300) && session.app.overlay.is_none() {
-                // keep "as of" and the due times current on a screen left open
-                session.perform(Effect::Reload);
-                last_reload = std::time::Instant::now();
+                Ok(_) => {}
+                Err(e) => return Ok(Ended::Gone(format!("the terminal's size cannot be read: {e}"))),
             }
         }
-    })();
-    ratatui::restore();
-    result
+        if dirty {
+            if let Err(e) = terminal.draw(|f| draw(f, &session.app)) {
+                return Ok(Ended::Gone(format!("the terminal cannot be written: {e}")));
+            }
+            dirty = false;
+        }
+        match keys.recv_timeout(StdDuration::from_millis(100)) {
+            Ok(input::Input::Key(Key::CtrlC)) => {
+                if session.app.interrupt() {
+                    return Ok(Ended::Signal("Ctrl-C"));
+                }
+                dirty = true;
+            }
+            Ok(input::Input::Key(k)) => {
+                session.press(k);
+                dirty = true;
+            }
+            Ok(input::Input::Gone(why)) => return Ok(Ended::Gone(why)),
+            Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
+            Err(mpsc::RecvTimeoutError::Timeout) => {
+                if last_reload.elapsed() > StdDuration::from_secs(300) && session.app.overlay.is_none() {
+                    // keep "as of" and the due times current on a screen left open
+                    session.perform(Effect::Reload);
+                    last_reload = Instant::now();
+                    dirty = true;
+                }
+            }
+        }
+    }
 }

@@ -1,16 +1,91 @@
 //! The plan screen: the coming production days as a board with the crew load
 //! against capacity, the selected day's anode changes and harvests, and the totals.
 
-use chrono::Datelike;
+use chrono::{Datelike, NaiveDate};
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Modifier};
 use ratatui::text::{Line, Span};
 use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 
-use super::app::{App, Overlay};
+use super::app::App;
 use super::draw::{bold, fg};
-use crate::domain::plan::PlanDay;
+use super::overlay::Overlay;
+use crate::domain::plan::{AnodeChange, Plan, PlanDay};
+
+/// The plan screen's state: the plan, the hand moves, the selected day and job.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanScreen {
+    pub plan: Option<Plan>,
+    /// Anode changes moved by hand (cell, day), re-checked at every replan.
+    pub moves: Vec<(String, NaiveDate)>,
+    /// The hand move a new one replaced, put back if the new one is refused.
+    pub replaced: Option<(String, NaiveDate)>,
+    pub day: usize,
+    pub job: usize,
+    /// Production days planned.
+    pub days: u32,
+}
+
+impl Default for PlanScreen {
+    fn default() -> Self {
+        PlanScreen { plan: None, moves: Vec::new(), replaced: None, day: 0, job: 0, days: 21 }
+    }
+}
+
+impl PlanScreen {
+    /// Jobs listed for the selected day: anode changes, then harvests.
+    pub fn day_jobs(&self) -> usize {
+        self.plan.as_ref().and_then(|p| p.days.get(self.day)).map_or(0, |d| d.anode_changes.len() + d.harvests.len())
+    }
+
+    /// The anode change selected, if the selection is one.
+    pub fn selected_change(&self) -> Option<&AnodeChange> {
+        self.plan.as_ref()?.days.get(self.day)?.anode_changes.get(self.job)
+    }
+
+    fn day_count(&self) -> usize {
+        self.plan.as_ref().map_or(0, |p| p.days.len())
+    }
+
+    /// Another day: the day's first job is selected.
+    pub fn moved(&mut self, dy: i32) {
+        self.day = (self.day as i64 + i64::from(dy)).clamp(0, self.day_count().saturating_sub(1) as i64) as usize;
+        self.job = 0;
+    }
+
+    /// Another day while a change is being moved: the job stays.
+    pub fn choose_day(&mut self, dy: i32) {
+        self.day = (self.day as i64 + i64::from(dy)).clamp(0, self.day_count().saturating_sub(1) as i64) as usize;
+    }
+
+    pub fn next_job(&mut self, d: i32) {
+        let n = self.day_jobs();
+        self.job = (self.job as i64 + i64::from(d)).clamp(0, n.saturating_sub(1) as i64) as usize;
+    }
+
+    /// Places `cell` on the selected day; the date, or `None` without a plan.
+    pub fn place(&mut self, cell: &str) -> Option<NaiveDate> {
+        let date = self.plan.as_ref()?.days.get(self.day)?.date;
+        self.replaced = self.moves.iter().position(|(c, _)| c == cell).map(|i| self.moves.remove(i));
+        self.moves.push((cell.to_string(), date));
+        Some(date)
+    }
+
+    pub fn loaded(&mut self, p: Plan) {
+        self.day = self.day.min(p.days.len().saturating_sub(1));
+        self.replaced = None;
+        self.plan = Some(p);
+        self.job = self.job.min(self.day_jobs().saturating_sub(1));
+    }
+
+    /// A refused replan takes the last hand move back (and puts back the one it replaced).
+    pub fn take_back(&mut self) -> Option<(String, NaiveDate)> {
+        let last = self.moves.pop()?;
+        self.moves.extend(self.replaced.take());
+        Some(last)
+    }
+}
 
 /// A load bar: `load` of `cap` in `width` cells (over capacity cannot happen; shown if it did).
 fn bar(load: u32, cap: u32, width: usize) -> String {
@@ -49,7 +124,8 @@ fn day_line(app: &App, d: &PlanDay, selected: bool, moving: bool) -> Line<'stati
 }
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
-    let Some(plan) = &app.plan else {
+    let screen = &app.plan;
+    let Some(plan) = &screen.plan else {
         f.render_widget(Paragraph::new("planning…"), area);
         return;
     };
@@ -68,7 +144,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let scrap_t: f64 = plan.days.iter().map(|d| d.scrap_tonnes).sum();
     let cu_t: f64 = plan.days.iter().map(|d| d.copper_tonnes).sum();
     let harvests: usize = plan.days.iter().map(|d| d.harvests.len()).sum();
-    let moved = if app.plan_moves.is_empty() { String::new() } else { format!(" · {} moved by hand", app.plan_moves.len()) };
+    let moved = if screen.moves.is_empty() { String::new() } else { format!(" · {} moved by hand", screen.moves.len()) };
     f.render_widget(
         Paragraph::new(Line::from(vec![
             Span::styled(format!("{} d: ", plan.days.len()), bold()),
@@ -86,14 +162,23 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     };
     let moving = matches!(app.overlay, Some(Overlay::PlanMove(_)));
     let rows = board.height as usize;
-    let first = app.plan_day.saturating_sub(rows.saturating_sub(1));
+    let first = screen.day.saturating_sub(rows.saturating_sub(1));
     let lines: Vec<Line> =
-        plan.days.iter().enumerate().skip(first).take(rows).map(|(i, d)| day_line(app, d, i == app.plan_day, moving)).collect();
+        plan.days.iter().enumerate().skip(first).take(rows).map(|(i, d)| day_line(app, d, i == screen.day, moving)).collect();
     f.render_widget(Paragraph::new(lines), board);
 
-    let Some(day) = plan.days.get(app.plan_day) else { return };
+    let Some(day) = plan.days.get(screen.day) else { return };
     let mut l = Vec::new();
     let mut head = format!("{} {}", day.date.weekday(), day.date);
+    // the production day running now ends at its day start, which can be minutes away
+    if day.date == app.shift_now().day {
+        let end = app.day_end();
+        head.push_str(&format!(
+            " · today, ends {} ({})",
+            app.days.zone.local(end).format("%H:%M"),
+            crate::domain::plant_time::relative(end, app.as_of)
+        ));
+    }
     if let Some(why) = &day.no_anode_work {
         head.push_str(&format!(" · no anode work: {why}"));
     }
@@ -109,7 +194,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let mut spans = vec![Span::styled("change: ", bold())];
     for (i, c) in day.anode_changes.iter().enumerate() {
         let mut st = if c.overdue { fg(app, Color::Red) } else { Default::default() };
-        if i == app.plan_job {
+        if i == screen.job {
             st = st.add_modifier(Modifier::REVERSED);
         }
         let mark = format!("{}{}", if c.overdue { "!" } else { "" }, if c.moved { "*" } else { "" });
@@ -124,7 +209,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let mut spans = vec![Span::styled("harvest: ", bold())];
     for (i, h) in day.harvests.iter().enumerate() {
         let mut st = if h.overdue { fg(app, Color::Red) } else { Default::default() };
-        if i + n == app.plan_job {
+        if i + n == screen.job {
             st = st.add_modifier(Modifier::REVERSED);
         }
         spans.push(Span::styled(format!("{} {:.0}kg{}", h.cell, h.mass_kg, if h.overdue { "!" } else { "" }), st));
@@ -134,7 +219,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         spans.push(Span::raw("none"));
     }
     l.push(Line::from(spans));
-    if let Some(c) = app.selected_change() {
+    if let Some(c) = screen.selected_change() {
         let late = c.window.latest.map_or("open".to_string(), |d| d.format("%m-%d").to_string());
         l.push(Line::raw(format!(
             "{}: window {} – {late}, ideal {} · {} anodes · scrap {:.0} kg",

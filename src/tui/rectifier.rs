@@ -10,19 +10,55 @@ use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragrap
 
 use super::app::App;
 use super::draw::{bold, fg};
+use crate::plant::CircuitTrend;
+
+/// The time spans the charts offer, days.
+pub const SPANS: [i64; 4] = [1, 3, 7, 14];
+
+/// The rectifier screen's state: the circuits' trends, the selected circuit, the span shown.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RectifierScreen {
+    pub trends: Vec<CircuitTrend>,
+    pub sel: usize,
+    pub span_days: i64,
+}
+
+impl Default for RectifierScreen {
+    fn default() -> Self {
+        RectifierScreen { trends: Vec::new(), sel: 0, span_days: 3 }
+    }
+}
+
+impl RectifierScreen {
+    pub fn moved(&mut self, dy: i32) {
+        self.sel = (self.sel as i64 + i64::from(dy)).clamp(0, self.trends.len().saturating_sub(1) as i64) as usize;
+    }
+
+    /// A shorter or longer span, within [`SPANS`].
+    pub fn span(&mut self, d: i32) {
+        let i = SPANS.iter().position(|&s| s == self.span_days).unwrap_or(1) as i64 + i64::from(d);
+        self.span_days = SPANS[i.clamp(0, SPANS.len() as i64 - 1) as usize];
+    }
+
+    pub fn loaded(&mut self, t: Vec<CircuitTrend>) {
+        self.sel = self.sel.min(t.len().saturating_sub(1));
+        self.trends = t;
+    }
+}
 
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
-    if app.trends.is_empty() {
+    let screen = &app.rectifiers;
+    if screen.trends.is_empty() {
         f.render_widget(Paragraph::new("loading…"), area);
         return;
     }
-    let warn_lines: Vec<Line> = app.plant_warnings.iter().map(|w| Line::styled(format!("! {}", w.message), fg(app, Color::Red))).collect();
-    let list_h = (app.trends.len() as u16 + 2 + warn_lines.len() as u16).min(area.height / 2);
+    let warn_lines = super::draw::warning_lines(app, &app.plant_warnings);
+    let list_h = (screen.trends.len() as u16 + 2 + warn_lines.len() as u16).min(area.height / 2);
     let [list, chart] = Layout::vertical([Constraint::Length(list_h), Constraint::Min(5)]).areas(area);
     let mut lines =
         vec![Line::styled(format!("{:<6} {:>10} {:>16} {:>14}  notes", "circuit", "now, A", "last reading", "today, kA·h"), bold())];
-    let first = app.trend_sel.saturating_sub(list_h.saturating_sub(2) as usize - 1);
-    for (i, t) in app.trends.iter().enumerate().skip(first).take((list_h as usize).saturating_sub(1)) {
+    let first = screen.sel.saturating_sub(list_h.saturating_sub(2) as usize - 1);
+    for (i, t) in screen.trends.iter().enumerate().skip(first).take((list_h as usize).saturating_sub(1)) {
         let last = t.last_reading.map_or("none".into(), |p| app.days.zone.show(p.t));
         let now = t.last_reading.map_or("-".into(), |p| format!("{:.0}", p.amps));
         let est = if t.today_ah.1 > 0.0 { format!(" (+{:.1} est.)", t.today_ah.1 / 1000.0) } else { String::new() };
@@ -39,15 +75,15 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         }
         let text =
             format!("{:<6} {:>10} {:>16} {:>14}  {}{est}", t.name, now, last, format!("{:.1}", t.today_ah.0 / 1000.0), notes.join(", "));
-        let style = if i == app.trend_sel { bold().add_modifier(Modifier::REVERSED) } else { Default::default() };
+        let style = if i == screen.sel { bold().add_modifier(Modifier::REVERSED) } else { Default::default() };
         lines.push(Line::styled(text, style));
     }
     lines.extend(warn_lines);
     f.render_widget(Paragraph::new(lines), list);
-    let Some(t) = app.trends.get(app.trend_sel) else { return };
-    let from = app.as_of - chrono::Duration::days(app.span_days);
+    let Some(t) = screen.trends.get(screen.sel) else { return };
+    let from = app.as_of - chrono::Duration::days(screen.span_days);
     let h = |x: crate::domain::charge::Time| (x - from).num_minutes() as f64 / 60.0;
-    let span_h = (app.span_days * 24) as f64;
+    let span_h = (screen.span_days * 24) as f64;
     let pts: Vec<(f64, f64)> = t.points.iter().filter(|(x, _)| *x >= from).map(|(x, a)| (h(*x), a / 1000.0)).collect();
     let top = (t.max_amps / 1000.0).max(1.0);
     let outage: Vec<(f64, f64)> = t
@@ -67,12 +103,12 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         Dataset::default().name("day start").marker(Marker::Braille).graph_type(GraphType::Line).style(fg(app, Color::DarkGray)).data(&day),
     ];
     let title = Line::from(vec![
-        Span::raw(format!(" {} · last {} d · ", t.name, app.span_days)),
+        Span::raw(format!(" {} · last {} d · ", t.name, screen.span_days)),
         Span::styled("outage ▮ ", fg(app, Color::Red)),
         Span::styled("gap • ", fg(app, Color::Blue)),
         Span::raw(format!("estimate after last reading {:.0} A ", t.projected_amps)),
     ]);
-    let x = Axis::default().bounds([0.0, span_h]).labels(vec![Line::raw(format!("-{} d", app.span_days)), Line::raw("now")]);
+    let x = Axis::default().bounds([0.0, span_h]).labels(vec![Line::raw(format!("-{} d", screen.span_days)), Line::raw("now")]);
     let y = Axis::default().bounds([0.0, top]).labels(vec![Line::raw("0"), Line::raw(format!("{top:.0} kA"))]);
     f.render_widget(
         Chart::new(ds).legend_position(None).block(Block::default().borders(Borders::ALL).title(title)).x_axis(x).y_axis(y),
