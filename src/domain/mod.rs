@@ -9,6 +9,7 @@ pub mod entry;
 pub mod forecast;
 pub mod history;
 pub mod layout;
+pub mod learn;
 pub mod levelling;
 pub mod outlook;
 pub mod plan;
