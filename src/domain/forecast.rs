@@ -8,6 +8,7 @@ use super::cathode::Cathodes;
 use super::charge::{Curve, OpenSpan, Time, cell_charge, cell_time_reaching};
 use super::electrochem::specific_energy_kwh_per_kg;
 use super::layout::{AnodeKind, CellParams};
+use super::learn::{CellLearnt, Source};
 
 /// A structured data warning: a code a script can match, a sentence a person can read.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -24,7 +25,8 @@ pub struct Warning {
     pub to: Option<Time>,
 }
 
-/// What the forecast needs to know of one cell as of `as_of`.
+/// One cell as of a time: what the forecast, the plan and the patrol all
+/// start from (filled in one place, `plant`'s cell snapshot).
 #[derive(Debug, Clone, PartialEq)]
 pub struct CellInput {
     pub cell: String,
@@ -41,6 +43,32 @@ pub struct CellInput {
     pub last_voltage: Option<(Time, f64)>,
     /// Shorts found since the running crop began (count, last time).
     pub shorts: Option<(u32, Time)>,
+    /// The cathode efficiency and anode factor learnt from the cell's weighings
+    /// (the layout's where nothing is learnt): what every figure below uses.
+    pub learnt: CellLearnt,
+    /// Recent weighings left out of learning, and why (sentences for the warnings).
+    pub left_out: Vec<String>,
+}
+
+impl CellInput {
+    /// The cell's cathodes at its learnt efficiency.
+    pub fn cathodes(&self) -> Cathodes {
+        Cathodes { count: self.params.cathodes_per_cell, anodes: self.params.anodes_per_cell, efficiency: self.learnt.cathode.value }
+    }
+
+    /// A load of `count` anodes of `initial_kg` each in this cell, dissolving at its learnt anode factor.
+    pub fn anode_load(&self, count: u32, initial_kg: f64) -> AnodeLoad {
+        let p = &self.params;
+        AnodeLoad { initial_kg, count, efficiency: self.learnt.anode.value, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg }
+    }
+}
+
+/// The 90 % interval of a due time, from the learnt value's standard error and
+/// one weighing's scatter (the crop or load being forecast scatters like the past ones).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct DueWindow {
+    pub early: Time,
+    pub late: Time,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -51,6 +79,8 @@ pub struct AnodeForecast {
     pub remaining_kg: f64,
     pub remaining_fraction: f64,
     pub pull_due: Option<Time>,
+    /// 90 % interval of `pull_due` (none for inert anodes or without a due time).
+    pub pull_window: Option<DueWindow>,
     pub thickness_mm: f64,
 }
 
@@ -61,6 +91,8 @@ pub struct CathodeForecast {
     pub inner_mass_kg: f64,
     pub charge_ah: f64,
     pub harvest_due: Option<Time>,
+    /// 90 % interval of `harvest_due`.
+    pub harvest_window: Option<DueWindow>,
 }
 
 /// One cell's forecast.
@@ -75,12 +107,24 @@ pub struct CellForecast {
     pub anode_kind: AnodeKind,
     pub anode: Option<AnodeForecast>,
     pub cathode: Option<CathodeForecast>,
+    /// The cathode current efficiency used: learnt (see `cathode_efficiency_source`).
     pub cathode_efficiency: f64,
+    pub cathode_efficiency_source: Source,
+    pub cathode_efficiency_se: f64,
+    /// Weighed crops the efficiency is learnt from.
+    pub crops_learnt: u32,
+    /// Anode consumption factor used (the anode current efficiency, learnt from scrap weighings).
+    pub anode_factor: f64,
+    pub anode_factor_source: Source,
+    pub anode_factor_se: f64,
+    /// Scrap weighings the factor is learnt from.
+    pub scrap_learnt: u32,
     pub last_crop_efficiency: Option<f64>,
     /// Charge since the anode set (since the crop began for inert cells), including `estimated_ah`.
     pub charge_ah: f64,
     /// The part of `charge_ah` estimated after the circuit's last reading.
     pub estimated_ah: f64,
+    /// Cell DC energy per tonne of cathode copper, at the last voltage and the learnt efficiency.
     pub energy_kwh_per_t: Option<f64>,
     pub shorts: Option<u32>,
     pub warnings: Vec<Warning>,
@@ -95,14 +139,14 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     let mut warn = |code, message: String| {
         warnings.push(Warning { code, message, cell: Some(input.cell.clone()), circuit: None, from: None, to: None });
     };
-    let eta_c = p.cathode_efficiency;
+    let learnt = &input.learnt;
+    let eta_c = learnt.cathode.value;
     let mut charge = None;
     let mut anode = None;
     if let Some((set_at, count, initial_kg)) = input.load {
         let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
         charge = Some(q);
-        let load =
-            AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
+        let load = input.anode_load(count, initial_kg);
         anode = Some(if p.anode_kind == AnodeKind::Inert {
             AnodeForecast {
                 set_at,
@@ -111,6 +155,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 remaining_kg: initial_kg,
                 remaining_fraction: 1.0,
                 pull_due: None,
+                pull_window: None,
                 thickness_mm: body_thickness_mm(initial_kg, p.lug_kg, p.face_area_m2),
             }
         } else {
@@ -120,6 +165,20 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
                 None => None,
             };
+            let pull_window = match pull_due {
+                Some(_) => {
+                    let (lo, hi) = learnt.anode.interval90();
+                    // a faster-dissolving anode reaches the target first
+                    let at = |eff: f64| -> Result<Option<Time>, C::Error> {
+                        match (AnodeLoad { efficiency: eff.max(0.05), ..load }).charge_to_fraction_ah(p.scrap_target) {
+                            Some(q) => cell_time_reaching(curve, &input.cutouts, set_at, q),
+                            None => Ok(None),
+                        }
+                    };
+                    window(at(hi)?, at(lo)?)
+                }
+                None => None,
+            };
             AnodeForecast {
                 set_at,
                 count,
@@ -127,6 +186,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 remaining_kg,
                 remaining_fraction: load.remaining_fraction(q.total()),
                 pull_due,
+                pull_window,
                 thickness_mm,
             }
         });
@@ -143,7 +203,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             ),
         );
     }
-    let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
+    let cathodes = input.cathodes();
     let mut cathode = None;
     if let Some(started_at) = input.crop_started {
         let q = cell_charge(curve, &input.cutouts, started_at, as_of)?;
@@ -151,15 +211,40 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             charge = Some(q);
         }
         let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg))?;
+        let harvest_window = match due {
+            Some(_) => {
+                let (lo, hi) = learnt.cathode.interval90();
+                // copper cannot plate above 100 %; a higher efficiency reaches the target first
+                let at = |eff: f64| {
+                    let q = Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }.charge_to_mean_ah(p.cathode_target_kg);
+                    cell_time_reaching(curve, &input.cutouts, started_at, q)
+                };
+                window(at(hi)?, at(lo)?)
+            }
+            None => None,
+        };
         cathode = Some(CathodeForecast {
             started_at,
             mass_kg: cathodes.mean_kg(q.total()),
             inner_mass_kg: cathodes.inner_kg(q.total()),
             charge_ah: q.total(),
             harvest_due: due,
+            harvest_window,
         });
     }
-    if let Some(eff) = input.last_crop_efficiency
+    if learnt.cathode.source == Source::Cell && learnt.cathode.value < p.low_efficiency_below {
+        warn(
+            "low_efficiency",
+            format!(
+                "current efficiency learnt at {:.1} % ± {:.1} from {} crops, under {:.0} %: look for shorts or bad contacts",
+                learnt.cathode.value * 100.0,
+                learnt.cathode.se * 100.0,
+                learnt.cathode.learnt,
+                p.low_efficiency_below * 100.0
+            ),
+        );
+    } else if let Some(eff) = input.last_crop_efficiency
+        && learnt.cathode.source != Source::Cell
         && eff < p.low_efficiency_below
     {
         warn(
@@ -170,6 +255,9 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 p.low_efficiency_below * 100.0
             ),
         );
+    }
+    for why in &input.left_out {
+        warn("weighing_not_learnt", why.clone());
     }
     if let Some((t, v)) = input.last_voltage
         && (v < p.voltage_min || v > p.voltage_max)
@@ -199,6 +287,13 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         anode,
         cathode,
         cathode_efficiency: eta_c,
+        cathode_efficiency_source: learnt.cathode.source,
+        cathode_efficiency_se: learnt.cathode.se,
+        crops_learnt: learnt.cathode.learnt,
+        anode_factor: learnt.anode.value,
+        anode_factor_source: learnt.anode.source,
+        anode_factor_se: learnt.anode.se,
+        scrap_learnt: learnt.anode.learnt,
         last_crop_efficiency: input.last_crop_efficiency,
         charge_ah: charge.total(),
         estimated_ah: charge.estimated,
@@ -206,6 +301,14 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         shorts: input.shorts.map(|(n, _)| n),
         warnings,
     })
+}
+
+/// The window between two due times, if both are in sight (`None` otherwise).
+fn window(early: Option<Time>, late: Option<Time>) -> Option<DueWindow> {
+    match (early, late) {
+        (Some(early), Some(late)) => Some(DueWindow { early: early.min(late), late: early.max(late) }),
+        _ => None,
+    }
 }
 
 /// The whole plant's forecast.
@@ -243,6 +346,8 @@ mod tests {
             last_crop_efficiency: Some(0.85),
             last_voltage: Some((t0(), 0.30)),
             shorts: None,
+            learnt: CellLearnt::layout(&CellParams::default()),
+            left_out: Vec::new(),
         };
         let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
         let c = f.cathode.as_ref().unwrap();

@@ -42,6 +42,9 @@
 
 use serde::Serialize;
 
+use super::electrochem::ECE_KG_PER_AH;
+use super::layout::CellParams;
+
 /// The weight of a weighing one crop older than the next (common practice, no
 /// source: half-weight after about three crops, so a cell's value follows real
 /// changes — shorts come and go — without chasing one weighing).
@@ -148,6 +151,35 @@ impl Estimate {
     }
 }
 
+/// A cell's learnt values: cathode current efficiency and anode factor.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct CellLearnt {
+    pub cathode: Estimate,
+    pub anode: Estimate,
+}
+
+impl CellLearnt {
+    /// Nothing learnt: the layout's cathode and anode efficiencies.
+    pub fn layout(params: &CellParams) -> CellLearnt {
+        CellLearnt {
+            cathode: Estimate::layout(params.cathode_efficiency, &CATHODE),
+            anode: Estimate::layout(params.anode_efficiency, &ANODE),
+        }
+    }
+}
+
+/// The anode factor a scrap weighing measures: copper lost per anode over the
+/// copper Faraday's law dissolves at η_a = 1, (set − scrap/n) / (ECE · Q / n / w_Cu).
+/// `None` without charge or anodes.
+pub fn anode_factor(set_kg: f64, scrap_total_kg: f64, count: u32, charge_ah: f64, copper_fraction: f64) -> Option<f64> {
+    if count == 0 || charge_ah <= 0.0 || copper_fraction <= 0.0 {
+        return None;
+    }
+    let n = f64::from(count);
+    let faraday = ECE_KG_PER_AH * charge_ah / n / copper_fraction;
+    Some((set_kg - scrap_total_kg / n) / faraday)
+}
+
 /// Why a weighing is not learnt from.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
@@ -172,17 +204,13 @@ impl LeftOut {
         match self {
             LeftOut::Impossible { value } => format!("{what} {:.1} % is impossible: not learnt from", value * 100.0),
             LeftOut::OutOfLine { value, z } => {
-                format!("{what} {:.1} % is far out of line with the cell's other weighings (robust z {z:.1}): not learnt from", value * 100.0)
+                format!(
+                    "{what} {:.1} % is far out of line with the cell's other weighings (robust z {z:.1}): not learnt from",
+                    value * 100.0
+                )
             }
         }
     }
-}
-
-/// A cell's weighings, oldest first, and its layout value.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CellWeighings {
-    pub layout: f64,
-    pub values: Vec<f64>,
 }
 
 /// The section's pooled figures.
@@ -198,12 +226,25 @@ pub struct Pooled {
 /// What a section's weighings teach.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SectionLearnt {
-    /// Per cell, in input order.
-    pub cells: Vec<Estimate>,
+    /// Per cell, in input order; `None` when the section has too few to pool
+    /// (the cell keeps its layout value: [`SectionLearnt::estimate`]).
+    pub cells: Vec<Option<Estimate>>,
+    /// Per cell: weighings learnt from.
+    pub learnt: Vec<u32>,
     /// Per cell, per weighing: why it was left out (`None`: learnt from).
     pub left_out: Vec<Vec<Option<LeftOut>>>,
     /// `None` when the section has too few to pool.
     pub pooled: Option<Pooled>,
+}
+
+impl SectionLearnt {
+    /// Cell `i`'s value, `layout` when nothing could be pooled.
+    pub fn estimate(&self, i: usize, layout: f64, rule: &Rule) -> Estimate {
+        match self.cells.get(i).copied().flatten() {
+            Some(e) => e,
+            None => Estimate { learnt: self.learnt.get(i).copied().unwrap_or(0), ..Estimate::layout(layout, rule) },
+        }
+    }
 }
 
 fn median(v: &mut [f64]) -> Option<f64> {
@@ -225,29 +266,26 @@ pub fn robust_centre(values: &[f64]) -> Option<(f64, f64)> {
 }
 
 /// The weighings of a cell that are possible, and the out-of-line screening.
-fn screen(cells: &[CellWeighings], rule: &Rule) -> Vec<Vec<Option<LeftOut>>> {
+fn screen(cells: &[Vec<f64>], rule: &Rule) -> Vec<Vec<Option<LeftOut>>> {
     let mut left: Vec<Vec<Option<LeftOut>>> = cells
         .iter()
         .map(|c| {
-            c.values
-                .iter()
-                .map(|&v| (!(v.is_finite() && v >= rule.min && v <= rule.max)).then_some(LeftOut::Impossible { value: v }))
-                .collect()
+            c.iter().map(|&v| (!(v.is_finite() && v >= rule.min && v <= rule.max)).then_some(LeftOut::Impossible { value: v })).collect()
         })
         .collect();
     // residuals from the running median of the cell's other possible weighings
     let mut residuals: Vec<(usize, usize, f64)> = Vec::new();
     for (i, c) in cells.iter().enumerate() {
-        let ok: Vec<usize> = (0..c.values.len()).filter(|&k| left[i][k].is_none()).collect();
+        let ok: Vec<usize> = (0..c.len()).filter(|&k| left[i][k].is_none()).collect();
         if ok.len() < MIN_OWN_FOR_OUTLIERS + 1 {
             continue;
         }
         for (pos, &k) in ok.iter().enumerate() {
             let lo = pos.saturating_sub(NEIGHBOURS);
             let hi = (pos + NEIGHBOURS + 1).min(ok.len());
-            let mut around: Vec<f64> = (lo..hi).filter(|&p| p != pos).map(|p| c.values[ok[p]]).collect();
+            let mut around: Vec<f64> = (lo..hi).filter(|&p| p != pos).map(|p| c[ok[p]]).collect();
             if let Some(m) = median(&mut around) {
-                residuals.push((i, k, c.values[k] - m));
+                residuals.push((i, k, c[k] - m));
             }
         }
     }
@@ -257,7 +295,7 @@ fn screen(cells: &[CellWeighings], rule: &Rule) -> Vec<Vec<Option<LeftOut>>> {
     for (i, k, r) in residuals {
         let z = r / scale;
         if z.abs() > OUTLIER_Z {
-            left[i][k] = Some(LeftOut::OutOfLine { value: cells[i].values[k], z });
+            left[i][k] = Some(LeftOut::OutOfLine { value: cells[i][k], z });
         }
     }
     left
@@ -279,19 +317,12 @@ pub fn recency_mean(values: &[f64]) -> Option<(f64, f64)> {
     Some((swy / sw, sw * sw / sw2))
 }
 
-/// Learns a section's cells from their weighings under `rule`.
-pub fn learn_section(cells: &[CellWeighings], rule: &Rule) -> SectionLearnt {
+/// Learns a section's cells from their weighings (per cell, oldest first) under `rule`.
+pub fn learn_section(cells: &[Vec<f64>], rule: &Rule) -> SectionLearnt {
     let left_out = screen(cells, rule);
-    let kept: Vec<Vec<f64>> = cells
-        .iter()
-        .zip(&left_out)
-        .map(|(c, l)| c.values.iter().zip(l).filter(|(_, l)| l.is_none()).map(|(v, _)| *v).collect())
-        .collect();
-    let layout_all = |left_out| SectionLearnt {
-        cells: cells.iter().zip(&kept).map(|(c, k)| Estimate { learnt: k.len() as u32, ..Estimate::layout(c.layout, rule) }).collect(),
-        left_out,
-        pooled: None,
-    };
+    let kept: Vec<Vec<f64>> =
+        cells.iter().zip(&left_out).map(|(c, l)| c.iter().zip(l).filter(|(_, l)| l.is_none()).map(|(v, _)| *v).collect()).collect();
+    let learnt: Vec<u32> = kept.iter().map(|k| k.len() as u32).collect();
     // σ²: pooled within-cell scatter about each cell's plain mean
     let (mut ss, mut df) = (0.0, 0usize);
     for k in kept.iter().filter(|k| k.len() >= 2) {
@@ -303,7 +334,7 @@ pub fn learn_section(cells: &[CellWeighings], rule: &Rule) -> SectionLearnt {
     let with: Vec<(f64, f64)> = means.iter().flatten().copied().collect();
     let k = with.len();
     if k < MIN_CELLS || df < MIN_WITHIN_DF {
-        return layout_all(left_out);
+        return SectionLearnt { cells: vec![None; cells.len()], learnt, left_out, pooled: None };
     }
     let sigma2 = (ss / df as f64).max(SCATTER_FLOOR * SCATTER_FLOOR);
     let mu = with.iter().map(|m| m.0).sum::<f64>() / k as f64;
@@ -316,7 +347,7 @@ pub fn learn_section(cells: &[CellWeighings], rule: &Rule) -> SectionLearnt {
         .iter()
         .zip(&kept)
         .map(|(m, kept)| match m {
-            Some((ybar, n_eff)) => {
+            Some((ybar, n_eff)) => Some({
                 let v = sigma2 / n_eff;
                 let b = if tau2 + v > 0.0 { tau2 / (tau2 + v) } else { 0.0 };
                 Estimate {
@@ -326,19 +357,19 @@ pub fn learn_section(cells: &[CellWeighings], rule: &Rule) -> SectionLearnt {
                     se: (b * v + (1.0 - b) * (1.0 - b) * var_mu).sqrt(),
                     sigma,
                 }
-            }
-            None => Estimate { value: mu, source: Source::Section, learnt: 0, se: (tau2 + var_mu).sqrt(), sigma },
+            }),
+            None => Some(Estimate { value: mu, source: Source::Section, learnt: 0, se: (tau2 + var_mu).sqrt(), sigma }),
         })
         .collect();
-    SectionLearnt { cells: out, left_out, pooled: Some(Pooled { mu, tau2, sigma2, cells: k }) }
+    SectionLearnt { cells: out, learnt, left_out, pooled: Some(Pooled { mu, tau2, sigma2, cells: k }) }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
 
-    fn cw(values: &[f64]) -> CellWeighings {
-        CellWeighings { layout: 0.96, values: values.to_vec() }
+    fn cw(values: &[f64]) -> Vec<f64> {
+        values.to_vec()
     }
 
     fn close(a: f64, b: f64, tol: f64) -> bool {
@@ -370,12 +401,12 @@ mod tests {
         assert!(close(p.sigma2, 0.0002, 1e-12), "{p:?}");
         assert!(close(p.mu, 0.944074, 1e-6), "{p:?}");
         assert!(close(p.tau2, 0.00068107, 1e-8), "{p:?}");
-        let a = l.cells[0];
+        let a = l.cells[0].unwrap();
         assert_eq!((a.source, a.learnt), (Source::Cell, 2));
         assert!(close(a.value, 0.958906, 1e-6), "{a:?}");
         assert!(close(a.se, 0.0096273, 1e-6), "{a:?}");
-        assert!(close(l.cells[2].value, 0.956385, 1e-6), "{:?}", l.cells[2]);
-        let d = l.cells[3];
+        assert!(close(l.cells[2].unwrap().value, 0.956385, 1e-6), "{:?}", l.cells[2]);
+        let d = l.cells[3].unwrap();
         assert_eq!((d.source, d.learnt), (Source::Section, 0));
         assert!(close(d.value, 0.944074, 1e-6) && close(d.se, 0.030868, 1e-5), "{d:?}");
         // shrinkage: every learnt value lies between its own mean and the section's
@@ -387,7 +418,7 @@ mod tests {
         let plain = learn_section(&[cw(&[0.95, 0.97]), cw(&[0.90, 0.92]), cw(&[0.96])], &CATHODE);
         let with = learn_section(&[cw(&[0.95, 0.97, 1.08]), cw(&[0.90, 0.92]), cw(&[0.96])], &CATHODE);
         assert_eq!(with.left_out[0][2], Some(LeftOut::Impossible { value: 1.08 }));
-        assert_eq!(with.cells[0].learnt, 2);
+        assert_eq!(with.learnt[0], 2);
         assert_eq!(with.cells[0], plain.cells[0]);
         assert!(with.left_out[0][2].unwrap().message("crop efficiency").contains("108.0 % is impossible"));
     }
@@ -398,29 +429,39 @@ mod tests {
         let l = learn_section(&cells, &CATHODE);
         assert!(matches!(l.left_out[0][4], Some(LeftOut::OutOfLine { z, .. }) if z < -OUTLIER_Z));
         assert_eq!(l.left_out.iter().flatten().filter(|x| x.is_some()).count(), 1);
-        assert_eq!(l.cells[0].learnt, 5);
+        assert_eq!(l.learnt[0], 5);
         // a shorted cell's steady low level is not an outlier: its own weighings are its baseline
         let shorted = [cw(&[0.87, 0.875, 0.872, 0.869]), cw(&[0.96, 0.962, 0.958, 0.961]), cw(&[0.95, 0.951, 0.949, 0.95])];
         let l = learn_section(&shorted, &CATHODE);
         assert!(l.left_out.iter().flatten().all(Option::is_none));
-        assert!(l.cells[0].value < 0.88, "{:?}", l.cells[0]);
+        assert!(l.cells[0].unwrap().value < 0.88, "{:?}", l.cells[0]);
     }
 
     #[test]
     fn a_section_with_too_few_weighings_keeps_the_layout() {
         let l = learn_section(&[cw(&[0.90, 0.91]), cw(&[0.93]), cw(&[])], &CATHODE);
         assert!(l.pooled.is_none());
-        assert!(l.cells.iter().all(|e| e.source == Source::Layout && e.value == 0.96 && e.se == CATHODE.layout_se));
-        assert_eq!(l.cells[0].learnt, 2);
+        assert!(l.cells.iter().all(Option::is_none));
+        let e = l.estimate(0, 0.96, &CATHODE);
+        assert_eq!((e.source, e.value, e.se, e.learnt), (Source::Layout, 0.96, CATHODE.layout_se, 2));
     }
 
     #[test]
     fn many_crops_stand_on_their_own_few_lean_on_the_section() {
         let many = vec![0.90; 12];
         let l = learn_section(&[cw(&many), cw(&[0.90]), cw(&[0.96, 0.962, 0.958]), cw(&[0.95, 0.952, 0.948])], &CATHODE);
-        let (own, one) = (l.cells[0], l.cells[1]);
+        let (own, one) = (l.cells[0].unwrap(), l.cells[1].unwrap());
         assert!((own.value - 0.90).abs() < (one.value - 0.90).abs(), "{own:?} {one:?}");
         assert!(own.se < one.se);
+    }
+
+    #[test]
+    fn the_anode_factor_inverts_the_consumption_model() {
+        // DOMAIN.md plant check (derived): 50 × 380 kg at 30 kA reach 15 % after 451.8 h at η_a 1.00
+        let q = 30_000.0 * 451.8;
+        let f = anode_factor(380.0, 0.15 * 380.0 * 50.0, 50, q, 0.995).unwrap();
+        assert!(close(f, 1.0, 2e-4), "{f}");
+        assert_eq!(anode_factor(380.0, 1000.0, 0, q, 0.995), None);
     }
 
     #[test]

@@ -153,6 +153,8 @@ mod tests {
             last_crop_efficiency: None,
             last_voltage: None,
             shorts: None,
+            learnt: crate::domain::learn::CellLearnt::layout(&CellParams::default()),
+            left_out: Vec::new(),
         };
         (i, curve)
     }

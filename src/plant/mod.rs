@@ -7,6 +7,7 @@
 mod detail;
 mod forecast;
 mod import;
+mod learn;
 mod plan;
 mod record;
 
@@ -80,7 +81,12 @@ pub(crate) fn far_future() -> Time {
 
 impl Plant {
     pub fn open(path: &Path) -> Result<Plant> {
-        Ok(Plant { store: Store::open(path)? })
+        let mut store = Store::open(path)?;
+        if store.db().learning_missing()? {
+            // a database from before learning: learn once from what it holds
+            store.write(learn::relearn_all)?;
+        }
+        Ok(Plant { store })
     }
 
     pub fn path(&self) -> &Path {
@@ -219,6 +225,12 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
 /// After readings or outages change from `from` on, the crops that ended since
 /// then have a different charge: recompute their figures.
 pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
+    refresh_crop_figures(db, circuit_id, from)?;
+    // their efficiencies and the scrap factors after `from` changed with the charge
+    learn::relearn(db, &db.cells_weighed_since(circuit_id, from)?)
+}
+
+fn refresh_crop_figures(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
     let curve = StoreCurve::new(db, circuit_id, far_future())?;
     for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
         let cuts = db.cutouts(&cell, far_future())?;

@@ -3,11 +3,12 @@
 
 use serde::Serialize;
 
-use super::{Opts, Plant, PlantError, Result, far_future, rebuild_cell, refresh_crops};
+use super::{Opts, Plant, PlantError, Result, far_future, learn, rebuild_cell, refresh_crops};
 use crate::domain::anode::AnodeLoad;
 use crate::domain::charge::{Time, cell_charge};
 use crate::domain::entry::{CellContext, Entry, check_cell_entry, check_circuit_entry};
 use crate::domain::history::{Event, EventKind};
+use crate::domain::learn::Source;
 use crate::store::{Db, NewEvent, StoreCurve};
 
 /// What was recorded: the event's id, and the questions accepted with `--force`.
@@ -116,6 +117,9 @@ impl Plant {
                     ),
                     e => e,
                 })?;
+                if changes_learning(target.kind) {
+                    learn::relearn(db, std::slice::from_ref(cell))?;
+                }
             }
             if let (EventKind::Outage, Some(cid)) = (target.kind, circuit_id) {
                 db.recompute_charge(cid, target.at)?;
@@ -150,7 +154,7 @@ fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> 
     let params = db.params_at(cell, at)?;
     let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
     let cuts = db.cutouts(cell, far_future())?;
-    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None };
+    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None, predicted_spread: None };
     match entry {
         Entry::Harvest { .. } => {
             let start = db.crop_at(cell, at)?.ok_or_else(|| {
@@ -165,14 +169,20 @@ fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> 
             if let Some((_, set_at, count, mean)) = db.load_at(cell, at)? {
                 cx.load = Some((count, mean));
                 let q = cell_charge(&curve, &cuts, set_at, at)?.total();
+                // what the weighings logged before this one teach of the cell
+                let learnt = learn::learnt_one(db, cell, at, &params)?.anode;
                 let load = AnodeLoad {
                     initial_kg: mean,
                     count,
-                    efficiency: params.anode_efficiency,
+                    efficiency: learnt.value,
                     copper_fraction: params.anode_copper_fraction,
                     lug_kg: params.lug_kg,
                 };
                 cx.predicted_fraction = Some(load.remaining_fraction(q));
+                // the fraction moves by (Faraday loss at η_a = 1) / set mass per unit of factor
+                let per_factor = AnodeLoad { efficiency: 1.0, ..load }.loss_kg(q) / mean;
+                // nothing learnt yet: the fixed tolerance, as before learning
+                cx.predicted_spread = (learnt.source != Source::Layout).then(|| per_factor * learnt.predictive_sd());
             }
         }
         _ => {}
@@ -234,6 +244,12 @@ fn new_event(db: Db<'_>, entry: &Entry, by: &str, forced: bool, now: Time) -> Re
     Ok(e)
 }
 
+/// Whether an entry of this kind changes what the weighings teach: a weighing,
+/// a new load (it closes nothing, but an undo of one may), or a cut-out (the charge of a crop).
+fn changes_learning(kind: EventKind) -> bool {
+    matches!(kind, EventKind::Harvest | EventKind::Scrap | EventKind::Anodes | EventKind::Cutout)
+}
+
 /// What an entry changes beyond the event itself.
 fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
     if let Entry::Voltage { .. } | Entry::Shorts { .. } = entry {
@@ -241,7 +257,11 @@ fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
         return Ok(());
     }
     if let Some(cell) = entry.cell() {
-        return rebuild_cell(db, cell);
+        rebuild_cell(db, cell)?;
+        if changes_learning(entry.kind()) {
+            learn::relearn(db, &[cell.to_string()])?;
+        }
+        return Ok(());
     }
     if let Entry::Outage { circuit, from, .. } = entry
         && let Some(c) = db.circuit(circuit)?

@@ -6,8 +6,11 @@ use rusqlite::{Connection, TransactionBehavior};
 use super::Result;
 
 /// The migrations in order; `user_version` counts how many have run.
-pub const MIGRATIONS: &[(&str, &str)] =
-    &[("001_initial", include_str!("migrations/001_initial.sql")), ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql"))];
+pub const MIGRATIONS: &[(&str, &str)] = &[
+    ("001_initial", include_str!("migrations/001_initial.sql")),
+    ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
+    ("003_learnt", include_str!("migrations/003_learnt.sql")),
+];
 
 /// How many migrations the database has had.
 pub fn schema_version(c: &Connection) -> Result<i64> {

@@ -7,6 +7,7 @@
 
 mod cells;
 mod events;
+mod learnt;
 mod migrations;
 mod readings;
 
@@ -16,6 +17,7 @@ use std::time::Duration as StdDuration;
 
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use events::{CropFigures, LoadRow, NewEvent};
+pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, WeighingKind};
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use readings::StoreCurve;
 
