@@ -2,6 +2,7 @@
 //! terminal and no clock (every "now" is passed in).
 
 pub mod anode;
+pub mod backtest;
 pub mod cathode;
 pub mod charge;
 pub mod electrochem;
@@ -12,5 +13,6 @@ pub mod layout;
 pub mod learn;
 pub mod levelling;
 pub mod outlook;
+pub mod patrol;
 pub mod plan;
 pub mod plant_time;

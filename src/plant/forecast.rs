@@ -3,10 +3,12 @@
 use chrono::Duration;
 use std::collections::HashMap;
 
+use super::patrol::patrol_input;
 use super::{Plant, PlantError, Result, learn};
 use crate::domain::charge::{GAP_WARNING, Time};
 use crate::domain::forecast::{CellInput, Forecast, Warning, forecast_cell};
 use crate::domain::learn::CellLearnt;
+use crate::domain::patrol::{PatrolCell, SUSPECT_SCORE, rank};
 use crate::store::{Db, StoreCurve, WeighingKind};
 
 /// How far back the forecast looks for reading gaps and stray readings.
@@ -27,10 +29,29 @@ impl Plant {
             warnings.extend(circuit_warnings(db, &c.name, c.id, &curve, as_of)?);
             curves.insert(c.id, curve);
         }
+        // suspected shorts for the tiles: the patrol's score without the voltage
+        // trend (which needs each crop's readings; `tankbook patrol` adds it)
+        let mut patrol = Vec::new();
+        for (_, c) in &cells {
+            patrol.extend(patrol_input(None, c, as_of)?);
+        }
+        let suspects: HashMap<String, PatrolCell> =
+            rank(&patrol).into_iter().filter(|p| p.score >= SUSPECT_SCORE).map(|p| (p.cell.clone(), p)).collect();
         let mut out = Vec::with_capacity(cells.len());
         for (circuit_id, input) in &cells {
             let Some(curve) = curves.get(circuit_id) else { continue };
-            out.push(forecast_cell(input, curve, as_of)?);
+            let mut f = forecast_cell(input, curve, as_of)?;
+            if let Some(p) = suspects.get(&input.cell) {
+                f.warnings.push(Warning {
+                    code: "suspected_short",
+                    message: format!("suspected short (patrol score {:.1}): {}", p.score, p.reasons.join("; ")),
+                    cell: Some(input.cell.clone()),
+                    circuit: None,
+                    from: Some(p.voltage_at),
+                    to: None,
+                });
+            }
+            out.push(f);
         }
         Ok(Forecast { schema: 1, as_of, cells: out, warnings })
     }

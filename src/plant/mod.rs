@@ -4,10 +4,12 @@
 //! Each write is one store transaction: checks run inside it, so a rejected or
 //! questioned entry, or a failed import, leaves the database as it was.
 
+mod backtest;
 mod detail;
 mod forecast;
 mod import;
 mod learn;
+mod patrol;
 mod plan;
 mod record;
 

@@ -189,6 +189,12 @@ impl Db<'_> {
         Ok(t.map(time))
     }
 
+    /// The time of the earliest weighing learning knows of.
+    pub fn earliest_weighing_at(&self) -> Result<Option<Time>> {
+        let t: Option<i64> = self.c.prepare_cached("SELECT min(ended_at) FROM learn_weighing")?.query_row([], |r| r.get(0))?;
+        Ok(t.map(time))
+    }
+
     /// Whether learning has never run on a database that has weighed crops or scrap
     /// (one upgraded from before migration 003).
     pub fn learning_missing(&self) -> Result<bool> {
@@ -227,5 +233,15 @@ impl Db<'_> {
             )?
             .execute(params![cell, c.value, c.source.name(), c.learnt, c.se, c.sigma, a.value, a.source.name(), a.learnt, a.se, a.sigma])?;
         Ok(())
+    }
+
+    /// A cell's live voltage readings in `[from, to]`, oldest first.
+    pub fn voltages_between(&self, cell: &str, from: Time, to: Time) -> Result<Vec<(Time, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT at, volts FROM event e WHERE cell_id = ?1 AND kind = 'voltage' AND at >= ?2 AND at <= ?3 AND volts IS NOT NULL
+             AND NOT EXISTS (SELECT 1 FROM event v WHERE v.voids = e.id) ORDER BY at, id",
+        )?;
+        let v = st.query_map(params![cell, secs(from), secs(to)], |r| Ok((time(r.get(0)?), r.get(1)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 }
