@@ -43,9 +43,11 @@ pub const SHORT_WEIGHT: f64 = 0.5;
 pub const SHORTS_COUNTED: u32 = 6;
 pub const TREND_MIN_READINGS: usize = 3;
 pub const TREND_MV_PER_DAY: f64 = 10.0;
-/// A score from which a cell shows as a suspected short on the tiles (about
-/// three robust standard deviations below its section, or less with confirming signs).
-pub const SUSPECT_SCORE: f64 = 3.0;
+/// A score from which a cell shows as a suspected short on the tiles: six
+/// robust standard deviations below its section, or fewer with confirming
+/// signs. One reading's scatter reaches three in one cell of a few dozen, so
+/// three would flag healthy cells (common practice, no source).
+pub const SUSPECT_SCORE: f64 = 6.0;
 
 /// One cell as the patrol sees it.
 #[derive(Debug, Clone, PartialEq)]
