@@ -13,6 +13,7 @@
 //! - crops harvested about every 180 h and weighed with 0.4 % scatter; anodes
 //!   changed about every 450 h, scrap weighed with 1 % scatter;
 //! - section L: three inert-anode (liberator) cells at η ≈ 0.72, crops only.
+//!
 //! Every figure here is invented for the test.
 mod common;
 
@@ -202,7 +203,7 @@ fn simulate(db: &Path, seed: u64) -> Sim {
         }
         running.insert(cell.clone(), crop);
     }
-    entries.sort_by(|a, b| (a.0, a.1).cmp(&(b.0, b.1)));
+    entries.sort_by_key(|a| (a.0, a.1));
     let batch: Vec<(Entry, Opts)> = entries.into_iter().map(|(t, _, e)| (e, opts(t, false))).collect();
     plant.record_batch(&batch).unwrap();
     Sim { now, eta, running, curve, rng }
