@@ -5,7 +5,7 @@ use serde::Serialize;
 
 use super::anode::{AnodeLoad, body_thickness_mm};
 use super::cathode::Cathodes;
-use super::charge::{Curve, OpenSpan, Time, cell_charge, cell_time_reaching};
+use super::charge::{Curve, OpenSpan, Time, cell_charge, in_circuit};
 use super::electrochem::specific_energy_kwh_per_kg;
 use super::layout::{AnodeKind, CellParams};
 use super::learn::{CellLearnt, Source};
@@ -161,24 +161,15 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         } else {
             let remaining_kg = load.remaining_kg(q.total());
             let thickness_mm = body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2);
-            let pull_due = match load.charge_to_fraction_ah(p.scrap_target) {
-                Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
-                None => None,
+            // the due time and its window's ends in one walk along the curve:
+            // a faster-dissolving anode (the interval's high end) reaches the target first
+            let (lo, hi) = learnt.anode.interval90();
+            let to_target = |eff: f64| (AnodeLoad { efficiency: eff.max(0.05), ..load }).charge_to_fraction_ah(p.scrap_target);
+            let [pull_due, early, late] = match load.charge_to_fraction_ah(p.scrap_target) {
+                Some(target) => times_reaching(curve, &input.cutouts, set_at, [Some(target), to_target(hi), to_target(lo)])?,
+                None => [None; 3],
             };
-            let pull_window = match pull_due {
-                Some(_) => {
-                    let (lo, hi) = learnt.anode.interval90();
-                    // a faster-dissolving anode reaches the target first
-                    let at = |eff: f64| -> Result<Option<Time>, C::Error> {
-                        match (AnodeLoad { efficiency: eff.max(0.05), ..load }).charge_to_fraction_ah(p.scrap_target) {
-                            Some(q) => cell_time_reaching(curve, &input.cutouts, set_at, q),
-                            None => Ok(None),
-                        }
-                    };
-                    window(at(hi)?, at(lo)?)
-                }
-                None => None,
-            };
+            let pull_window = pull_due.and(window(early, late));
             AnodeForecast {
                 set_at,
                 count,
@@ -210,19 +201,16 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         if p.anode_kind == AnodeKind::Inert || charge.is_none() {
             charge = Some(q);
         }
-        let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg))?;
-        let harvest_window = match due {
-            Some(_) => {
-                let (lo, hi) = learnt.cathode.interval90();
-                // copper cannot plate above 100 %; a higher efficiency reaches the target first
-                let at = |eff: f64| {
-                    let q = Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }.charge_to_mean_ah(p.cathode_target_kg);
-                    cell_time_reaching(curve, &input.cutouts, started_at, q)
-                };
-                window(at(hi)?, at(lo)?)
-            }
-            None => None,
-        };
+        // copper cannot plate above 100 %; a higher efficiency reaches the target first
+        let (lo, hi) = learnt.cathode.interval90();
+        let to_target = |eff: f64| Some(Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }.charge_to_mean_ah(p.cathode_target_kg));
+        let [due, early, late] = times_reaching(
+            curve,
+            &input.cutouts,
+            started_at,
+            [Some(cathodes.charge_to_mean_ah(p.cathode_target_kg)), to_target(hi), to_target(lo)],
+        )?;
+        let harvest_window = due.and(window(early, late));
         cathode = Some(CathodeForecast {
             started_at,
             mass_kg: cathodes.mean_kg(q.total()),
@@ -303,6 +291,49 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     })
 }
 
+/// [`cell_time_reaching`] for several targets (`None`: no target) in one walk
+/// along the cell's in-circuit stretches, with the same arithmetic, so each
+/// answer is the one `cell_time_reaching` gives (the forecast's hot path).
+fn times_reaching<C: Curve, const N: usize>(
+    curve: &C,
+    cutouts: &[OpenSpan],
+    a: Time,
+    targets: [Option<f64>; N],
+) -> Result<[Option<Time>; N], C::Error> {
+    let mut out = [None; N];
+    let mut left: Vec<usize> = Vec::with_capacity(N);
+    for (i, t) in targets.iter().enumerate() {
+        match t {
+            Some(t) if *t <= 0.0 => out[i] = Some(a),
+            Some(_) => left.push(i),
+            None => {}
+        }
+    }
+    let mut acc = 0.0;
+    for (x, y) in in_circuit(a, None, cutouts) {
+        if left.is_empty() {
+            break;
+        }
+        let cx = curve.cum_at(x)?.total();
+        let got = match y {
+            Some(y) => curve.cum_at(y)?.total() - cx,
+            None => f64::INFINITY,
+        };
+        let mut still = Vec::with_capacity(left.len());
+        for i in left {
+            let target = targets[i].unwrap_or(f64::INFINITY);
+            if acc + got >= target {
+                out[i] = curve.time_at(cx + (target - acc))?.map(|t| t.max(x));
+            } else {
+                still.push(i);
+            }
+        }
+        left = still;
+        acc += got;
+    }
+    Ok(out)
+}
+
 /// The window between two due times, if both are in sight (`None` otherwise).
 fn window(early: Option<Time>, late: Option<Time>) -> Option<DueWindow> {
     match (early, late) {
@@ -328,6 +359,28 @@ mod tests {
 
     fn t0() -> Time {
         Utc.with_ymd_and_hms(2026, 3, 1, 0, 0, 0).unwrap()
+    }
+
+    #[test]
+    fn one_walk_gives_what_cell_time_reaching_gives() {
+        use crate::domain::charge::cell_time_reaching;
+        let readings: Vec<RawReading> =
+            (0..=48).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 1000.0 + 10.0 * h as f64 }).collect();
+        let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(48));
+        let cuts = [
+            OpenSpan { from: t0() + Duration::hours(5), to: Some(t0() + Duration::hours(7)) },
+            OpenSpan { from: t0() + Duration::hours(20), to: Some(t0() + Duration::minutes(1290)) },
+        ];
+        let targets = [Some(3_000.0), None, Some(0.0), Some(30_000.0), Some(1e12)];
+        let got = times_reaching(&curve, &cuts, t0(), targets).unwrap();
+        for (t, g) in targets.iter().zip(got) {
+            let want = match t {
+                Some(t) => cell_time_reaching(&curve, &cuts, t0(), *t).unwrap(),
+                None => None,
+            };
+            assert_eq!(g, want, "{t:?}");
+        }
+        assert!(got[0].is_some() && got[3].is_some());
     }
 
     /// DOMAIN.md plant check (derived): 50 × 380 kg anodes, 51 cathodes, 30 kA, η_c 0.96.

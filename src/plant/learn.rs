@@ -131,10 +131,22 @@ fn relearn_section(db: Db<'_>, cell: &str) -> Result<()> {
 /// After the weighings, crops, loads or charges of `cells` changed: refreshes
 /// their learn rows and relearns each of their sections once.
 pub(crate) fn relearn(db: Db<'_>, cells: &[String]) -> Result<()> {
-    let mut done = BTreeSet::new();
     for c in cells {
         refresh_rows(db, c)?;
     }
+    relearn_sections(db, cells)
+}
+
+/// Refreshes one cell's learn rows only; its section's stored values wait for
+/// [`relearn_sections`] (a batch of entries relearns each section once, at its end;
+/// the entries' checks learn from the rows, so they see every earlier entry).
+pub(crate) fn refresh_cell(db: Db<'_>, cell: &str) -> Result<()> {
+    refresh_rows(db, cell)
+}
+
+/// Relearns the sections of `cells`, each once, from their stored rows.
+pub(crate) fn relearn_sections(db: Db<'_>, cells: &[String]) -> Result<()> {
+    let mut done = BTreeSet::new();
     for c in cells {
         let section = db.section_cells(c)?;
         if section.first().is_some_and(|first| done.insert(first.clone())) {

@@ -31,7 +31,11 @@ impl Plant {
     /// one change nothing.
     pub fn record(&mut self, entry: &Entry, opts: &Opts) -> Result<Recorded> {
         let by = initials(&opts.by)?;
-        self.store.write(|db| record_in(db, entry, &by, opts))
+        self.store.write(|db| {
+            let (r, touched) = record_in(db, entry, &by, opts)?;
+            learn::relearn_sections(db, &touched.into_iter().collect::<Vec<_>>())?;
+            Ok(r)
+        })
     }
 
     /// Records many entries in one transaction, in order: all go in, or none
@@ -39,18 +43,24 @@ impl Plant {
     pub fn record_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
         self.store.write(|db| {
             let mut out = Vec::with_capacity(entries.len());
+            let mut touched = Vec::new();
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by)?;
                 let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
-                out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
+                let (r, cell) = record_in(db, entry, &by, opts).map_err(|e| match e {
                     PlantError::Rejected { field, message } => PlantError::Rejected { field, message: format!("{place}: {message}") },
                     PlantError::Questioned(mut q) => {
                         q.insert(0, place);
                         PlantError::Questioned(q)
                     }
                     e => e,
-                })?);
+                })?;
+                out.push(r);
+                touched.extend(cell);
             }
+            touched.sort();
+            touched.dedup();
+            learn::relearn_sections(db, &touched)?;
             Ok(out)
         })
     }
@@ -62,7 +72,7 @@ impl Plant {
             let mut out = Vec::with_capacity(entries.len());
             for (entry, opts) in entries {
                 let by = initials(&opts.by)?;
-                out.push(record_in(db, entry, &by, opts)?);
+                out.push(record_in(db, entry, &by, opts)?.0);
             }
             Ok(out)
         })
@@ -135,7 +145,9 @@ impl Plant {
     }
 }
 
-fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorded> {
+/// Records one entry; returns it and the cell whose learn rows it refreshed
+/// (its section is relearnt by the caller, once per write).
+fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<(Recorded, Option<String>)> {
     let questions = match entry.cell() {
         Some(cell) => check_for_cell(db, entry, cell)?,
         None => check_for_circuit(db, entry)?,
@@ -144,8 +156,8 @@ fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorde
         return Err(PlantError::Questioned(questions));
     }
     let event = db.append_event(&new_event(db, entry, by, !questions.is_empty(), opts.now)?)?;
-    apply(db, entry)?;
-    Ok(Recorded { event, forced_past: questions })
+    let touched = apply(db, entry)?;
+    Ok((Recorded { event, forced_past: questions }, touched))
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
@@ -250,18 +262,20 @@ fn changes_learning(kind: EventKind) -> bool {
     matches!(kind, EventKind::Harvest | EventKind::Scrap | EventKind::Anodes | EventKind::Cutout)
 }
 
-/// What an entry changes beyond the event itself.
-fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
+/// What an entry changes beyond the event itself; returns the cell whose learn
+/// rows changed (its section still to relearn).
+fn apply(db: Db<'_>, entry: &Entry) -> Result<Option<String>> {
     if let Entry::Voltage { .. } | Entry::Shorts { .. } = entry {
         // replay derives nothing from them: nothing to rebuild
-        return Ok(());
+        return Ok(None);
     }
     if let Some(cell) = entry.cell() {
         rebuild_cell(db, cell)?;
         if changes_learning(entry.kind()) {
-            learn::relearn(db, &[cell.to_string()])?;
+            learn::refresh_cell(db, cell)?;
+            return Ok(Some(cell.to_string()));
         }
-        return Ok(());
+        return Ok(None);
     }
     if let Entry::Outage { circuit, from, .. } = entry
         && let Some(c) = db.circuit(circuit)?
@@ -269,5 +283,5 @@ fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
         db.recompute_charge(c.id, *from)?;
         refresh_crops(db, c.id, *from)?;
     }
-    Ok(())
+    Ok(None)
 }
