@@ -470,4 +470,15 @@ fn a_database_from_before_learning_learns_when_opened() {
         c.execute_batch("DROP TABLE learn_weighing; DROP TABLE cell_learnt; PRAGMA user_version = 2;").unwrap();
     }
     assert_eq!(tk.json(&["forecast", "--json"]), learnt);
+    // check: the stored values are what learning afresh gives, and a tampered one is found
+    let out = tk.cmd().args(["check", "--json"]).output().unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stdout));
+    {
+        let c = rusqlite::Connection::open(&tk.db).unwrap();
+        c.execute("UPDATE cell_learnt SET cathode_value = 0.5 WHERE cell_id = 'S01'", []).unwrap();
+    }
+    let out = tk.cmd().args(["check", "--json"]).output().unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let problems = String::from_utf8_lossy(&out.stdout);
+    assert!(problems.contains("learnt efficiencies differ"), "{problems}");
 }

@@ -2,10 +2,11 @@
 //! hold, when each is due, and what in its data deserves a second look.
 
 use serde::Serialize;
+use std::cell::RefCell;
 
 use super::anode::{AnodeLoad, body_thickness_mm};
 use super::cathode::Cathodes;
-use super::charge::{Curve, OpenSpan, Time, cell_charge, in_circuit};
+use super::charge::{Cum, Curve, OpenSpan, Time, cell_charge, in_circuit};
 use super::electrochem::specific_energy_kwh_per_kg;
 use super::layout::{AnodeKind, CellParams};
 use super::learn::{CellLearnt, Source};
@@ -132,6 +133,8 @@ pub struct CellForecast {
 
 /// Forecasts one cell on its circuit's curve.
 pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Result<CellForecast, C::Error> {
+    // the charges and due times below walk the same cut-out boundaries: look each up once
+    let curve = &Memo { curve, seen: RefCell::new(Vec::new()) };
     let p = &input.params;
     let cut_out_since = input.cutouts.iter().find(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of)).map(|c| c.from);
     let in_circuit = cut_out_since.is_none();
@@ -291,7 +294,29 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     })
 }
 
-/// [`cell_time_reaching`] for several targets (`None`: no target) in one walk
+/// A curve that remembers the instants it was asked about (one cell's forecast
+/// asks for the same set, crop and cut-out times several times).
+struct Memo<'c, C: Curve> {
+    curve: &'c C,
+    seen: RefCell<Vec<(Time, Cum)>>,
+}
+
+impl<C: Curve> Curve for Memo<'_, C> {
+    type Error = C::Error;
+    fn cum_at(&self, t: Time) -> Result<Cum, C::Error> {
+        if let Some((_, c)) = self.seen.borrow().iter().find(|(x, _)| *x == t) {
+            return Ok(*c);
+        }
+        let c = self.curve.cum_at(t)?;
+        self.seen.borrow_mut().push((t, c));
+        Ok(c)
+    }
+    fn time_at(&self, total: f64) -> Result<Option<Time>, C::Error> {
+        self.curve.time_at(total)
+    }
+}
+
+/// [`crate::domain::charge::cell_time_reaching`] for several targets (`None`: no target) in one walk
 /// along the cell's in-circuit stretches, with the same arithmetic, so each
 /// answer is the one `cell_time_reaching` gives (the forecast's hot path).
 fn times_reaching<C: Curve, const N: usize>(

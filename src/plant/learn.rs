@@ -101,6 +101,13 @@ fn to_stored(l: &SectionLearnt, i: usize, rule: &Rule) -> StoredEstimate {
 fn relearn_section(db: Db<'_>, cell: &str) -> Result<()> {
     let cells = db.section_cells(cell)?;
     let rows = db.section_learn_rows(cell, far_future())?;
+    if rows.is_empty() {
+        // nothing weighed: no stored values, the layout's apply (as for a section never weighed)
+        for c in &cells {
+            db.delete_cell_learnt(c)?;
+        }
+        return Ok(());
+    }
     let s = split(&cells, &rows);
     for (by_cell, rule) in [(&s.crop, &CATHODE), (&s.scrap, &ANODE)] {
         let l = learn(by_cell, rule);

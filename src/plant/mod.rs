@@ -167,6 +167,17 @@ impl Plant {
             Ok(bad)
         })?;
         r.problems.extend(mismatches);
+        // the stored learnt values must be what learning from scratch gives
+        let learnt = self.store.preview(|db| -> Result<Vec<String>> {
+            let before = db.learn_digest()?;
+            learn::relearn_all(db)?;
+            Ok(if db.learn_digest()? == before {
+                Vec::new()
+            } else {
+                vec!["the stored learnt efficiencies differ from learning afresh from the weighings".to_string()]
+            })
+        })?;
+        r.problems.extend(learnt);
         Ok(r)
     }
 

@@ -206,6 +206,28 @@ impl Db<'_> {
         )?)
     }
 
+    /// The learn tables as text, for comparing with learning afresh.
+    pub fn learn_digest(&self) -> Result<String> {
+        let mut out = String::new();
+        for sql in [
+            "SELECT cell_id, kind, started_at, ended_at, printf('%.9e', charge_ah), weighed_kg, count, set_kg, printf('%.9e', value), left_out,
+             printf('%.6e', z) FROM learn_weighing ORDER BY cell_id, kind, started_at",
+            "SELECT cell_id, printf('%.9e', cathode_value), cathode_source, cathode_n, printf('%.9e', cathode_se), printf('%.9e', cathode_sigma),
+             printf('%.9e', anode_value), anode_source, anode_n, printf('%.9e', anode_se), printf('%.9e', anode_sigma) FROM cell_learnt ORDER BY cell_id",
+        ] {
+            let mut st = self.c.prepare(sql)?;
+            let n = st.column_count();
+            let mut rows = st.query([])?;
+            while let Some(r) = rows.next()? {
+                let cols: Vec<String> = (0..n).map(|i| r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default()).collect();
+                out.push_str(&cols.join("|"));
+                out.push('\n');
+            }
+            out.push_str("--\n");
+        }
+        Ok(out)
+    }
+
     /// Every cell's stored learnt values.
     pub fn cell_learnt_all(&self) -> Result<HashMap<String, StoredLearnt>> {
         let mut st = self.c.prepare_cached(
@@ -222,6 +244,11 @@ impl Db<'_> {
              anode_value, anode_source, anode_n, anode_se, anode_sigma FROM cell_learnt WHERE cell_id = ?1",
         )?;
         Ok(st.query_row([cell], |r| Ok(StoredLearnt { cathode: stored(r, 1)?, anode: stored(r, 6)? })).optional()?)
+    }
+
+    pub fn delete_cell_learnt(&self, cell: &str) -> Result<()> {
+        self.c.prepare_cached("DELETE FROM cell_learnt WHERE cell_id = ?1")?.execute([cell])?;
+        Ok(())
     }
 
     pub fn set_cell_learnt(&self, cell: &str, l: &StoredLearnt) -> Result<()> {
