@@ -16,8 +16,8 @@ use crate::domain::layout::{AnodeKind, CellParams};
 use crate::domain::learn::{ANODE, CATHODE, CellLearnt, Estimate, Rule, SectionLearnt, anode_factor, learn_section};
 use crate::store::{Db, LearnRow, StoreCurve, StoredEstimate, StoredLearnt, WeighingKind};
 
-/// Rebuilds a cell's learn rows from its crops and anode loads as stored.
-fn refresh_rows(db: Db<'_>, cell: &str) -> Result<()> {
+/// Rebuilds a cell's learn rows from its crops and, with `loads`, its anode loads as stored.
+fn refresh_rows(db: Db<'_>, cell: &str, loads: bool) -> Result<()> {
     let mut rows = Vec::new();
     for ((start, end, kg), f) in db.crop_figures(cell)? {
         if let Some(e) = f.efficiency {
@@ -35,6 +35,10 @@ fn refresh_rows(db: Db<'_>, cell: &str) -> Result<()> {
                 z: None,
             });
         }
+    }
+    if !loads {
+        db.replace_learn_rows(cell, &[WeighingKind::Crop], &rows)?;
+        return Ok(());
     }
     let loads: Vec<_> = db.loads(cell)?.into_iter().filter(|l| l.ended_at.is_some() && l.scrap_kg.is_some()).collect();
     if !loads.is_empty() {
@@ -64,7 +68,7 @@ fn refresh_rows(db: Db<'_>, cell: &str) -> Result<()> {
             }
         }
     }
-    db.replace_learn_rows(cell, &rows)?;
+    db.replace_learn_rows(cell, &[WeighingKind::Crop, WeighingKind::Scrap], &rows)?;
     Ok(())
 }
 
@@ -139,16 +143,18 @@ fn relearn_section(db: Db<'_>, cell: &str) -> Result<()> {
 /// their learn rows and relearns each of their sections once.
 pub(crate) fn relearn(db: Db<'_>, cells: &[String]) -> Result<()> {
     for c in cells {
-        refresh_rows(db, c)?;
+        refresh_rows(db, c, true)?;
     }
     relearn_sections(db, cells)
 }
 
-/// Refreshes one cell's learn rows only; its section's stored values wait for
-/// [`relearn_sections`] (a batch of entries relearns each section once, at its end;
-/// the entries' checks learn from the rows, so they see every earlier entry).
-pub(crate) fn refresh_cell(db: Db<'_>, cell: &str) -> Result<()> {
-    refresh_rows(db, cell)
+/// Refreshes one cell's learn rows only (its crops alone when only a crop
+/// changed: a harvest leaves the anode loads as they were); its section's
+/// stored values wait for [`relearn_sections`] (a batch of entries relearns
+/// each section once, at its end; the entries' checks learn from the rows, so
+/// they see every earlier entry).
+pub(crate) fn refresh_cell(db: Db<'_>, cell: &str, crops_only: bool) -> Result<()> {
+    refresh_rows(db, cell, !crops_only)
 }
 
 /// Relearns the sections of `cells`, each once, from their stored rows.

@@ -272,7 +272,7 @@ fn apply(db: Db<'_>, entry: &Entry) -> Result<Option<String>> {
     if let Some(cell) = entry.cell() {
         rebuild_cell(db, cell)?;
         if changes_learning(entry.kind()) {
-            learn::refresh_cell(db, cell)?;
+            learn::refresh_cell(db, cell, entry.kind() == EventKind::Harvest)?;
             return Ok(Some(cell.to_string()));
         }
         return Ok(None);

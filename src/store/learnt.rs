@@ -98,9 +98,11 @@ fn stored(r: &rusqlite::Row<'_>, at: usize) -> rusqlite::Result<StoredEstimate> 
 }
 
 impl Db<'_> {
-    /// Replaces a cell's learn rows (their `left_out` is set by the section's learning).
-    pub fn replace_learn_rows(&self, cell: &str, rows: &[LearnRow]) -> Result<()> {
-        self.c.prepare_cached("DELETE FROM learn_weighing WHERE cell_id = ?1")?.execute([cell])?;
+    /// Replaces a cell's learn rows of the given kinds (their `left_out` is set by the section's learning).
+    pub fn replace_learn_rows(&self, cell: &str, kinds: &[WeighingKind], rows: &[LearnRow]) -> Result<()> {
+        for k in kinds {
+            self.c.prepare_cached("DELETE FROM learn_weighing WHERE cell_id = ?1 AND kind = ?2")?.execute([cell, k.name()])?;
+        }
         let mut st = self.c.prepare_cached(
             "INSERT INTO learn_weighing(cell_id, kind, started_at, ended_at, charge_ah, weighed_kg, count, set_kg, value, left_out, z)
              VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
