@@ -433,6 +433,9 @@ fn an_impossible_weighing_stays_in_the_log_is_not_learnt_and_undo_restores() {
     let sim = simulate(&tk.db, 17);
     let cell = |tk: &Tk| tk.json(&["forecast", "--cell", "S03", "--json"])["cells"][0].clone();
     let before = cell(&tk);
+    // a forecast as of an earlier time learns only from the weighings up to it
+    let earlier = tk.json(&["forecast", "--cell", "S03", "--at", "2026-04-10T00:00:00Z", "--json"])["cells"][0].clone();
+    assert!(earlier["crops_learnt"].as_u64().unwrap() < before["crops_learnt"].as_u64().unwrap(), "{earlier}");
     let dump = tk.dump();
     let start = sim.running["S03"];
     let q = cell_charge(&sim.curve, &[], start, sim.now).unwrap_or_else(|e| match e {}).total();

@@ -1207,6 +1207,23 @@ mod tests {
     }
 
     #[test]
+    fn learnt_efficiencies_move_the_window_and_the_crops() {
+        // A cell whose anodes dissolve at a learnt factor of 0.90 reaches 15 % after
+        // 451.83 h / 0.90 = 502.0 h (the plant check, derived); its crops plate at a learnt 0.88.
+        let mut c = cell("A01", 0.0);
+        c.learnt.anode.value = 0.90;
+        c.learnt.cathode.value = 0.88;
+        let inp = input(240, "20:00", 30, rules(8), vec![c]);
+        let curves = flat(240);
+        let o = outlook(&inp.cells[0], &curves["C1"], &inp.calendar, inp.now).unwrap();
+        let ch = o.cycles[0].change.as_ref().unwrap();
+        assert!((hours_after_t0(ch.target_at) - TARGET_H / 0.90).abs() < 0.01, "{:?}", ch.target_at);
+        // the first crop reaches 120 kg a cathode after 179.25 h × 0.96 / 0.88 = 195.5 h
+        let h = hours_after_t0(o.cycles[0].harvests[0].due_at);
+        assert!((h - 179.25 * 0.96 / 0.88).abs() < 0.05, "{h}");
+    }
+
+    #[test]
     fn plant_check_window_and_ideal_day_with_a_day_start_that_matters() {
         // Days start at 20:00 UTC, so a crossing in the evening before 20:00 belongs to the
         // previous production day. Now is 2026-03-11 00:00Z, in the production day 2026-03-10.
