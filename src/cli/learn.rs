@@ -1,24 +1,36 @@
 //! Printing what the plant learns: the patrol list and the back-test.
 
 use anyhow::Result;
+use std::fmt::Write as _;
+use std::io::Write as _;
 
 use super::args::{BacktestArgs, PatrolArgs};
 use crate::domain::charge::Time;
 use crate::plant::Plant;
 
+/// Writes the whole output at once; a reader that stops early (`| head`) is not an error.
+fn emit(text: &str) -> Result<()> {
+    match std::io::stdout().lock().write_all(text.as_bytes()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        r => Ok(r?),
+    }
+}
+
 pub fn patrol(plant: &Plant, a: &PatrolArgs, now: Time) -> Result<()> {
     let p = plant.patrol(now)?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&p)?);
-        return Ok(());
+        return emit(&(serde_json::to_string_pretty(&p)? + "\n"));
     }
-    println!("cells to check for shorts as of {}, most suspect first", plant.show_time(p.as_of));
-    println!(
+    let mut out = String::new();
+    writeln!(out, "cells to check for shorts as of {}, most suspect first", plant.show_time(p.as_of))?;
+    writeln!(
+        out,
         "{:<7} {:<5} {:<4} {:>6} {:>7} {:>8} {:>7} {:>6} {:>6}  reasons",
         "cell", "circ", "sect", "score", "volts", "median", "dev mV", "η %", "shorts"
-    );
+    )?;
     for c in &p.cells {
-        println!(
+        writeln!(
+            out,
             "{:<7} {:<5} {:<4} {:>6.1} {:>7.3} {:>8.3} {:>7.0} {:>6.1} {:>6}  {}",
             c.cell,
             c.circuit,
@@ -30,12 +42,12 @@ pub fn patrol(plant: &Plant, a: &PatrolArgs, now: Time) -> Result<()> {
             c.cathode_efficiency * 100.0,
             c.shorts_this_crop,
             c.reasons.join("; ")
-        );
+        )?;
     }
     if p.cells.is_empty() {
-        println!("no in-circuit cell has a voltage reading in the last 24 h");
+        writeln!(out, "no in-circuit cell has a voltage reading in the last 24 h")?;
     }
-    Ok(())
+    emit(&out)
 }
 
 pub fn backtest(plant: &Plant, a: &BacktestArgs, now: Time) -> Result<()> {
@@ -46,31 +58,35 @@ pub fn backtest(plant: &Plant, a: &BacktestArgs, now: Time) -> Result<()> {
     };
     let b = plant.backtest(from, to, a.cell.as_deref())?;
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&b)?);
-        return Ok(());
+        return emit(&(serde_json::to_string_pretty(&b)? + "\n"));
     }
+    let mut out = String::new();
     let f = |x: Option<f64>, unit: &str| x.map_or("-".to_string(), |v| format!("{v:.2}{unit}"));
     let s = &b.summary;
-    println!(
+    writeln!(
+        out,
         "back-test of the weighings from {} to {} (predictions ex ante, on each crop's measured charge)",
         plant.show_time(b.from),
         plant.show_time(b.to)
-    );
-    println!(
+    )?;
+    writeln!(
+        out,
         "crops: {}  mass error (MAPE) learnt {}  fixed {}  bias {}  harvest time error {}",
         s.crops,
         f(s.mass_mape_pct, " %"),
         f(s.fixed_mass_mape_pct, " %"),
         f(s.mass_bias_pct, " %"),
         f(s.harvest_time_mae_h, " h")
-    );
-    println!("scrap: {}  error learnt {}  fixed {}", s.scrap, f(s.scrap_mae_pp, " points"), f(s.fixed_scrap_mae_pp, " points"));
-    println!(
+    )?;
+    writeln!(out, "scrap: {}  error learnt {}  fixed {}", s.scrap, f(s.scrap_mae_pp, " points"), f(s.fixed_scrap_mae_pp, " points"))?;
+    writeln!(
+        out,
         "{:<7} {:<17} {:>9} {:>9} {:>9} {:>7} {:>7} {:<7}",
         "cell", "harvested", "weighed", "learnt", "fixed", "err %", "fix %", "source"
-    );
+    )?;
     for r in &b.crops {
-        println!(
+        writeln!(
+            out,
             "{:<7} {:<17} {:>9.0} {:>9.0} {:>9.0} {:>7.2} {:>7.2} {:<7}",
             r.cell,
             plant.show_time(r.harvested_at),
@@ -80,7 +96,7 @@ pub fn backtest(plant: &Plant, a: &BacktestArgs, now: Time) -> Result<()> {
             r.error_pct,
             r.fixed_error_pct,
             r.cathode_efficiency_source.name()
-        );
+        )?;
     }
-    Ok(())
+    emit(&out)
 }
