@@ -131,7 +131,12 @@ impl Plant {
     /// Defines or updates the plant from a layout file's text.
     pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
         let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
-        self.store.write(|db| Ok(db.apply_layout(&parsed, text, source, now)?))
+        self.store.write(|db| {
+            let summary = db.apply_layout(&parsed, text, source, now)?;
+            // cells may have moved section or changed anode kind: learn afresh
+            learn::relearn_all(db)?;
+            Ok(summary)
+        })
     }
 
     /// Reads a layout file and loads it.
