@@ -160,27 +160,8 @@ fn an_older_backup_is_brought_up_to_this_version_on_restore() {
     let tk = plant();
     let copy = tk.dir.path().join("copy.db");
     tk.ok(&["backup", copy.to_str().unwrap()]);
-    // what a tankbook before migration 004 wrote: every table and index the
-    // migrations from 004 on add is taken away again (found by comparing with a
-    // fresh database migrated only up to before 004), so the test holds as
-    // migrations are added
-    {
-        let before_004 = tankbook::store::MIGRATIONS.iter().position(|(name, _)| name.starts_with("004")).unwrap();
-        let mut fresh = rusqlite::Connection::open_in_memory().unwrap();
-        tankbook::store::migrate(&mut fresh, before_004).unwrap();
-        let names = |c: &rusqlite::Connection, kind: &str| -> Vec<String> {
-            let mut st = c.prepare("SELECT name FROM sqlite_master WHERE type = ?1 AND name NOT LIKE 'sqlite_%'").unwrap();
-            st.query_map([kind], |r| r.get(0)).unwrap().map(Result::unwrap).collect()
-        };
-        let c = rusqlite::Connection::open(&copy).unwrap();
-        for kind in ["index", "table"] {
-            let keep = names(&fresh, kind);
-            for name in names(&c, kind).into_iter().filter(|n| !keep.contains(n)) {
-                c.execute_batch(&format!("DROP {} \"{name}\";", kind.to_uppercase())).unwrap();
-            }
-        }
-        c.pragma_update(None, "user_version", before_004 as i64).unwrap();
-    }
+    // what a tankbook before migration 004 wrote
+    downgrade_to_before(&copy, "004");
     let before = tk.json(&["forecast", "--json"]);
     tk.ok(&["restore", copy.to_str().unwrap(), "--by", "MK"]);
     assert_eq!(tk.json(&["forecast", "--json"]), before);

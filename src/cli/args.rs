@@ -37,6 +37,10 @@ pub enum Command {
     Forecast(ForecastArgs),
     /// Plan anode changes and harvests over the coming production days (advisory)
     Plan(PlanArgs),
+    /// The cells to check for shorts now, most suspect first
+    Patrol(PatrolArgs),
+    /// Each weighed crop and scrap beside what would have been predicted for it beforehand
+    Backtest(BacktestArgs),
     /// Check the database's integrity
     Check(CheckArgs),
     /// Copy the database safely while it is in use, or list the backups kept beside it
@@ -199,6 +203,29 @@ pub struct EventsArgs {
     pub cell: Option<String>,
     #[arg(long, default_value_t = 20)]
     pub limit: usize,
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct PatrolArgs {
+    /// JSON output (schema 1)
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct BacktestArgs {
+    /// Weighings at or after this time (default: the first)
+    #[arg(long)]
+    pub from: Option<String>,
+    /// Weighings at or before this time (default: now)
+    #[arg(long)]
+    pub to: Option<String>,
+    /// Only this cell
+    #[arg(long)]
+    pub cell: Option<String>,
+    /// JSON output (schema 1)
     #[arg(long)]
     pub json: bool,
 }

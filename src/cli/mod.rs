@@ -2,6 +2,7 @@
 //! Exit codes: 0 done, 2 a command-line usage error, 1 anything rejected or failed.
 
 mod args;
+mod learn;
 mod plan;
 mod print;
 mod report;
@@ -195,6 +196,8 @@ pub fn run(cli: Cli) -> Result<()> {
             }
         }
         Command::Plan(a) => plan::run(&plant, a, now)?,
+        Command::Patrol(a) => learn::patrol(&plant, &a, now)?,
+        Command::Backtest(a) => learn::backtest(&plant, &a, now)?,
         Command::Check(a) => {
             let r = plant.check()?;
             if a.json {

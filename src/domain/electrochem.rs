@@ -35,6 +35,11 @@ pub fn copper_kg(charge_ah: f64, efficiency: f64) -> f64 {
     ECE_KG_PER_AH * charge_ah * efficiency
 }
 
+/// Charge, A·h, that deposits `kg` of copper at current efficiency `efficiency`.
+pub fn charge_for_copper_ah(kg: f64, efficiency: f64) -> f64 {
+    kg / (ECE_KG_PER_AH * efficiency)
+}
+
 /// Measured current efficiency: copper weighed over the copper the charge could plate.
 /// `None` when no charge flowed (the ratio means nothing then).
 pub fn measured_efficiency(weighed_kg: f64, charge_ah: f64) -> Option<f64> {

@@ -33,8 +33,14 @@ pub const HARVEST_KG_PER_CATHODE_MAX: f64 = 300.0;
 /// (above 1 is heavier than the charge allows; common practice, no source, for the floor).
 pub const HARVEST_EFFICIENCY_PLAUSIBLE: (f64, f64) = (0.5, 1.0);
 /// A scrap weighing this far (as a fraction of set mass) from the prediction is
-/// questioned (common practice, no source).
+/// questioned when no learnt spread is known (common practice, no source).
 pub const SCRAP_FRACTION_TOLERANCE: f64 = 0.10;
+/// With a learnt spread, a scrap weighing more than this many standard
+/// deviations from the learnt prediction is questioned (common practice, no source)…
+pub const SCRAP_QUESTION_SDS: f64 = 3.0;
+/// …but never for less than this many points of set mass: scrap weighing itself
+/// scatters by a point or two (common practice, no source).
+pub const SCRAP_FRACTION_MIN_TOLERANCE: f64 = 0.02;
 
 impl Entry {
     pub fn kind(&self) -> EventKind {
@@ -146,6 +152,8 @@ pub struct CellContext<'a> {
     pub load: Option<(u32, f64)>,
     /// Predicted remaining fraction of the running load at the entry's time.
     pub predicted_fraction: Option<f64>,
+    /// Standard deviation of that prediction, from the learnt anode factor and its scatter.
+    pub predicted_spread: Option<f64>,
 }
 
 /// Checks a cell entry: `Err` if it cannot be right, else the questions that need `--force`.
@@ -215,8 +223,15 @@ pub fn check_cell_entry(entry: &Entry, cx: &CellContext) -> Result<Vec<String>, 
             }
             if let Some(pred) = cx.predicted_fraction {
                 let got = total_kg / max;
-                if (got - pred).abs() > SCRAP_FRACTION_TOLERANCE {
-                    q.push(format!("scrap is {:.1} % of set mass; the charge predicts {:.1} %", got * 100.0, pred * 100.0));
+                let tolerance =
+                    cx.predicted_spread.map_or(SCRAP_FRACTION_TOLERANCE, |sd| (SCRAP_QUESTION_SDS * sd).max(SCRAP_FRACTION_MIN_TOLERANCE));
+                if (got - pred).abs() > tolerance {
+                    q.push(format!(
+                        "scrap is {:.1} % of set mass; the charge and the cell's learnt anode factor predict {:.1} % (± {:.1} points questioned)",
+                        got * 100.0,
+                        pred * 100.0,
+                        tolerance * 100.0
+                    ));
                 }
             }
         }
@@ -272,7 +287,7 @@ mod tests {
     fn harvest_heavier_than_the_charge_is_questioned() {
         let p = CellParams::default();
         // 100 000 A·h plates 118.5 kg at 100 % (ECE 1.18549 g/(A·h), CODATA/IUPAC)
-        let cx = CellContext { params: &p, crop_charge_ah: Some(100_000.0), load: None, predicted_fraction: None };
+        let cx = CellContext { params: &p, crop_charge_ah: Some(100_000.0), load: None, predicted_fraction: None, predicted_spread: None };
         let heavy = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 130.0 };
         assert_eq!(check_cell_entry(&heavy, &cx).unwrap().len(), 1);
         let fine = Entry::Harvest { cell: "A01".into(), at: at(), total_kg: 114.0 };
@@ -284,7 +299,7 @@ mod tests {
     #[test]
     fn anode_mass_range_is_stated() {
         let p = CellParams::default();
-        let cx = CellContext { params: &p, crop_charge_ah: None, load: None, predicted_fraction: None };
+        let cx = CellContext { params: &p, crop_charge_ah: None, load: None, predicted_fraction: None, predicted_spread: None };
         let e = Entry::Anodes { cell: "A01".into(), at: at(), count: 50, mean_kg: 38.0 };
         let r = check_cell_entry(&e, &cx).unwrap_err();
         assert_eq!(r.field, Field::MeanKg);
@@ -294,12 +309,26 @@ mod tests {
     #[test]
     fn scrap_is_checked_against_the_load() {
         let p = CellParams::default();
-        let cx = CellContext { params: &p, crop_charge_ah: None, load: Some((50, 380.0)), predicted_fraction: Some(0.15) };
+        let cx = CellContext {
+            params: &p,
+            crop_charge_ah: None,
+            load: Some((50, 380.0)),
+            predicted_fraction: Some(0.15),
+            predicted_spread: None,
+        };
         let ok = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.15 * 50.0 * 380.0 };
         assert!(check_cell_entry(&ok, &cx).unwrap().is_empty());
         let odd = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.40 * 50.0 * 380.0 };
         assert_eq!(check_cell_entry(&odd, &cx).unwrap().len(), 1);
         let too_much = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 20_000.0 };
         assert!(check_cell_entry(&too_much, &cx).is_err());
+        // a learnt spread of 1 point questions 4 points off, and never less than 2 points
+        let learnt = CellContext { predicted_spread: Some(0.01), ..cx };
+        let off = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.19 * 50.0 * 380.0 };
+        assert_eq!(check_cell_entry(&off, &learnt).unwrap().len(), 1);
+        assert!(check_cell_entry(&off, &cx).unwrap().is_empty());
+        let tight = CellContext { predicted_spread: Some(0.001), ..cx };
+        let near = Entry::Scrap { cell: "A01".into(), at: at(), total_kg: 0.165 * 50.0 * 380.0 };
+        assert!(check_cell_entry(&near, &tight).unwrap().is_empty());
     }
 }

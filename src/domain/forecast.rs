@@ -2,12 +2,14 @@
 //! hold, when each is due, and what in its data deserves a second look.
 
 use serde::Serialize;
+use std::cell::RefCell;
 
 use super::anode::{AnodeLoad, body_thickness_mm};
 use super::cathode::Cathodes;
-use super::charge::{Curve, OpenSpan, Time, cell_charge, cell_time_reaching};
+use super::charge::{Cum, Curve, OpenSpan, Time, cell_charge, in_circuit};
 use super::electrochem::{INERT_ANODE_MIN_VOLTS, specific_energy_kwh_per_kg};
 use super::layout::{AnodeKind, CellParams};
+use super::learn::{CellLearnt, Source};
 
 /// A structured data warning: a code a script can match, a sentence a person can read.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -24,7 +26,8 @@ pub struct Warning {
     pub to: Option<Time>,
 }
 
-/// What the forecast needs to know of one cell as of `as_of`.
+/// One cell as of a time: what the forecast, the plan and the patrol all
+/// start from (filled in one place, `plant`'s cell snapshot).
 #[derive(Debug, Clone, PartialEq)]
 pub struct CellInput {
     pub cell: String,
@@ -41,6 +44,32 @@ pub struct CellInput {
     pub last_voltage: Option<(Time, f64)>,
     /// Shorts found since the running crop began (count, last time).
     pub shorts: Option<(u32, Time)>,
+    /// The cathode efficiency and anode factor learnt from the cell's weighings
+    /// (the layout's where nothing is learnt): what every figure below uses.
+    pub learnt: CellLearnt,
+    /// Recent weighings left out of learning, and why (sentences for the warnings).
+    pub left_out: Vec<String>,
+}
+
+impl CellInput {
+    /// The cell's cathodes at its learnt efficiency.
+    pub fn cathodes(&self) -> Cathodes {
+        Cathodes { count: self.params.cathodes_per_cell, anodes: self.params.anodes_per_cell, efficiency: self.learnt.cathode.value }
+    }
+
+    /// A load of `count` anodes of `initial_kg` each in this cell, dissolving at its learnt anode factor.
+    pub fn anode_load(&self, count: u32, initial_kg: f64) -> AnodeLoad {
+        let p = &self.params;
+        AnodeLoad { initial_kg, count, efficiency: self.learnt.anode.value, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg }
+    }
+}
+
+/// The 90 % interval of a due time, from the learnt value's standard error and
+/// one weighing's scatter (the crop or load being forecast scatters like the past ones).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct DueWindow {
+    pub early: Time,
+    pub late: Time,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -51,6 +80,8 @@ pub struct AnodeForecast {
     pub remaining_kg: f64,
     pub remaining_fraction: f64,
     pub pull_due: Option<Time>,
+    /// 90 % interval of `pull_due` (none for inert anodes or without a due time).
+    pub pull_window: Option<DueWindow>,
     /// Body thickness of a soluble anode; `None` for inert anodes, which are
     /// not copper and are not consumed.
     pub thickness_mm: Option<f64>,
@@ -63,6 +94,8 @@ pub struct CathodeForecast {
     pub inner_mass_kg: f64,
     pub charge_ah: f64,
     pub harvest_due: Option<Time>,
+    /// 90 % interval of `harvest_due`.
+    pub harvest_window: Option<DueWindow>,
 }
 
 /// One cell's forecast.
@@ -77,12 +110,24 @@ pub struct CellForecast {
     pub anode_kind: AnodeKind,
     pub anode: Option<AnodeForecast>,
     pub cathode: Option<CathodeForecast>,
+    /// The cathode current efficiency used: learnt (see `cathode_efficiency_source`).
     pub cathode_efficiency: f64,
+    pub cathode_efficiency_source: Source,
+    pub cathode_efficiency_se: f64,
+    /// Weighed crops the efficiency is learnt from.
+    pub crops_learnt: u32,
+    /// Anode consumption factor used (the anode current efficiency, learnt from scrap weighings).
+    pub anode_factor: f64,
+    pub anode_factor_source: Source,
+    pub anode_factor_se: f64,
+    /// Scrap weighings the factor is learnt from.
+    pub scrap_learnt: u32,
     pub last_crop_efficiency: Option<f64>,
     /// Charge since the anode set (since the crop began for inert cells), including `estimated_ah`.
     pub charge_ah: f64,
     /// The part of `charge_ah` estimated after the circuit's last reading.
     pub estimated_ah: f64,
+    /// Cell DC energy per tonne of cathode copper, at the last voltage and the learnt efficiency.
     pub energy_kwh_per_t: Option<f64>,
     pub shorts: Option<u32>,
     pub warnings: Vec<Warning>,
@@ -90,6 +135,8 @@ pub struct CellForecast {
 
 /// Forecasts one cell on its circuit's curve.
 pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Result<CellForecast, C::Error> {
+    // the charges and due times below walk the same cut-out boundaries: look each up once
+    let curve = &Memo { curve, seen: RefCell::new(Vec::new()) };
     let p = &input.params;
     let cut_out_since = input.cutouts.iter().find(|c| c.from <= as_of && c.to.is_none_or(|to| to > as_of)).map(|c| c.from);
     let in_circuit = cut_out_since.is_none();
@@ -97,14 +144,14 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     let mut warn = |code, message: String| {
         warnings.push(Warning { code, message, cell: Some(input.cell.clone()), circuit: None, from: None, to: None });
     };
-    let eta_c = p.cathode_efficiency;
+    let learnt = &input.learnt;
+    let eta_c = learnt.cathode.value;
     let mut charge = None;
     let mut anode = None;
     if let Some((set_at, count, initial_kg)) = input.load {
         let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
         charge = Some(q);
-        let load =
-            AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
+        let load = input.anode_load(count, initial_kg);
         anode = Some(if p.anode_kind == AnodeKind::Inert {
             AnodeForecast {
                 set_at,
@@ -113,15 +160,21 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 remaining_kg: initial_kg,
                 remaining_fraction: 1.0,
                 pull_due: None,
+                pull_window: None,
                 thickness_mm: None,
             }
         } else {
             let remaining_kg = load.remaining_kg(q.total());
             let thickness_mm = Some(body_thickness_mm(remaining_kg, p.lug_kg, p.face_area_m2));
-            let pull_due = match load.charge_to_fraction_ah(p.scrap_target) {
-                Some(target) => cell_time_reaching(curve, &input.cutouts, set_at, target)?,
-                None => None,
+            // the due time and its window's ends in one walk along the curve:
+            // a faster-dissolving anode (the interval's high end) reaches the target first
+            let (lo, hi) = learnt.anode.interval90();
+            let to_target = |eff: f64| (AnodeLoad { efficiency: eff.max(0.05), ..load }).charge_to_fraction_ah(p.scrap_target);
+            let [pull_due, early, late] = match load.charge_to_fraction_ah(p.scrap_target) {
+                Some(target) => times_reaching(curve, &input.cutouts, set_at, [Some(target), to_target(hi), to_target(lo)])?,
+                None => [None; 3],
             };
+            let pull_window = pull_due.and(window(early, late));
             AnodeForecast {
                 set_at,
                 count,
@@ -129,6 +182,7 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 remaining_kg,
                 remaining_fraction: load.remaining_fraction(q.total()),
                 pull_due,
+                pull_window,
                 thickness_mm,
             }
         });
@@ -142,23 +196,45 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
             format!("anodes about {mm:.1} mm thick, under the {} mm limit: risk of anodes dropping off their lugs", p.thin_anode_mm),
         );
     }
-    let cathodes = Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: eta_c };
+    let cathodes = input.cathodes();
     let mut cathode = None;
     if let Some(started_at) = input.crop_started {
         let q = cell_charge(curve, &input.cutouts, started_at, as_of)?;
         if p.anode_kind == AnodeKind::Inert || charge.is_none() {
             charge = Some(q);
         }
-        let due = cell_time_reaching(curve, &input.cutouts, started_at, cathodes.charge_to_mean_ah(p.cathode_target_kg))?;
+        // copper cannot plate above 100 %; a higher efficiency reaches the target first
+        let (lo, hi) = learnt.cathode.interval90();
+        let to_target = |eff: f64| Some(Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }.charge_to_mean_ah(p.cathode_target_kg));
+        let [due, early, late] = times_reaching(
+            curve,
+            &input.cutouts,
+            started_at,
+            [Some(cathodes.charge_to_mean_ah(p.cathode_target_kg)), to_target(hi), to_target(lo)],
+        )?;
+        let harvest_window = due.and(window(early, late));
         cathode = Some(CathodeForecast {
             started_at,
             mass_kg: cathodes.mean_kg(q.total()),
             inner_mass_kg: cathodes.inner_kg(q.total()),
             charge_ah: q.total(),
             harvest_due: due,
+            harvest_window,
         });
     }
-    if let Some(eff) = input.last_crop_efficiency
+    if learnt.cathode.source == Source::Cell && learnt.cathode.value < p.low_efficiency_below {
+        warn(
+            "low_efficiency",
+            format!(
+                "current efficiency learnt at {:.1} % ± {:.1} from {} crops, under {:.0} %: look for shorts or bad contacts",
+                learnt.cathode.value * 100.0,
+                learnt.cathode.se * 100.0,
+                learnt.cathode.learnt,
+                p.low_efficiency_below * 100.0
+            ),
+        );
+    } else if let Some(eff) = input.last_crop_efficiency
+        && learnt.cathode.source != Source::Cell
         && eff < p.low_efficiency_below
     {
         warn(
@@ -169,6 +245,9 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
                 p.low_efficiency_below * 100.0
             ),
         );
+    }
+    for why in &input.left_out {
+        warn("weighing_not_learnt", why.clone());
     }
     if let Some((t, v)) = input.last_voltage
         && (v < p.voltage_min || v > p.voltage_max)
@@ -201,6 +280,13 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         anode,
         cathode,
         cathode_efficiency: eta_c,
+        cathode_efficiency_source: learnt.cathode.source,
+        cathode_efficiency_se: learnt.cathode.se,
+        crops_learnt: learnt.cathode.learnt,
+        anode_factor: learnt.anode.value,
+        anode_factor_source: learnt.anode.source,
+        anode_factor_se: learnt.anode.se,
+        scrap_learnt: learnt.anode.learnt,
         last_crop_efficiency: input.last_crop_efficiency,
         charge_ah: charge.total(),
         estimated_ah: charge.estimated,
@@ -212,6 +298,79 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         shorts: input.shorts.map(|(n, _)| n),
         warnings,
     })
+}
+
+/// A curve that remembers the instants it was asked about (one cell's forecast
+/// asks for the same set, crop and cut-out times several times).
+struct Memo<'c, C: Curve> {
+    curve: &'c C,
+    seen: RefCell<Vec<(Time, Cum)>>,
+}
+
+impl<C: Curve> Curve for Memo<'_, C> {
+    type Error = C::Error;
+    fn cum_at(&self, t: Time) -> Result<Cum, C::Error> {
+        if let Some((_, c)) = self.seen.borrow().iter().find(|(x, _)| *x == t) {
+            return Ok(*c);
+        }
+        let c = self.curve.cum_at(t)?;
+        self.seen.borrow_mut().push((t, c));
+        Ok(c)
+    }
+    fn time_at(&self, total: f64) -> Result<Option<Time>, C::Error> {
+        self.curve.time_at(total)
+    }
+}
+
+/// [`crate::domain::charge::cell_time_reaching`] for several targets (`None`: no target) in one walk
+/// along the cell's in-circuit stretches, with the same arithmetic, so each
+/// answer is the one `cell_time_reaching` gives (the forecast's hot path).
+fn times_reaching<C: Curve, const N: usize>(
+    curve: &C,
+    cutouts: &[OpenSpan],
+    a: Time,
+    targets: [Option<f64>; N],
+) -> Result<[Option<Time>; N], C::Error> {
+    let mut out = [None; N];
+    let mut left: Vec<usize> = Vec::with_capacity(N);
+    for (i, t) in targets.iter().enumerate() {
+        match t {
+            Some(t) if *t <= 0.0 => out[i] = Some(a),
+            Some(_) => left.push(i),
+            None => {}
+        }
+    }
+    let mut acc = 0.0;
+    for (x, y) in in_circuit(a, None, cutouts) {
+        if left.is_empty() {
+            break;
+        }
+        let cx = curve.cum_at(x)?.total();
+        let got = match y {
+            Some(y) => curve.cum_at(y)?.total() - cx,
+            None => f64::INFINITY,
+        };
+        let mut still = Vec::with_capacity(left.len());
+        for i in left {
+            let target = targets[i].unwrap_or(f64::INFINITY);
+            if acc + got >= target {
+                out[i] = curve.time_at(cx + (target - acc))?.map(|t| t.max(x));
+            } else {
+                still.push(i);
+            }
+        }
+        left = still;
+        acc += got;
+    }
+    Ok(out)
+}
+
+/// The window between two due times, if both are in sight (`None` otherwise).
+fn window(early: Option<Time>, late: Option<Time>) -> Option<DueWindow> {
+    match (early, late) {
+        (Some(early), Some(late)) => Some(DueWindow { early: early.min(late), late: early.max(late) }),
+        _ => None,
+    }
 }
 
 /// The whole plant's forecast.
@@ -233,6 +392,28 @@ mod tests {
         Utc.with_ymd_and_hms(2026, 3, 1, 0, 0, 0).unwrap()
     }
 
+    #[test]
+    fn one_walk_gives_what_cell_time_reaching_gives() {
+        use crate::domain::charge::cell_time_reaching;
+        let readings: Vec<RawReading> =
+            (0..=48).map(|h| RawReading { t: t0() + Duration::hours(h), amps: 1000.0 + 10.0 * h as f64 }).collect();
+        let curve = MemoryCurve::build(&readings, &[], &[], t0() + Duration::hours(48));
+        let cuts = [
+            OpenSpan { from: t0() + Duration::hours(5), to: Some(t0() + Duration::hours(7)) },
+            OpenSpan { from: t0() + Duration::hours(20), to: Some(t0() + Duration::minutes(1290)) },
+        ];
+        let targets = [Some(3_000.0), None, Some(0.0), Some(30_000.0), Some(1e12)];
+        let got = times_reaching(&curve, &cuts, t0(), targets).unwrap();
+        for (t, g) in targets.iter().zip(got) {
+            let want = match t {
+                Some(t) => cell_time_reaching(&curve, &cuts, t0(), *t).unwrap(),
+                None => None,
+            };
+            assert_eq!(g, want, "{t:?}");
+        }
+        assert!(got[0].is_some() && got[3].is_some());
+    }
+
     /// DOMAIN.md plant check (derived): 50 × 380 kg anodes, 51 cathodes, 30 kA, η_c 0.96.
     #[test]
     fn plant_check_due_times() {
@@ -249,6 +430,8 @@ mod tests {
             last_crop_efficiency: Some(0.85),
             last_voltage: Some((t0(), 0.30)),
             shorts: None,
+            learnt: CellLearnt::layout(&CellParams::default()),
+            left_out: Vec::new(),
         };
         let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
         let c = f.cathode.as_ref().unwrap();
@@ -278,13 +461,15 @@ mod tests {
             cell: "L1".into(),
             circuit: "C1".into(),
             section: "L".into(),
-            params,
+            params: params.clone(),
             load: Some((t0(), 50, 90.0)),
             crop_started: Some(t0()),
             cutouts: vec![],
             last_crop_efficiency: None,
             last_voltage: Some((t0(), 0.95)),
             shorts: None,
+            learnt: CellLearnt::layout(&params),
+            left_out: Vec::new(),
         };
         let f = forecast_cell(&input, &curve, t0() + Duration::hours(24)).unwrap();
         assert_eq!(f.anode.as_ref().unwrap().thickness_mm, None, "a lead anode has no copper thickness");

@@ -2,6 +2,7 @@
 //! terminal and no clock (every "now" is passed in).
 
 pub mod anode;
+pub mod backtest;
 pub mod balance;
 pub mod cathode;
 pub mod charge;
@@ -10,8 +11,10 @@ pub mod entry;
 pub mod forecast;
 pub mod history;
 pub mod layout;
+pub mod learn;
 pub mod levelling;
 pub mod outlook;
+pub mod patrol;
 pub mod plan;
 pub mod plant_time;
 pub mod shift;

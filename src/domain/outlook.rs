@@ -22,19 +22,22 @@ pub enum CellState {
     AnodesDue,
     /// Harvest due by the end of this production day.
     HarvestDue,
-    /// The last crop's current efficiency was below the layout's floor.
+    /// The patrol suspects a short: the voltage well below the section's, with its efficiency and shorts.
+    SuspectedShort,
+    /// The cell's learnt current efficiency was below the layout's floor.
     LowEfficiency,
     /// A data warning (voltage out of range and the like).
     DataWarning,
 }
 
 impl CellState {
-    pub const ALL: [CellState; 7] = [
+    pub const ALL: [CellState; 8] = [
         CellState::CutOut,
         CellState::ThinAnode,
         CellState::HarvestOverdue,
         CellState::AnodesDue,
         CellState::HarvestDue,
+        CellState::SuspectedShort,
         CellState::LowEfficiency,
         CellState::DataWarning,
     ];
@@ -47,6 +50,7 @@ impl CellState {
             CellState::HarvestOverdue => "harvest overdue",
             CellState::AnodesDue => "new anodes due today",
             CellState::HarvestDue => "harvest due today",
+            CellState::SuspectedShort => "suspected short: patrol it",
             CellState::LowEfficiency => "low current efficiency",
             CellState::DataWarning => "data warning",
         }
@@ -74,10 +78,13 @@ pub fn states(c: &CellForecast, as_of: Time, day_end: Time) -> Vec<CellState> {
     if harvest.is_some_and(|t| t > as_of && t < day_end) {
         v.push(CellState::HarvestDue);
     }
+    if has("suspected_short") {
+        v.push(CellState::SuspectedShort);
+    }
     if has("low_efficiency") {
         v.push(CellState::LowEfficiency);
     }
-    if c.warnings.iter().any(|w| !matches!(w.code, "thin_anode" | "low_efficiency")) {
+    if c.warnings.iter().any(|w| !matches!(w.code, "thin_anode" | "low_efficiency" | "suspected_short")) {
         v.push(CellState::DataWarning);
     }
     v
@@ -153,6 +160,8 @@ mod tests {
             last_crop_efficiency: None,
             last_voltage: None,
             shorts: None,
+            learnt: crate::domain::learn::CellLearnt::layout(&CellParams::default()),
+            left_out: Vec::new(),
         };
         (i, curve)
     }

@@ -35,9 +35,9 @@ use serde::Serialize;
 use std::collections::{BTreeMap, HashMap};
 
 use super::anode::AnodeLoad;
-use super::cathode::Cathodes;
 use super::charge::{Curve, OpenSpan, Span, Time, cell_charge, cell_time_reaching};
-use super::layout::{AnodeKind, CellParams};
+use super::forecast::CellInput;
+use super::layout::AnodeKind;
 use super::levelling::{self, Capacity, LevelError, Task, Unplaced, Weights};
 use super::plant_time::ProductionDays;
 
@@ -63,21 +63,6 @@ const BEYOND_HORIZON_DAYS: i64 = 366;
 /// whose best day lies just after the plan goes there (and is reported as
 /// after the plan) instead of being crowded onto the plan's last days early.
 pub const LOOKAHEAD_DAYS: usize = 14;
-
-/// One cell as the plan needs it, as of now.
-#[derive(Debug, Clone, PartialEq)]
-pub struct PlanCell {
-    pub cell: String,
-    pub circuit: String,
-    pub section: String,
-    pub params: CellParams,
-    /// The running anode load: set time, count, mean mass per anode at set, kg.
-    pub load: Option<(Time, u32, f64)>,
-    /// When the running crop began.
-    pub crop_started: Option<Time>,
-    /// Cut-outs known now (one still open has no end).
-    pub cutouts: Vec<OpenSpan>,
-}
 
 /// The plan's production days: `len` days from `from`, each starting at the
 /// layout's `day_starts_at` in the plant's zone (and [`LOOKAHEAD_DAYS`] more after them).
@@ -172,7 +157,9 @@ pub struct PlanInput {
     pub now: Time,
     pub calendar: Calendar,
     pub rules: Rules,
-    pub cells: Vec<PlanCell>,
+    /// Every cell as of now: the forecast's snapshot (its learnt cathode
+    /// efficiency and anode factor set the windows, the crops and the scrap tonnes).
+    pub cells: Vec<CellInput>,
     /// Hand moves of a cell's anode change to another day, applied in order.
     pub moves: Vec<(String, NaiveDate)>,
 }
@@ -240,7 +227,7 @@ fn reaching<C: Curve>(curve: &C, cutouts: &[OpenSpan], from: Time, load: &AnodeL
 
 fn change_due<C: Curve>(
     curve: &C,
-    cell: &PlanCell,
+    cell: &CellInput,
     set_at: Time,
     load: &AnodeLoad,
     cal: &Calendar,
@@ -280,7 +267,7 @@ fn signed_charge<C: Curve>(curve: &C, cutouts: &[OpenSpan], a: Time, b: Time) ->
 #[allow(clippy::too_many_arguments)]
 fn crops<C: Curve>(
     curve: &C,
-    cell: &PlanCell,
+    cell: &CellInput,
     crop_from: Time,
     set_at: Time,
     load: Option<&AnodeLoad>,
@@ -322,7 +309,7 @@ fn crops<C: Curve>(
             }
         }
     } else {
-        let cathodes = cathodes_of(p);
+        let cathodes = cell.cathodes();
         let q = cathodes.charge_to_mean_ah(p.cathode_target_kg);
         // at most one crop a day: a bound on the loop whatever the current
         for _ in 0..=cal.len() {
@@ -335,16 +322,8 @@ fn crops<C: Curve>(
     Ok((out, from))
 }
 
-fn cathodes_of(p: &CellParams) -> Cathodes {
-    Cathodes { count: p.cathodes_per_cell, anodes: p.anodes_per_cell, efficiency: p.cathode_efficiency }
-}
-
-fn anode_load(p: &CellParams, count: u32, initial_kg: f64) -> AnodeLoad {
-    AnodeLoad { initial_kg, count, efficiency: p.anode_efficiency, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg }
-}
-
 /// A cell's anode cycles and crops over the calendar, on its circuit's curve as of `now`.
-pub fn outlook<C: Curve>(cell: &PlanCell, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
+pub fn outlook<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
     let p = &cell.params;
     let out_of_circuit = cell.cutouts.iter().any(|c| c.from <= now && c.to.is_none());
     let mut cycles = Vec::new();
@@ -358,7 +337,7 @@ pub fn outlook<C: Curve>(cell: &PlanCell, curve: &C, cal: &Calendar, now: Time) 
     let Some((mut set_at, count, kg)) = cell.load else {
         return Ok(Outlook { cycles, out_of_circuit });
     };
-    let mut load = anode_load(p, count, kg);
+    let mut load = cell.anode_load(count, kg);
     let mut crop = cell.crop_started;
     let end = cal.start(cal.len());
     // at most one change a day: a bound on the loop whatever the current
@@ -375,7 +354,7 @@ pub fn outlook<C: Curve>(cell: &PlanCell, curve: &C, cal: &Calendar, now: Time) 
         cycles.push(Cycle { set_at, load: Some(load), change, harvests, last_crop_from });
         let Some(next) = next else { break };
         set_at = next;
-        load = anode_load(p, p.anodes_per_cell, p.new_anode_kg);
+        load = cell.anode_load(p.anodes_per_cell, p.new_anode_kg);
         crop = Some(next);
     }
     Ok(Outlook { cycles, out_of_circuit })
@@ -996,7 +975,7 @@ where
         let Some(curve) = curves.get(&c.circuit) else { continue };
         let at = cal.instant(p.day, p.due, now);
         let q = cell_charge(curve, &c.cutouts, p.from, at).map_err(PlanError::Curve)?.total();
-        let cathodes = cathodes_of(&c.params);
+        let cathodes = c.cathodes();
         let copper_kg = cathodes.crop_kg(q);
         let day = &mut days[p.day];
         day.copper_tonnes += copper_kg / 1000.0;
@@ -1145,6 +1124,7 @@ fn apply_moves<E: std::error::Error + 'static>(
 mod tests {
     use super::*;
     use crate::domain::charge::{MemoryCurve, RawReading};
+    use crate::domain::layout::CellParams;
     use crate::domain::plant_time::{PlantZone, parse_day_start};
     use chrono::{TimeZone, Utc};
 
@@ -1200,8 +1180,8 @@ mod tests {
         }
     }
     /// A plant-check cell (CellParams::default() is the plant check) with a load set at `set_h`.
-    fn cell(id: &str, set_h: f64) -> PlanCell {
-        PlanCell {
+    fn cell(id: &str, set_h: f64) -> CellInput {
+        CellInput {
             cell: id.to_string(),
             circuit: "C1".into(),
             section: "A".into(),
@@ -1209,9 +1189,14 @@ mod tests {
             load: Some((at(set_h), 50, 380.0)),
             crop_started: Some(at(set_h)),
             cutouts: Vec::new(),
+            last_crop_efficiency: None,
+            last_voltage: None,
+            shorts: None,
+            learnt: crate::domain::learn::CellLearnt::layout(&CellParams::default()),
+            left_out: Vec::new(),
         }
     }
-    fn input(now_h: u32, start: &str, len: usize, rules: Rules, cells: Vec<PlanCell>) -> PlanInput {
+    fn input(now_h: u32, start: &str, len: usize, rules: Rules, cells: Vec<CellInput>) -> PlanInput {
         let now = at(f64::from(now_h));
         PlanInput { now, calendar: calendar(start, now, len), rules, cells, moves: Vec::new() }
     }
@@ -1220,6 +1205,23 @@ mod tests {
     }
     fn harvests(p: &Plan) -> Vec<(usize, &Harvest)> {
         p.days.iter().enumerate().flat_map(|(d, x)| x.harvests.iter().map(move |h| (d, h))).collect()
+    }
+
+    #[test]
+    fn learnt_efficiencies_move_the_window_and_the_crops() {
+        // A cell whose anodes dissolve at a learnt factor of 0.90 reaches 15 % after
+        // 451.83 h / 0.90 = 502.0 h (the plant check, derived); its crops plate at a learnt 0.88.
+        let mut c = cell("A01", 0.0);
+        c.learnt.anode.value = 0.90;
+        c.learnt.cathode.value = 0.88;
+        let inp = input(240, "20:00", 30, rules(8), vec![c]);
+        let curves = flat(240);
+        let o = outlook(&inp.cells[0], &curves["C1"], &inp.calendar, inp.now).unwrap();
+        let ch = o.cycles[0].change.as_ref().unwrap();
+        assert!((hours_after_t0(ch.target_at) - TARGET_H / 0.90).abs() < 0.01, "{:?}", ch.target_at);
+        // the first crop reaches 120 kg a cathode after 179.25 h × 0.96 / 0.88 = 195.5 h
+        let h = hours_after_t0(o.cycles[0].harvests[0].due_at);
+        assert!((h - 179.25 * 0.96 / 0.88).abs() < 0.05, "{h}");
     }
 
     #[test]
@@ -1348,7 +1350,7 @@ mod tests {
         // 30 cells set together; scrap_lower 0.07 (26.6 kg, above the 20 kg lugs) widens the window:
         // 0.07 is reached after 353.4 kg / 0.714 871 = 494.36 h. Days start 08:00 UTC, so the
         // ideal (03-19 19:50Z) is day 03-19, the window opens 03-17 (14:40Z) and closes 03-21 (14:21Z).
-        let cells: Vec<PlanCell> = (1..=30)
+        let cells: Vec<CellInput> = (1..=30)
             .map(|i| {
                 let mut c = cell(&format!("A{i:02}"), 0.0);
                 c.params.scrap_lower = 0.07;
@@ -1411,7 +1413,7 @@ mod tests {
     fn stripping_capacity_holds_with_unequal_cathode_counts() {
         // Sixteen cells due within a few days: half with 51 cathodes, half with 41 (40 anodes), and a
         // stripping machine of 200 cathodes a day: at most 3 cells of 51 a day, or more with the smaller ones.
-        let cells: Vec<PlanCell> = (1..=16)
+        let cells: Vec<CellInput> = (1..=16)
             .map(|i| {
                 let mut c = cell(&format!("A{i:02}"), 0.0);
                 if i % 2 == 0 {

@@ -60,7 +60,9 @@ impl Plant {
             Some(from) => {
                 let due = forecast.anode.as_ref().and_then(|a| a.pull_due).or(forecast.cathode.as_ref().and_then(|c| c.harvest_due));
                 let until = due.map_or(as_of + Duration::days(3), |d| d.max(as_of) + Duration::hours(12));
-                Some(trajectory(&curve, &cutouts, &params, load, from, until, 80)?)
+                // the anodes dissolve at the cell's learnt factor, as in the forecast
+                let run = CellParams { anode_efficiency: forecast.anode_factor, ..params.clone() };
+                Some(trajectory(&curve, &cutouts, &run, load, from, until, 80)?)
             }
             None => None,
         };

@@ -3,12 +3,15 @@
 use chrono::Duration;
 use std::collections::HashMap;
 
-use super::{Plant, PlantError, Result};
+use super::patrol::patrol_input;
+use super::{Plant, PlantError, Result, learn};
 use crate::domain::charge::{GAP_WARNING, Time};
 use crate::domain::entry::Field;
 use crate::domain::forecast::{CellInput, Forecast, Warning, forecast_cell};
+use crate::domain::learn::CellLearnt;
+use crate::domain::patrol::{PatrolCell, SUSPECT_SCORE, rank};
 use crate::domain::plant_time::{relative, span_text};
-use crate::store::{Db, StoreCurve};
+use crate::store::{Db, StoreCurve, WeighingKind};
 
 /// How far back the forecast looks for reading gaps and stray readings.
 const WARNING_LOOKBACK: Duration = Duration::days(30);
@@ -18,48 +21,107 @@ impl Plant {
     pub fn forecast(&self, as_of: Time, only_cell: Option<&str>) -> Result<Forecast> {
         self.refuse_damage()?;
         let db = self.store.db();
-        db.plant_info()?.ok_or(PlantError::NoLayout)?;
-        let mut cells = db.cells()?;
-        if let Some(id) = only_cell {
-            cells.retain(|c| c.id == id);
-            if cells.is_empty() {
-                return Err(PlantError::rejected(Field::Cell, format!("unknown cell {id}: it is not in the layout")));
-            }
-        }
-        let params = db.params_at_all(as_of)?;
+        let cells = snapshots(db, as_of, only_cell)?;
         let mut curves: HashMap<i64, StoreCurve<'_>> = HashMap::new();
         let mut warnings = Vec::new();
         for c in db.circuits()? {
-            if !cells.iter().any(|x| x.circuit_id == c.id) {
+            if !cells.iter().any(|x| x.0 == c.id) {
                 continue;
             }
             let curve = StoreCurve::new(db, c.id, as_of)?;
             warnings.extend(circuit_warnings(db, &c.name, c.id, &curve, as_of)?);
             curves.insert(c.id, curve);
         }
+        // suspected shorts for the tiles: the patrol's score without the voltage
+        // trend (which needs each crop's readings; `tankbook patrol` adds it)
+        let mut patrol = Vec::new();
+        for (_, c) in &cells {
+            patrol.extend(patrol_input(None, c, as_of)?);
+        }
+        let suspects: HashMap<String, PatrolCell> =
+            rank(&patrol).into_iter().filter(|p| p.score >= SUSPECT_SCORE).map(|p| (p.cell.clone(), p)).collect();
         let mut out = Vec::with_capacity(cells.len());
-        for c in &cells {
-            let Some(p) = params.get(&c.id) else { continue };
-            let crop_started = db.crop_at(&c.id, as_of)?;
-            let input = CellInput {
-                cell: c.id.clone(),
-                circuit: c.circuit.clone(),
-                section: c.section.clone(),
-                params: p.clone(),
-                load: db.load_at(&c.id, as_of)?.map(|(_, t, n, kg)| (t, n, kg)),
-                crop_started,
-                cutouts: db.cutouts(&c.id, as_of)?,
-                last_crop_efficiency: db.last_crop_efficiency(&c.id, as_of)?,
-                last_voltage: db.last_voltage(&c.id, as_of)?,
-                shorts: match crop_started {
-                    Some(s) => db.shorts_since(&c.id, s, as_of)?,
-                    None => None,
-                },
-            };
-            let Some(curve) = curves.get(&c.circuit_id) else { continue };
-            out.push(forecast_cell(&input, curve, as_of)?);
+        for (circuit_id, input) in &cells {
+            let Some(curve) = curves.get(circuit_id) else { continue };
+            let mut f = forecast_cell(input, curve, as_of)?;
+            if let Some(p) = suspects.get(&input.cell) {
+                f.warnings.push(Warning {
+                    code: "suspected_short",
+                    message: format!("suspected short (patrol score {:.1}): {}", p.score, p.reasons.join("; ")),
+                    cell: Some(input.cell.clone()),
+                    circuit: None,
+                    from: Some(p.voltage_at),
+                    to: None,
+                });
+            }
+            out.push(f);
         }
         Ok(Forecast { schema: 1, as_of, cells: out, warnings })
+    }
+}
+
+/// Every cell (or one) as of `as_of`, with its circuit's id: the one place the
+/// forecast, the plan and the patrol get a cell's data from, learnt values included.
+pub(crate) fn snapshots(db: Db<'_>, as_of: Time, only_cell: Option<&str>) -> Result<Vec<(i64, CellInput)>> {
+    db.plant_info()?.ok_or(PlantError::NoLayout)?;
+    let mut cells = db.cells()?;
+    if let Some(id) = only_cell {
+        cells.retain(|c| c.id == id);
+        if cells.is_empty() {
+            return Err(PlantError::rejected(Field::Cell, format!("unknown cell {id}: it is not in the layout")));
+        }
+    }
+    let params = db.params_at_all(as_of)?;
+    let mut learnt = learn::learnt_as_of(db, &cells, &params, as_of)?;
+    let mut left_out: HashMap<String, Vec<String>> = HashMap::new();
+    for r in db.left_out_rows(as_of - WARNING_LOOKBACK, as_of)? {
+        let what = match r.kind {
+            WeighingKind::Crop => "the crop weighed at",
+            WeighingKind::Scrap => "the scrap weighed at",
+        };
+        let why = match r.left_out.as_deref() {
+            Some("impossible") => "is impossible".to_string(),
+            _ => format!("is far out of line with the cell's other weighings (robust z {:.1})", r.z.unwrap_or(f64::NAN)),
+        };
+        let value = match r.kind {
+            WeighingKind::Crop => format!("{:.1} % efficiency", r.value * 100.0),
+            WeighingKind::Scrap => format!("anode factor {:.3}", r.value),
+        };
+        left_out
+            .entry(r.cell.clone())
+            .or_default()
+            .push(format!("{what} {} ({value}) {why}: it is kept in the log but not learnt from", show(db, r.ended_at)));
+    }
+    let mut out = Vec::with_capacity(cells.len());
+    for c in cells {
+        let Some(p) = params.get(&c.id) else { continue };
+        let crop_started = db.crop_at(&c.id, as_of)?;
+        let input = CellInput {
+            load: db.load_at(&c.id, as_of)?.map(|(_, t, n, kg)| (t, n, kg)),
+            crop_started,
+            cutouts: db.cutouts(&c.id, as_of)?,
+            last_crop_efficiency: db.last_crop_efficiency(&c.id, as_of)?,
+            last_voltage: db.last_voltage(&c.id, as_of)?,
+            shorts: match crop_started {
+                Some(s) => db.shorts_since(&c.id, s, as_of)?,
+                None => None,
+            },
+            learnt: learnt.remove(&c.id).unwrap_or_else(|| CellLearnt::layout(p)),
+            left_out: left_out.remove(&c.id).unwrap_or_default(),
+            params: p.clone(),
+            cell: c.id,
+            circuit: c.circuit,
+            section: c.section,
+        };
+        out.push((c.circuit_id, input));
+    }
+    Ok(out)
+}
+
+fn show(db: Db<'_>, t: Time) -> String {
+    match db.plant_info() {
+        Ok(Some(i)) => i.days.zone.show(t),
+        _ => t.to_rfc3339(),
     }
 }
 

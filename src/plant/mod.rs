@@ -4,12 +4,15 @@
 //! Each write is one store transaction: checks run inside it, so a rejected or
 //! questioned entry, or a failed import, leaves the database as it was.
 
+mod backtest;
 mod backup;
 mod balance;
 mod detail;
 mod drafts;
 mod forecast;
 mod import;
+mod learn;
+mod patrol;
 mod plan;
 mod record;
 mod report;
@@ -139,8 +142,13 @@ impl Plant {
     /// cannot read do not stop the open (`check`, `backup` and `restore` must
     /// still work), but forecasts and the screens refuse them: see [`Plant::refuse_damage`].
     pub fn open(path: &Path) -> Result<Plant> {
-        let store = Store::open(path)?;
+        let mut store = Store::open(path)?;
         let damage = store.db().damaged_entries(DAMAGE_SHOWN)?;
+        if damage.is_empty() && store.db().learning_missing()? {
+            // a database from before learning: learn once from what it holds
+            // (not from a damaged log: that waits for `check` and `restore`)
+            store.write(learn::relearn_all)?;
+        }
         Ok(Plant { store, damage })
     }
 
@@ -191,7 +199,12 @@ impl Plant {
     /// Defines or updates the plant from a layout file's text.
     pub fn load_layout(&mut self, text: &str, source: &str, now: Time) -> Result<LayoutSummary> {
         let parsed = layout::parse(text).map_err(|e| PlantError::Layout { file: source.to_string(), source: e })?;
-        self.store.write(|db| Ok(db.apply_layout(&parsed, text, source, now)?))
+        self.store.write(|db| {
+            let summary = db.apply_layout(&parsed, text, source, now)?;
+            // cells may have moved section or changed anode kind: learn afresh
+            learn::relearn_all(db)?;
+            Ok(summary)
+        })
     }
 
     /// Reads a layout file and loads it.
@@ -233,6 +246,17 @@ impl Plant {
             Ok(bad)
         })?;
         r.problems.extend(mismatches);
+        // the stored learnt values must be what learning from scratch gives
+        let learnt = self.store.preview(|db| -> Result<Vec<String>> {
+            let before = db.learn_digest()?;
+            learn::relearn_all(db)?;
+            Ok(if db.learn_digest()? == before {
+                Vec::new()
+            } else {
+                vec!["the stored learnt efficiencies differ from learning afresh from the weighings".to_string()]
+            })
+        })?;
+        r.problems.extend(learnt);
         Ok(r)
     }
 
@@ -329,6 +353,12 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
 /// After readings or outages change from `from` on, the crops that ended since
 /// then have a different charge: recompute their figures.
 pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
+    refresh_crop_figures(db, circuit_id, from)?;
+    // their efficiencies and the scrap factors after `from` changed with the charge
+    learn::relearn(db, &db.cells_weighed_since(circuit_id, from)?)
+}
+
+fn refresh_crop_figures(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
     let curve = StoreCurve::new(db, circuit_id, far_future())?;
     for (cell, start, end, kg) in db.crops_ended_since(circuit_id, from)? {
         let cuts = db.cutouts(&cell, far_future())?;

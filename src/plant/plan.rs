@@ -4,10 +4,12 @@
 use chrono::NaiveDate;
 use std::collections::HashMap;
 
+use super::forecast::snapshots;
 use super::{Plant, PlantError, Result};
 use crate::domain::charge::Time;
+use crate::domain::forecast::CellInput;
 use crate::domain::levelling::Weights;
-use crate::domain::plan::{Calendar, Plan, PlanCell, PlanError, PlanInput, Rules, plan};
+use crate::domain::plan::{Calendar, Plan, PlanError, PlanInput, Rules, plan};
 use crate::store::StoreCurve;
 
 /// The longest plan, in production days: a year is far beyond what the
@@ -84,28 +86,15 @@ impl Plant {
             })
             .collect::<Result<Vec<_>>>()?;
 
-        let params = db.params_at_all(now)?;
-        let mut cells = Vec::new();
-        for c in db.cells()? {
-            let Some(p) = params.get(&c.id) else { continue };
-            if p.cathodes_per_cell > strip {
-                return Err(rejected(
-                    strip_field,
-                    format!(
-                        "{strip} cathodes a day is less than the {} cathodes of cell {}: its crops could never be stripped",
-                        p.cathodes_per_cell, c.id
-                    ),
-                ));
-            }
-            cells.push(PlanCell {
-                load: db.load_at(&c.id, now)?.map(|(_, t, n, kg)| (t, n, kg)),
-                crop_started: db.crop_at(&c.id, now)?,
-                cutouts: db.cutouts(&c.id, now)?,
-                params: p.clone(),
-                cell: c.id,
-                circuit: c.circuit,
-                section: c.section,
-            });
+        let cells: Vec<CellInput> = snapshots(db, now, None)?.into_iter().map(|(_, c)| c).collect();
+        if let Some(c) = cells.iter().find(|c| c.params.cathodes_per_cell > strip) {
+            return Err(rejected(
+                strip_field,
+                format!(
+                    "{strip} cathodes a day is less than the {} cathodes of cell {}: its crops could never be stripped",
+                    c.params.cathodes_per_cell, c.cell
+                ),
+            ));
         }
         let mut curves: HashMap<String, StoreCurve<'_>> = HashMap::new();
         let mut outages = Vec::new();

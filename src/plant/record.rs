@@ -3,11 +3,12 @@
 
 use serde::Serialize;
 
-use super::{Opts, Plant, PlantError, Result, far_future, rebuild_cell, refresh_crops};
+use super::{Opts, Plant, PlantError, Result, far_future, learn, rebuild_cell, refresh_crops};
 use crate::domain::anode::AnodeLoad;
 use crate::domain::charge::{Time, cell_charge};
 use crate::domain::entry::{CellContext, Entry, Field, check_cell_entry, check_circuit_entry};
 use crate::domain::history::{Event, EventKind};
+use crate::domain::learn::Source;
 use crate::store::{Db, NewEvent, StoreCurve};
 
 /// What was recorded: the event's id, and the questions accepted with `--force`.
@@ -30,7 +31,11 @@ impl Plant {
     /// one change nothing.
     pub fn record(&mut self, entry: &Entry, opts: &Opts) -> Result<Recorded> {
         let by = initials(&opts.by)?;
-        self.store.write(|db| record_in(db, entry, &by, opts))
+        self.store.write(|db| {
+            let (r, touched) = record_in(db, entry, &by, opts)?;
+            learn::relearn_sections(db, &touched.into_iter().collect::<Vec<_>>())?;
+            Ok(r)
+        })
     }
 
     /// Records many entries in one transaction, in order: all go in, or none
@@ -38,18 +43,24 @@ impl Plant {
     pub fn record_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
         self.store.write(|db| {
             let mut out = Vec::with_capacity(entries.len());
+            let mut touched = Vec::new();
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
                 let place = format!("entry {} of the batch ({} {})", i + 1, entry.kind().name(), entry.cell().unwrap_or("circuit"));
-                out.push(record_in(db, entry, &by, opts).map_err(|e| match e {
+                let (r, cell) = record_in(db, entry, &by, opts).map_err(|e| match e {
                     e @ PlantError::Rejected { .. } => e.in_batch(i),
                     PlantError::Questioned(mut q) => {
                         q.insert(0, place);
                         PlantError::Questioned(q)
                     }
                     e => e,
-                })?);
+                })?;
+                out.push(r);
+                touched.extend(cell);
             }
+            touched.sort();
+            touched.dedup();
+            learn::relearn_sections(db, &touched)?;
             Ok(out)
         })
     }
@@ -61,7 +72,7 @@ impl Plant {
             let mut out = Vec::with_capacity(entries.len());
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
-                out.push(record_in(db, entry, &by, opts).map_err(|e| e.in_batch(i))?);
+                out.push(record_in(db, entry, &by, opts).map_err(|e| e.in_batch(i))?.0);
             }
             Ok(out)
         })
@@ -116,6 +127,9 @@ impl Plant {
                     ),
                     e => e,
                 })?;
+                if changes_learning(target.kind) {
+                    learn::relearn(db, std::slice::from_ref(cell))?;
+                }
             }
             if let (EventKind::Outage, Some(cid)) = (target.kind, circuit_id) {
                 db.recompute_charge(cid, target.at)?;
@@ -131,7 +145,9 @@ impl Plant {
     }
 }
 
-fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorded> {
+/// Records one entry; returns it and the cell whose learn rows it refreshed
+/// (its section is relearnt by the caller, once per write).
+fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<(Recorded, Option<String>)> {
     let questions = match entry.cell() {
         Some(cell) => check_for_cell(db, entry, cell)?,
         None => check_for_circuit(db, entry)?,
@@ -140,8 +156,8 @@ fn record_in(db: Db<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<Recorde
         return Err(PlantError::Questioned(questions));
     }
     let event = db.append_event(&new_event(db, entry, by, !questions.is_empty(), opts.now)?)?;
-    apply(db, entry)?;
-    Ok(Recorded { event, forced_past: questions })
+    let touched = apply(db, entry)?;
+    Ok((Recorded { event, forced_past: questions }, touched))
 }
 
 fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> {
@@ -150,7 +166,7 @@ fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> 
     let params = db.params_at(cell, at)?;
     let curve = StoreCurve::new(db, row.circuit_id, far_future())?;
     let cuts = db.cutouts(cell, far_future())?;
-    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None };
+    let mut cx = CellContext { params: &params, crop_charge_ah: None, load: None, predicted_fraction: None, predicted_spread: None };
     match entry {
         Entry::Harvest { .. } => {
             let start = db.crop_at(cell, at)?.ok_or_else(|| {
@@ -165,14 +181,20 @@ fn check_for_cell(db: Db<'_>, entry: &Entry, cell: &str) -> Result<Vec<String>> 
             if let Some((_, set_at, count, mean)) = db.load_at(cell, at)? {
                 cx.load = Some((count, mean));
                 let q = cell_charge(&curve, &cuts, set_at, at)?.total();
+                // what the weighings logged before this one teach of the cell
+                let learnt = learn::learnt_one(db, cell, at, &params)?.anode;
                 let load = AnodeLoad {
                     initial_kg: mean,
                     count,
-                    efficiency: params.anode_efficiency,
+                    efficiency: learnt.value,
                     copper_fraction: params.anode_copper_fraction,
                     lug_kg: params.lug_kg,
                 };
                 cx.predicted_fraction = Some(load.remaining_fraction(q));
+                // the fraction moves by (Faraday loss at η_a = 1) / set mass per unit of factor
+                let per_factor = AnodeLoad { efficiency: 1.0, ..load }.loss_kg(q) / mean;
+                // nothing learnt yet: the fixed tolerance, as before learning
+                cx.predicted_spread = (learnt.source != Source::Layout).then(|| per_factor * learnt.predictive_sd());
             }
         }
         _ => {}
@@ -235,14 +257,26 @@ fn new_event(db: Db<'_>, entry: &Entry, by: &str, forced: bool, now: Time) -> Re
     Ok(e)
 }
 
-/// What an entry changes beyond the event itself.
-fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
+/// Whether an entry of this kind changes what the weighings teach: a weighing,
+/// a new load (it closes nothing, but an undo of one may), or a cut-out (the charge of a crop).
+fn changes_learning(kind: EventKind) -> bool {
+    matches!(kind, EventKind::Harvest | EventKind::Scrap | EventKind::Anodes | EventKind::Cutout)
+}
+
+/// What an entry changes beyond the event itself; returns the cell whose learn
+/// rows changed (its section still to relearn).
+fn apply(db: Db<'_>, entry: &Entry) -> Result<Option<String>> {
     if let Entry::Voltage { .. } | Entry::Shorts { .. } = entry {
         // replay derives nothing from them: nothing to rebuild
-        return Ok(());
+        return Ok(None);
     }
     if let Some(cell) = entry.cell() {
-        return rebuild_cell(db, cell);
+        rebuild_cell(db, cell)?;
+        if changes_learning(entry.kind()) {
+            learn::refresh_cell(db, cell, entry.kind() == EventKind::Harvest)?;
+            return Ok(Some(cell.to_string()));
+        }
+        return Ok(None);
     }
     if let Entry::Outage { circuit, from, .. } = entry
         && let Some(c) = db.circuit(circuit)?
@@ -250,5 +284,5 @@ fn apply(db: Db<'_>, entry: &Entry) -> Result<()> {
         db.recompute_charge(c.id, *from)?;
         refresh_crops(db, c.id, *from)?;
     }
-    Ok(())
+    Ok(None)
 }

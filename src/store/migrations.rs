@@ -9,6 +9,7 @@ use super::Result;
 pub const MIGRATIONS: &[(&str, &str)] = &[
     ("001_initial", include_str!("migrations/001_initial.sql")),
     ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
+    ("003_learnt", include_str!("migrations/003_learnt.sql")),
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
     ("005_drafts", include_str!("migrations/005_drafts.sql")),
 ];

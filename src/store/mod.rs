@@ -8,6 +8,7 @@
 mod cells;
 mod drafts;
 mod events;
+mod learnt;
 mod migrations;
 mod readings;
 mod report;
@@ -19,6 +20,7 @@ use std::time::Duration as StdDuration;
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use drafts::DraftRow;
 pub use events::{CropFigures, LoadRow, NewEvent};
+pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, WeighingKind};
 
 /// The tables a tankbook database has from its first migration on: a file
 /// without them is not ours.

@@ -229,6 +229,10 @@ impl Curve for StoreCurve<'_> {
         Ok(cum_from(self.around(t)?, t, &self.outages, &self.projection))
     }
     fn time_at(&self, total: f64) -> Result<Option<Time>> {
+        // beyond the last reading's charge no reading reaches it: the projection answers, no query
+        if self.last.is_some_and(|l| total > l.cum_ah) {
+            return Ok(time_from(None, self.last, total, &self.outages, &self.projection));
+        }
         let hit = match self.db.first_reaching(self.circuit_id, total, self.as_of)? {
             Some(p) => Some((self.db.valid_before(self.circuit_id, p.t)?, p)),
             None => None,

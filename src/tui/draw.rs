@@ -29,6 +29,7 @@ pub fn state_mark(s: Option<CellState>) -> (char, Color) {
         Some(CellState::HarvestOverdue) => ('H', Color::Red),
         Some(CellState::AnodesDue) => ('A', Color::Magenta),
         Some(CellState::HarvestDue) => ('h', Color::Yellow),
+        Some(CellState::SuspectedShort) => ('s', Color::LightMagenta),
         Some(CellState::LowEfficiency) => ('e', Color::Cyan),
         Some(CellState::DataWarning) => ('?', Color::Blue),
         None => ('·', Color::Green),

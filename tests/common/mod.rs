@@ -99,3 +99,26 @@ pub fn hours_between(a: &str, b: &str) -> f64 {
     let b = chrono::DateTime::parse_from_rfc3339(b).unwrap();
     (b - a).num_milliseconds() as f64 / 3.6e6
 }
+
+/// Turns the database at `db` into what a tankbook from before the migration
+/// named `NNN_…` (by its number) wrote: every table and index that migration
+/// and the later ones add is dropped (found by comparing with a fresh database
+/// migrated only that far) and `user_version` is set back, so upgrade tests
+/// keep holding as migrations are added.
+pub fn downgrade_to_before(db: &Path, number: &str) {
+    let before = tankbook::store::MIGRATIONS.iter().position(|(name, _)| name.starts_with(number)).expect("a known migration");
+    let mut fresh = rusqlite::Connection::open_in_memory().unwrap();
+    tankbook::store::migrate(&mut fresh, before).unwrap();
+    let names = |c: &rusqlite::Connection, kind: &str| -> Vec<String> {
+        let mut st = c.prepare("SELECT name FROM sqlite_master WHERE type = ?1 AND name NOT LIKE 'sqlite_%'").unwrap();
+        st.query_map([kind], |r| r.get(0)).unwrap().map(Result::unwrap).collect()
+    };
+    let c = rusqlite::Connection::open(db).unwrap();
+    for kind in ["index", "table"] {
+        let keep = names(&fresh, kind);
+        for name in names(&c, kind).into_iter().filter(|n| !keep.contains(n)) {
+            c.execute_batch(&format!("DROP {} \"{name}\";", kind.to_uppercase())).unwrap();
+        }
+    }
+    c.pragma_update(None, "user_version", before as i64).unwrap();
+}
