@@ -122,7 +122,7 @@ pub fn run(cli: Cli) -> Result<()> {
                 print::forecast(&plant, &f);
             }
         }
-        Command::Plan(a) => plan::run(&plant, a, now)?,
+        Command::Plan(a) => plan::run(&mut plant, a, now)?,
         Command::Check(a) => {
             let r = plant.check()?;
             if a.json {

@@ -12,4 +12,6 @@ pub mod layout;
 pub mod levelling;
 pub mod outlook;
 pub mod plan;
+pub mod plan_diff;
 pub mod plant_time;
+pub mod smoothing;

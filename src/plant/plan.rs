@@ -4,11 +4,16 @@
 use chrono::NaiveDate;
 use std::collections::HashMap;
 
-use super::{Plant, PlantError, Result};
+use super::record::initials;
+use super::{Opts, Plant, PlantError, Result, far_future};
 use crate::domain::charge::Time;
+use crate::domain::history::EventKind;
 use crate::domain::levelling::Weights;
-use crate::domain::plan::{Calendar, Plan, PlanCell, PlanError, PlanInput, Rules, plan};
+use crate::domain::plan::{Calendar, Crane, KeptMove, Plan, PlanCell, PlanError, PlanInput, Rules, plan};
+use crate::domain::plan_diff::{PlanDiff, diff, planned_jobs};
+use crate::domain::plant_time::ProductionDays;
 use crate::store::StoreCurve;
+use crate::store::{Db, NewEvent};
 
 /// The longest plan, in production days: a year is far beyond what the
 /// forecasts can say and keeps the levelling's work bounded.
@@ -27,6 +32,8 @@ pub struct PlanOptions {
     pub anodes_per_day: Option<u64>,
     /// Hand moves of a cell's anode change to another day, applied in order.
     pub moves: Vec<(String, NaiveDate)>,
+    /// Level the harvests' daily cathodes after capping them (`false`: the cap-only plan, to compare).
+    pub smooth_harvests: bool,
 }
 
 impl Default for PlanOptions {
@@ -40,6 +47,7 @@ impl Default for PlanOptions {
             anode_stock: None,
             anodes_per_day: None,
             moves: Vec::new(),
+            smooth_harvests: true,
         }
     }
 }
@@ -127,16 +135,99 @@ impl Plant {
                 anodes_per_day: opts.anodes_per_day.or(keys.anodes_per_day),
                 no_anode_work,
                 outages,
+                outage_work: keys.outage_anode_work.clone(),
                 whole_sections: keys.whole_sections,
+                crane: keys.crane_lifts_per_shift.map(|l| Crane {
+                    lifts_per_shift: l,
+                    per_anode_change: keys.lifts_per_anode_change,
+                    per_harvest: keys.lifts_per_harvest,
+                }),
+                smooth_harvests: opts.smooth_harvests,
+                light_crop_fraction: keys.light_crop_fraction,
             },
+            kept: kept_moves(db, &info.days, from)?,
             cells,
             moves: opts.moves.clone(),
         };
-        plan(&input, &curves).map_err(|e| match e {
+        let mut p = plan(&input, &curves).map_err(|e| match e {
             PlanError::Curve(e) => PlantError::Store(e),
             e @ PlanError::Move { .. } => rejected("--move", e.to_string()),
             PlanError::Rule { key, message } => rejected(format!("plan.{key}"), message),
             PlanError::Level(e) => rejected("plan", e.to_string()),
-        })
+        })?;
+        p.since_approved = self.changes_since_approved(&p)?;
+        Ok(p)
     }
+
+    /// What `plan` changes against the last approved plan (`None`: none approved yet).
+    pub fn changes_since_approved(&self, plan: &Plan) -> Result<Option<PlanDiff>> {
+        Ok(self.store.db().last_approved_plan()?.map(|a| diff(&a, &planned_jobs(plan), plan.from)))
+    }
+
+    /// Plans with `opts`, and when every hand move in it can be made, records
+    /// each in the event log as kept (one entry per move, in one transaction)
+    /// so later plans apply it while it stays feasible; returns the entries
+    /// and the plan made with them. A move that cannot be made records nothing.
+    pub fn keep_moves(&mut self, opts: &PlanOptions, record: &Opts) -> Result<(Vec<i64>, Plan)> {
+        if opts.moves.is_empty() {
+            return Err(rejected("--keep", "there is no --move to keep"));
+        }
+        let by = initials(&record.by)?;
+        self.plan(opts, record.now)?;
+        let info = self.store.db().plant_info()?.ok_or(PlantError::NoLayout)?;
+        let entries = self.store.write(|db| {
+            let mut out = Vec::new();
+            for (cell, date) in &opts.moves {
+                out.push(db.append_event(&NewEvent {
+                    kind: EventKind::KeptMove,
+                    cell: Some(cell.clone()),
+                    circuit_id: None,
+                    at: info.days.start_of(*date),
+                    end: None,
+                    count: None,
+                    kg: None,
+                    amps: None,
+                    volts: None,
+                    by: by.clone(),
+                    forced: false,
+                    recorded_at: record.now,
+                    voids: None,
+                })?);
+            }
+            Ok::<_, PlantError>(out)
+        })?;
+        let later = PlanOptions { moves: Vec::new(), ..opts.clone() };
+        Ok((entries, self.plan(&later, record.now)?))
+    }
+
+    /// Records `plan` as approved by `by` (what it plans for each day); later
+    /// plans show what changed since (`Plan::since_approved`). Returns its record's id.
+    pub fn approve_plan(&mut self, plan: &Plan, record: &Opts) -> Result<i64> {
+        let by = initials(&record.by)?;
+        let to = plan.days.last().map_or(plan.from, |d| d.date);
+        let jobs = planned_jobs(plan);
+        self.store.write(|db| Ok::<_, PlantError>(db.record_approved_plan(record.now, &by, plan.from, to, &jobs)?))
+    }
+}
+
+/// The live kept moves a plan from `from` applies: the newest per cell, dated
+/// on or after `from`, and not yet done (no anode set in the cell since it was kept).
+fn kept_moves(db: Db<'_>, days: &ProductionDays, from: NaiveDate) -> Result<Vec<KeptMove>> {
+    let mut newest: HashMap<String, KeptMove> = HashMap::new();
+    for e in db.kept_moves()? {
+        let Some(cell) = e.cell.clone() else { continue };
+        let date = days.day_of(e.at);
+        if date < from {
+            continue;
+        }
+        // anodes logged after the decision: the change it was about is done
+        let done = db.load_at(&cell, far_future())?.is_some_and(|(set_event, _, _, _)| set_event > e.id);
+        if done {
+            continue;
+        }
+        newest.insert(cell.clone(), KeptMove { cell, date, by: e.by, entry: e.id, applied: false });
+    }
+    let mut out: Vec<KeptMove> = newest.into_values().collect();
+    out.sort_by_key(|k| k.entry);
+    Ok(out)
 }

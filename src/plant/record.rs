@@ -17,7 +17,7 @@ pub struct Recorded {
     pub forced_past: Vec<String>,
 }
 
-fn initials(by: &str) -> Result<String> {
+pub(super) fn initials(by: &str) -> Result<String> {
     let by = by.trim();
     if by.is_empty() || by.chars().count() > 8 || by.chars().any(char::is_whitespace) {
         return Err(PlantError::rejected("--by", format!("'{by}' is not a foreman's initials: 1 to 8 characters, no spaces")));

@@ -241,7 +241,7 @@ impl Db<'_> {
         let mut st = self.c.prepare_cached(
             "SELECT started_at FROM crop WHERE cell_id = ?1 AND started_at <= ?2 AND (ended_at IS NULL OR ended_at > ?2) ORDER BY started_at DESC LIMIT 1",
         )?;
-        Ok(st.query_row(params![cell, secs(as_of)], |r| Ok(time(r.get(0)?)?)).optional()?)
+        Ok(st.query_row(params![cell, secs(as_of)], |r| time(r.get(0)?)).optional()?)
     }
 
     /// Measured efficiencies of the cell's crops harvested by `as_of`, oldest first: (harvest time, efficiency, kg).

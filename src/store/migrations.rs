@@ -10,6 +10,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("001_initial", include_str!("migrations/001_initial.sql")),
     ("002_charge_lookup", include_str!("migrations/002_charge_lookup.sql")),
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
+    ("006_approved_plan", include_str!("migrations/006_approved_plan.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -69,6 +70,15 @@ mod tests {
         assert_eq!(est, None);
         let idx: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap();
         assert_eq!(idx, 1);
+        // 006: the approved-plan tables exist, empty, and take a plan of the old rows' cell
+        let plans: i64 = c.query_row("SELECT count(*) FROM approved_plan", [], |r| r.get(0)).unwrap();
+        assert_eq!(plans, 0);
+        c.execute_batch(
+            "INSERT INTO approved_plan VALUES (1, 5000, 'JD', '2026-03-01', '2026-03-14');
+             INSERT INTO approved_job VALUES (1, '2026-03-03', 'harvest', 'A01');",
+        )
+        .unwrap();
+        assert!(c.execute("INSERT INTO approved_job VALUES (1, '2026-03-03', 'repair', 'A01')", []).is_err());
     }
 
     #[test]

@@ -8,6 +8,7 @@
 mod cells;
 mod events;
 mod migrations;
+mod plan_record;
 mod readings;
 
 use rusqlite::{Connection, OpenFlags, TransactionBehavior};
@@ -49,9 +50,7 @@ pub enum StoreError {
 /// Data this version cannot read: what is wrong, and where.
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, thiserror::Error)]
 pub enum Damage {
-    #[error(
-        "entry {entry} is of the kind '{kind}', which this tankbook does not know (written by a newer tankbook, or damaged)"
-    )]
+    #[error("entry {entry} is of the kind '{kind}', which this tankbook does not know (written by a newer tankbook, or damaged)")]
     UnknownKind { entry: i64, kind: String },
     #[error("entry {entry}: its {column} holds {value}, which is not a time (years 0000 to 9999)")]
     BadTime { entry: i64, column: &'static str, value: i64 },

@@ -113,7 +113,7 @@ impl Db<'_> {
             "SELECT t FROM reading WHERE circuit_id = ?1 AND valid = 1 AND gap_before = 1 AND t > ?2 AND t <= ?3 ORDER BY t",
         )?;
         let ends: Vec<Time> =
-            st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok(time(r.get(0)?)?))?.collect::<rusqlite::Result<_>>()?;
+            st.query_map(params![circuit_id, secs(since), secs(until)], |r| time(r.get(0)?))?.collect::<rusqlite::Result<_>>()?;
         let mut v = Vec::new();
         for end in ends {
             if let Some(p) = self.valid_before(circuit_id, end)? {
