@@ -240,7 +240,7 @@ pub struct PlanArgs {
     #[arg(long, requires = "by")]
     pub approve: bool,
     /// Initials of who keeps the moves or approves the plan
-    #[arg(long, value_name = "INITIALS")]
+    #[arg(long, value_name = "INITIALS", env = "TANKBOOK_BY")]
     pub by: Option<String>,
     /// Cap the harvests only, without levelling the stripping machine's daily cathodes (to compare)
     #[arg(long)]

@@ -1879,4 +1879,231 @@ mod tests {
         assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 201, 0]), Some(1));
         assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 200, 50]), None);
     }
+
+    /// `flat` on two circuits, C1 and C2.
+    fn flat2(now_h: u32) -> HashMap<String, MemoryCurve> {
+        let mut c = flat(now_h);
+        let one = c["C1"].clone();
+        c.insert("C2".to_string(), one);
+        c
+    }
+    fn on(circuit: &str, id: &str) -> PlanCell {
+        PlanCell { circuit: circuit.to_string(), ..cell(id, 0.0) }
+    }
+    fn outage_on(circuit: &str, from_h: f64, to_h: f64) -> (String, Span) {
+        (circuit.to_string(), Span { from: at(from_h), to: at(to_h) })
+    }
+    /// Day index of each cell's change.
+    fn change_days(p: &Plan) -> BTreeMap<String, usize> {
+        changes(p).iter().map(|(d, c)| (c.cell.clone(), *d)).collect()
+    }
+
+    #[test]
+    fn an_outage_on_one_circuit_leaves_the_other_circuits_changes_where_they_are() {
+        // Five cells on C1 and five on C2, all set at t0: ideal 451.83 h = 03-19 19:50Z → day 03-18
+        // (days start 20:00; index 8). A 3-h outage on C1 that day (03-19 10:00–13:00Z).
+        let cells: Vec<PlanCell> =
+            (1..=5).map(|i| on("C1", &format!("A{i:02}"))).chain((1..=5).map(|i| on("C2", &format!("B{i:02}")))).collect();
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 442.0, 445.0)];
+        let inp = input(240, "20:00", 14, r, cells.clone());
+        let p = plan(&inp, &flat2(240)).unwrap();
+        let days = change_days(&p);
+        // C2's five stay on their ideal day; C1's go a day early (cost 1 each, cheaper than 3 late)
+        for i in 1..=5 {
+            assert_eq!(days[&format!("B{i:02}")], 8, "{days:?}");
+            assert_eq!(days[&format!("A{i:02}")], 7, "{days:?}");
+        }
+        // the day still has anode work (for C2), and says which circuit is down
+        assert_eq!(p.days[8].no_anode_work, None);
+        assert_eq!(p.days[8].outages.len(), 1);
+        assert_eq!((p.days[8].outages[0].circuit.as_str(), p.days[8].outages[0].anode_work), ("C1", OutageWork::Forbidden));
+        assert_eq!(p.days[8].crew_capacity, 10);
+        // a hand move of a C1 cell onto the outage day is refused; a C2 cell may go there
+        let mut m = inp.clone();
+        m.moves = vec![("A01".into(), date(2026, 3, 18))];
+        let e = plan(&m, &flat2(240)).unwrap_err();
+        assert!(e.to_string().contains("circuit C1 is down"), "{e}");
+        // Preferred on C1, with the outage a day before the ideal (03-17, index 7): C1's cells go
+        // there (the outage day is their ideal), C2's stay on 03-18.
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 418.0, 421.0)];
+        r.outage_work = BTreeMap::from([("C1".to_string(), OutageWork::Preferred)]);
+        let p = plan(&input(240, "20:00", 14, r, cells), &flat2(240)).unwrap();
+        let days = change_days(&p);
+        assert!((1..=5).all(|i| days[&format!("A{i:02}")] == 7 && days[&format!("B{i:02}")] == 8), "{days:?}");
+        assert_eq!(p.days[7].outages[0].anode_work, OutageWork::Preferred);
+    }
+
+    #[test]
+    fn an_outage_on_every_circuit_stops_anode_work() {
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 442.0, 445.0), outage_on("C2", 443.0, 444.0)];
+        let p = plan(&input(240, "20:00", 14, r, vec![on("C1", "A01"), on("C2", "B01")]), &flat2(240)).unwrap();
+        assert_eq!(p.days[8].crew_capacity, 0);
+        let why = p.days[8].no_anode_work.as_deref().unwrap_or("");
+        assert!(why.contains("outage on C1") && why.contains("outage on C2"), "{why}");
+    }
+
+    #[test]
+    fn kept_moves_apply_while_feasible_and_are_dropped_with_the_reason() {
+        let kept = |cell: &str, d: NaiveDate, entry: i64| KeptMove { cell: cell.into(), date: d, by: "JD".into(), entry, applied: false };
+        let mut inp = input(240, "20:00", 14, rules(1), vec![cell("A01", 0.0), cell("A02", 0.0), cell("A03", 0.0)]);
+        // A01 kept on 03-20 (inside its window 03-16 … 03-20); A02 kept on 03-21 (outside it)
+        inp.kept = vec![kept("A01", date(2026, 3, 20), 11), kept("A02", date(2026, 3, 21), 12), kept("A03", date(2026, 4, 30), 13)];
+        let p = plan(&inp, &flat(240)).unwrap();
+        let a01 = changes(&p).into_iter().find(|(_, c)| c.cell == "A01").unwrap();
+        assert_eq!((a01.0, a01.1.moved), (10, true));
+        assert_eq!(p.kept_moves.iter().map(|k| (k.cell.as_str(), k.applied)).collect::<Vec<_>>(), vec![("A01", true), ("A03", false)]);
+        assert_eq!(p.dropped_moves.len(), 1);
+        assert_eq!((p.dropped_moves[0].cell.as_str(), p.dropped_moves[0].entry), ("A02", 12));
+        assert!(p.dropped_moves[0].reason.contains("outside the cell's window"), "{}", p.dropped_moves[0].reason);
+        // a hand move of the same cell overrides the kept one
+        inp.moves = vec![("A01".into(), date(2026, 3, 19))];
+        let p = plan(&inp, &flat(240)).unwrap();
+        assert!(p.dropped_moves.iter().any(|d| d.cell == "A01" && d.reason.contains("overridden")));
+        assert_eq!(change_days(&p)["A01"], 9);
+    }
+
+    #[test]
+    fn light_last_crops_are_warned() {
+        // Without crops_per_anode_cycle the crop pulled with the anodes is 62.48 kg (see
+        // crops_at_target_mass_between_changes), below 0.6 × 120 = 72 kg: warned and flagged.
+        let inp = input(24, "20:00", 20, rules(8), vec![cell("A01", 0.0)]);
+        let p = plan(&inp, &flat(24)).unwrap();
+        assert_eq!(p.warnings.len(), 1);
+        assert_eq!((p.warnings[0].kind, p.warnings[0].cell.as_str(), p.warnings[0].date), ("light_last_crop", "A01", date(2026, 3, 18)));
+        assert!(p.warnings[0].message.contains("crops_per_anode_cycle"));
+        assert!(harvests(&p).iter().all(|(_, h)| h.light == h.with_anode_change));
+        // at 0.5 (60 kg) it is not light; with three equal crops there is no light last crop
+        let mut r = rules(8);
+        r.light_crop_fraction = 0.5;
+        assert!(plan(&input(24, "20:00", 20, r, vec![cell("A01", 0.0)]), &flat(24)).unwrap().warnings.is_empty());
+        let mut c = cell("A01", 0.0);
+        c.params.crops_per_anode_cycle = Some(3);
+        assert!(plan(&input(24, "20:00", 20, rules(8), vec![c]), &flat(24)).unwrap().warnings.is_empty());
+    }
+
+    #[test]
+    fn bound_by_names_the_constraint_that_kept_a_job_off_the_day() {
+        // The thirty-cell wave: 8 on the ideal day and 8 on each of the two days before, 6 a day
+        // late (see a_wave_of_thirty_cells_spreads_early_rather_than_late): the crew binds the
+        // ideal day and the two days early; the day after takes what is left, so it binds nothing.
+        let cells: Vec<PlanCell> = (1..=30)
+            .map(|i| {
+                let mut c = cell(&format!("A{i:02}"), 0.0);
+                c.params.scrap_lower = 0.07;
+                c
+            })
+            .collect();
+        let mut r = rules(8);
+        r.smooth_harvests = false;
+        let inp = input(24, "08:00", 28, r.clone(), cells.clone());
+        let p = plan(&inp, &flat(24)).unwrap();
+        let ideal = (date(2026, 3, 19) - inp.calendar.from).num_days() as usize;
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Crew));
+        assert_eq!(p.days[ideal - 1].bound_by, Some(Bound::Crew));
+        assert_eq!(p.days[ideal + 1].bound_by, None);
+        // a crane of 20 lifts a shift (2 + 2 a change with its crop): 5 changes a day, the crane binds
+        r.crane = Some(Crane { lifts_per_shift: 20, per_anode_change: 2, per_harvest: 2 });
+        let p = plan(&input(24, "08:00", 28, r.clone(), cells.clone()), &flat(24)).unwrap();
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Crane));
+        assert_eq!(p.days[ideal].crew_capacity, 5);
+        assert_eq!(p.days[ideal].crane_lifts, Some(20));
+        // 5 anodes a day and none in stock: 95 by the ideal day, one change of 50 by then; the anodes bind
+        let mut r = rules(8);
+        r.anodes_per_day = Some(5);
+        let p = plan(&input(24, "08:00", 28, r, cells), &flat(24)).unwrap();
+        assert!(p.days[ideal].crew_load < 8);
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Anodes));
+        assert!(p.days.iter().all(|d| d.anodes_delivered.is_some_and(|x| x <= 5)));
+    }
+
+    #[test]
+    fn the_anode_stock_line_follows_levelled_deliveries() {
+        // Two changes of 50 anodes on 03-18 (index 8) with 20 in stock and up to 30 a day: the need
+        // beyond stock is 80 by day 8, so 80/9 = 8.9 a day, rounded up cumulatively (by hand).
+        let mut r = rules(8);
+        r.anode_stock = Some(20);
+        r.anodes_per_day = Some(30);
+        let p = plan(&input(240, "20:00", 14, r, vec![cell("A01", 0.0), cell("A02", 0.0)]), &flat(240)).unwrap();
+        assert_eq!(change_days(&p).values().copied().collect::<Vec<_>>(), vec![8, 8]);
+        let delivered: Vec<u64> = p.days.iter().map(|d| d.anodes_delivered.unwrap()).collect();
+        assert_eq!(&delivered[..9], &[9, 9, 9, 9, 9, 9, 9, 9, 8]);
+        assert!(delivered[9..].iter().all(|x| *x == 0));
+        let stock: Vec<u64> = p.days.iter().map(|d| d.anode_stock.unwrap()).collect();
+        assert_eq!(&stock[..9], &[29, 38, 47, 56, 65, 74, 83, 92, 0]);
+        // unlimited supply: no stock line
+        let p = plan(&input(240, "20:00", 14, rules(8), vec![cell("A01", 0.0)]), &flat(240)).unwrap();
+        assert!(p.days.iter().all(|d| d.anode_stock.is_none() && d.anodes_delivered.is_none()));
+    }
+
+    #[test]
+    fn smoothing_spreads_crops_due_together_and_never_worsens_the_spread() {
+        // Six cells set together: their first crops are all due 179.25 h after the set (day 03-07
+        // with 20:00 day starts, index 6), each free to move a day either way. Capped only, the
+        // stripping machine takes 6 × 51 = 306 cathodes that day and none beside it; smoothed, two a
+        // day (102, 102, 102), by hand.
+        let cells: Vec<PlanCell> = (1..=6).map(|i| cell(&format!("A{i:02}"), 0.0)).collect();
+        let mut r = rules(8);
+        r.smooth_harvests = false;
+        let capped = plan(&input(24, "20:00", 14, r, cells.clone()), &flat(24)).unwrap();
+        let smooth = plan(&input(24, "20:00", 14, rules(8), cells), &flat(24)).unwrap();
+        let load = |p: &Plan| p.days.iter().map(|d| d.harvest_cathodes).collect::<Vec<u64>>();
+        assert_eq!(&load(&capped)[5..8], &[0, 306, 0]);
+        assert_eq!(&load(&smooth)[5..8], &[102, 102, 102]);
+        assert!(smoothing::spread(&load(&smooth)) < smoothing::spread(&load(&capped)));
+        assert_eq!(smooth.harvests_smoothed, 4);
+        assert!(!smooth.harvests_exact && capped.harvests_exact);
+        assert_eq!(harvests(&smooth).len(), harvests(&capped).len());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(48))]
+        #[test]
+        fn the_crane_budget_is_never_exceeded(
+            sets in proptest::collection::vec(0u32..400, 1..14),
+            lifts in 4u32..30,
+            per_change in 1u32..4,
+            per_harvest in 1u32..4,
+            shifts in 1u32..4,
+            crew in 1u32..10,
+            smooth in proptest::bool::ANY,
+        ) {
+            let cells: Vec<PlanCell> = sets.iter().enumerate().map(|(i, h)| cell(&format!("A{i:02}"), -f64::from(*h))).collect();
+            let mut r = rules(crew);
+            r.shifts_per_day = shifts;
+            r.smooth_harvests = smooth;
+            let crane = Crane { lifts_per_shift: lifts, per_anode_change: per_change, per_harvest };
+            r.crane = Some(crane);
+            // a t0 far enough back for every set: the curve starts 400 h earlier
+            let now_h = 400;
+            let rs: Vec<RawReading> = (0..=now_h + 400).map(|h| RawReading { t: at(f64::from(h) - 400.0), amps: 30_000.0 }).collect();
+            let curves = HashMap::from([("C1".to_string(), MemoryCurve::build(&rs, &[], &[], at(f64::from(now_h))))]);
+            let inp = input(now_h, "06:00", 21, r, cells);
+            match plan(&inp, &curves) {
+                Ok(p) => {
+                    let budget = lifts * shifts;
+                    for d in &p.days {
+                        let crops = d.harvests.iter().filter(|h| h.with_anode_change).count() as u32;
+                        let others = d.harvests.len() as u32 - crops;
+                        let want = d.anode_changes.len() as u32 * per_change + (crops + others) * per_harvest;
+                        proptest::prop_assert_eq!(d.crane_lifts, Some(want), "{}", d.date);
+                        proptest::prop_assert!(want <= budget, "{}: {want} lifts > {budget}", d.date);
+                        proptest::prop_assert_eq!(d.crane_capacity, Some(budget));
+                        if shifts > 1 {
+                            proptest::prop_assert_eq!(d.shifts.iter().filter_map(|s| s.crane_lifts).sum::<u32>(), want);
+                            proptest::prop_assert_eq!(d.shifts.iter().map(|s| s.harvests).sum::<u32>(), others);
+                            for s in &d.shifts {
+                                proptest::prop_assert!(s.crane_lifts.unwrap_or(0) <= lifts, "{}: a shift over its lifts {:?}", d.date, d.shifts);
+                            }
+                        }
+                    }
+                }
+                // too small a budget for one change with its crop is refused, naming the key
+                Err(PlanError::Rule { key, .. }) => proptest::prop_assert!(lifts < per_change + per_harvest && key == "crane_lifts_per_shift"),
+                Err(e) => proptest::prop_assert!(false, "{e}"),
+            }
+        }
+    }
 }

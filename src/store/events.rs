@@ -363,11 +363,9 @@ impl Db<'_> {
                     st.query_map(params![below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?.collect::<rusqlite::Result<_>>()?
                 }
                 Some(above) => {
-                    let mut st = self
-                        .c
-                        .prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind > ?1 AND kind < ?2 LIMIT ?3")?;
-                    st.query_map(params![above, below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?
-                        .collect::<rusqlite::Result<_>>()?
+                    let mut st =
+                        self.c.prepare_cached("SELECT id, kind FROM event INDEXED BY event_kind WHERE kind > ?1 AND kind < ?2 LIMIT ?3")?;
+                    st.query_map(params![above, below, limit as i64], |r| Ok((r.get(0)?, r.get(1)?)))?.collect::<rusqlite::Result<_>>()?
                 }
             };
             found.extend(rows.into_iter().map(|(entry, kind)| Damage::UnknownKind { entry, kind }));
@@ -379,7 +377,9 @@ impl Db<'_> {
                 OR end_at NOT BETWEEN -62167219200 AND 253402300799
              ORDER BY id LIMIT ?1",
         )?;
-        let rows = st.query_map([limit as i64], |r| Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, Option<i64>>(2)?, r.get::<_, i64>(3)?)))?;
+        let rows = st.query_map([limit as i64], |r| {
+            Ok((r.get::<_, i64>(0)?, r.get::<_, i64>(1)?, r.get::<_, Option<i64>>(2)?, r.get::<_, i64>(3)?))
+        })?;
         for row in rows {
             let (entry, at, end, rec) = row?;
             let bad = |v: i64| time(v).is_err();
