@@ -21,11 +21,15 @@
 //!    their target mass. Work whose due time has already passed is overdue and
 //!    is planned from the first day.
 //! 2. **Levelling** ([`plan`]): anode changes go through
-//!    [`levelling::level`] (crew per day, days without anode work, anode
-//!    supply, whole sections as groups), then the hand moves are applied to
-//!    the levelled plan one by one and each is re-checked. Harvests are
-//!    levelled next against the stripping machine, with the last crop of each
-//!    cycle fixed to its anode-change day.
+//!    [`levelling::level`] (crew per day, days without anode work, each
+//!    circuit's own outage days, anode supply, crane lifts, whole sections as
+//!    groups), then the kept moves (recorded decisions) and the hand moves are
+//!    applied to the levelled plan one by one and each is re-checked. Harvests
+//!    are levelled next against the stripping machine and the crane lifts
+//!    left, with the last crop of each cycle fixed to its anode-change day,
+//!    then smoothed inside their windows ([`smoothing::smooth`]). Anode
+//!    deliveries are levelled under the daily preparation limit
+//!    ([`smoothing::deliveries`]), giving each day's stock line.
 //! 3. **Prediction**: every planned job is given the instant of its day nearest
 //!    its due time (never before now), and the anode fraction, scrap and
 //!    cathode mass are predicted there on the same curve.
@@ -754,7 +758,14 @@ fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
 ///
 /// Guaranteed: no day's anode changes exceed its crew capacity (0 on a day
 /// without anode work; otherwise `crew_cells_per_day`, and never more than the
-/// stripping machine can take of the crops those changes pull); the cumulative
+/// stripping machine can take of the crops those changes pull, nor than the
+/// shifts' crane lifts allow with each change lifting its crop too); no
+/// change of a circuit whose anode work is forbidden during outages is on a
+/// day that overlaps one of its outages (other circuits' cells keep working;
+/// a day is without anode work for all only when every circuit is down, or
+/// it is a `no_anode_work` date); no shift's crane lifts exceed
+/// `lifts_per_shift` (changes fill the shifts in order, harvests go to the
+/// first shift with lifts left); the cumulative
 /// anode supply is never overdrawn; no day's harvests exceed
 /// `harvest_cathodes_per_day` cathodes; every anode change whose window starts
 /// inside the horizon is placed inside its window or listed in `unplaced` with
@@ -780,6 +791,25 @@ fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
 /// every harvest is on its due day. Otherwise the machine is still never over
 /// capacity, harvests left over are then fitted into the cathodes still free,
 /// cheapest day first, and no optimality is claimed.
+///
+/// With `smooth_harvests`, the capped harvests are then moved one at a time
+/// to another day of their window while that lowers the sum of squared daily
+/// cathodes (ties: while it lowers the distance from the due days), within
+/// the same cathode and crane limits: never a harvest more unplaced, never a
+/// spread worse than the capped plan's; `harvests_exact` is then true only if
+/// nothing moved.
+///
+/// Kept moves (recorded decisions, oldest first) move the cell's first change
+/// in the plan under the same checks as a hand move; one that fails is listed
+/// in `dropped_moves` with the reason instead of failing the plan, and one
+/// whose cell also has a hand move is overridden by it.
+///
+/// Each day's `bound_by` names the limit that kept a job off it: a change
+/// levelled away from its ideal day (or unplaced) marks the days between, and
+/// the day is bound by what set its change capacity (crew, stripping machine
+/// or crane) when full, else by the anodes; otherwise a harvest displaced in
+/// the capped levelling marks them, bound by the stripping machine when it
+/// cannot take that harvest, or the crane when its lifts are used up.
 ///
 /// Anode changes are levelled over the plan and [`LOOKAHEAD_DAYS`] after it;
 /// one levelled to a day after the plan is listed as [`Reason::AfterHorizon`].
@@ -1336,9 +1366,10 @@ where
     }
     // Light last crops: warned, not re-spread (crops_per_anode_cycle spreads a cycle's crops evenly).
     let mut warnings = Vec::new();
+    let cell_of: HashMap<&str, usize> = cells.iter().enumerate().map(|(i, c)| (c.cell.as_str(), i)).collect();
     for day in &mut days {
         for h in day.harvests.iter_mut().filter(|h| h.with_anode_change) {
-            let Some(c) = cells.iter().find(|c| c.cell == h.cell) else { continue };
+            let Some(c) = cell_of.get(h.cell.as_str()).map(|&i| &cells[i]) else { continue };
             let target = c.params.cathode_target_kg;
             if c.params.crops_per_anode_cycle.is_none() && h.mass_kg < rules.light_crop_fraction * target {
                 h.light = true;

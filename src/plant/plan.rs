@@ -61,6 +61,12 @@ impl Plant {
     /// `opts.from`, on every circuit's curve as of `now` (see
     /// [`crate::domain::plan::plan`] for what is guaranteed).
     pub fn plan(&self, opts: &PlanOptions, now: Time) -> Result<Plan> {
+        self.plan_with(opts, now, &[])
+    }
+
+    /// [`Plant::plan`] with `extra` kept moves after the recorded ones (each
+    /// replacing a recorded one of the same cell).
+    fn plan_with(&self, opts: &PlanOptions, now: Time, extra: &[KeptMove]) -> Result<Plan> {
         let db = self.store.db();
         let info = db.plant_info()?.ok_or(PlantError::NoLayout)?;
         if opts.days == 0 || opts.days > MAX_PLAN_DAYS {
@@ -145,7 +151,11 @@ impl Plant {
                 smooth_harvests: opts.smooth_harvests,
                 light_crop_fraction: keys.light_crop_fraction,
             },
-            kept: kept_moves(db, &info.days, from)?,
+            kept: kept_moves(db, &info.days, from)?
+                .into_iter()
+                .filter(|k| !extra.iter().any(|x| x.cell == k.cell))
+                .chain(extra.iter().cloned())
+                .collect(),
             cells,
             moves: opts.moves.clone(),
         };
@@ -164,16 +174,34 @@ impl Plant {
         Ok(self.store.db().last_approved_plan()?.map(|a| diff(&a, &planned_jobs(plan), plan.from)))
     }
 
-    /// Plans with `opts`, and when every hand move in it can be made, records
-    /// each in the event log as kept (one entry per move, in one transaction)
-    /// so later plans apply it while it stays feasible; returns the entries
-    /// and the plan made with them. A move that cannot be made records nothing.
+    /// Records the hand moves of `opts` in the event log as kept decisions
+    /// (one entry per move, in one transaction), each for the cell's first
+    /// change in the plan, so later plans apply them while they stay feasible;
+    /// returns the entries and the plan made with them. The moves are first
+    /// tried as kept moves on the plan: if one cannot be applied (outside the
+    /// first change's window, a full day, no anodes, its circuit down),
+    /// nothing is recorded and the reason is given.
     pub fn keep_moves(&mut self, opts: &PlanOptions, record: &Opts) -> Result<(Vec<i64>, Plan)> {
         if opts.moves.is_empty() {
             return Err(rejected("--keep", "there is no --move to keep"));
         }
         let by = initials(&record.by)?;
-        self.plan(opts, record.now)?;
+        let trial: Vec<KeptMove> = opts
+            .moves
+            .iter()
+            .enumerate()
+            .map(|(i, (cell, date))| KeptMove { cell: cell.clone(), date: *date, by: by.clone(), entry: -(i as i64) - 1, applied: false })
+            .collect();
+        let later = PlanOptions { moves: Vec::new(), ..opts.clone() };
+        let tried = self.plan_with(&later, record.now, &trial)?;
+        for t in &trial {
+            if let Some(d) = tried.dropped_moves.iter().find(|d| d.entry == t.entry) {
+                return Err(rejected("--move", format!("{}={}: {}", t.cell, t.date, d.reason)));
+            }
+            if tried.kept_moves.iter().any(|k| k.entry == t.entry && !k.applied) {
+                return Err(rejected("--move", format!("{}={}: the date is after the plan's last day", t.cell, t.date)));
+            }
+        }
         let info = self.store.db().plant_info()?.ok_or(PlantError::NoLayout)?;
         let entries = self.store.write(|db| {
             let mut out = Vec::new();
@@ -196,7 +224,6 @@ impl Plant {
             }
             Ok::<_, PlantError>(out)
         })?;
-        let later = PlanOptions { moves: Vec::new(), ..opts.clone() };
         Ok((entries, self.plan(&later, record.now)?))
     }
 
