@@ -123,6 +123,8 @@ fn a_kept_move_survives_later_entries_and_undo_takes_it_back() {
     // keep A02 on 03-18; without --by (and no TANKBOOK_BY) it is a usage error
     let plain = tk.cmd().env_remove("TANKBOOK_BY").args(["plan", "--move", "A02=2026-03-18", "--keep"]).output().unwrap();
     assert_eq!(plain.status.code(), Some(2));
+    // --keep without a --move is a usage error too
+    tk.fails(2, &["plan", "--keep", "--by", "MK"]);
     let dump = tk.dump();
     let err = tk.fails(1, &["plan", "--move", "A02=2026-03-22", "--keep", "--by", "MK"]);
     assert!(err.contains("outside the cell's window"), "{err}");
@@ -196,6 +198,11 @@ fn the_approved_plan_and_what_changed_since() {
     );
     assert!(arr(&x["moved"]).is_empty() && arr(&x["added"]).is_empty() && arr(&x["dropped"]).is_empty(), "{x}");
     let approved_id = x["approved"].as_i64().unwrap();
+    // initials that are not initials are refused, and nothing is recorded
+    let dump = tk.dump();
+    let err = tk.fails(1, &["plan", "--approve", "--by", "S D"]);
+    assert!(err.contains("--by"), "{err}");
+    assert_eq!(tk.dump(), dump);
 
     // Since: a hand move (A02 a day earlier than approved) and a cell cut out with no end (B05:
     // its jobs dropped).

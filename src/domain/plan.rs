@@ -741,8 +741,16 @@ fn harvest_room(shifts: &[ShiftLoad], crane: Option<Crane>) -> u32 {
     }
 }
 
-/// Puts `k` harvests into the shifts, each into the first shift with the lifts left for it.
+/// Puts `k` harvests into the shifts, each into the first shift with the
+/// lifts left for it; without a crane budget, evenly (the first shifts take the remainder).
 fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
+    if crane.is_none() {
+        let n = shifts.len() as u32;
+        for (i, s) in shifts.iter_mut().enumerate() {
+            s.harvests = k / n.max(1) + u32::from((i as u32) < k % n.max(1));
+        }
+        return;
+    }
     for _ in 0..k {
         let fits = |s: &ShiftLoad| crane.is_none_or(|c| s.crane_lifts.unwrap_or(0) + c.per_harvest <= c.lifts_per_shift);
         if let Some(s) = shifts.iter_mut().find(|s| fits(s)) {
@@ -1898,6 +1906,10 @@ mod tests {
         assert_eq!(harvest_room(&sh, crane), 1);
         fill_harvests(&mut sh, 1, crane);
         assert_eq!(sh.iter().map(|s| (s.harvests, s.crane_lifts)).collect::<Vec<_>>(), vec![(0, Some(8)), (1, Some(8))]);
+        // without a crane budget the harvests are split evenly over the shifts
+        let mut sh = fill_changes(&[true; 3], 8, 3, None);
+        fill_harvests(&mut sh, 5, None);
+        assert_eq!(sh.iter().map(|s| s.harvests).collect::<Vec<_>>(), vec![2, 2, 1]);
     }
 
     #[test]
