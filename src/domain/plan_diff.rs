@@ -7,9 +7,12 @@
 //! cell), minimising the days they moved plus [`UNMATCHED_DAYS`] for each job
 //! left unmatched where the other plan should have had it. Approved jobs
 //! dated before today's plan begins were due before it (done, or now overdue
-//! on an early day): unmatched, they are neither dropped nor reported. Jobs of
-//! today's plan after the approved plan's last day were not in it: unmatched,
-//! they are not reported as added.
+//! on an early day): unmatched, they are neither dropped nor reported. Only
+//! the days both plans cover are compared for jobs left over: jobs of today's
+//! plan after the approved plan's last day were not in it, and approved jobs
+//! after today's plan's last day are not in it; unmatched, neither is reported.
+//! So a plan shorter than the approved one cannot tell a job moved past its
+//! last day from one dropped near it: compare plans of the same length.
 
 use chrono::NaiveDate;
 use serde::Serialize;
@@ -90,7 +93,7 @@ enum Step {
 }
 
 /// Compares the current plan's jobs (over `from..=to`) with the approved plan.
-pub fn diff(approved: &ApprovedPlan, current: &[PlannedJob], from: NaiveDate) -> PlanDiff {
+pub fn diff(approved: &ApprovedPlan, current: &[PlannedJob], from: NaiveDate, to: NaiveDate) -> PlanDiff {
     type Key = (&'static str, String);
     let mut a: BTreeMap<Key, Vec<NaiveDate>> = BTreeMap::new();
     let mut c: BTreeMap<Key, Vec<NaiveDate>> = BTreeMap::new();
@@ -109,7 +112,8 @@ pub fn diff(approved: &ApprovedPlan, current: &[PlannedJob], from: NaiveDate) ->
         let mut ys = c.remove(&key).unwrap_or_default();
         xs.sort();
         ys.sort();
-        let drop_cost = |x: NaiveDate| if x < from { 0 } else { UNMATCHED_DAYS };
+        let outside = |x: NaiveDate| x < from || x > to;
+        let drop_cost = |x: NaiveDate| if outside(x) { 0 } else { UNMATCHED_DAYS };
         let add_cost = |y: NaiveDate| if y > approved.to { 0 } else { UNMATCHED_DAYS };
         // cost[i][j]: least cost of aligning xs[i..] with ys[j..]
         let (n, m) = (xs.len(), ys.len());
@@ -146,7 +150,7 @@ pub fn diff(approved: &ApprovedPlan, current: &[PlannedJob], from: NaiveDate) ->
                     j += 1;
                 }
                 Step::Dropped => {
-                    if xs[i] >= from {
+                    if !outside(xs[i]) {
                         dropped.push(PlannedJob { date: xs[i], kind, cell: cell.clone() });
                     }
                     i += 1;
@@ -211,14 +215,18 @@ mod tests {
             job(6, "anode_change", "A02"),
             job(4, "anode_change", "A04"), // new
         ];
-        let x = diff(&a, &now, d(2));
+        let x = diff(&a, &now, d(2), d(15));
         assert_eq!(x.moved, vec![MovedJob { cell: "A02".into(), kind: "anode_change", from: d(5), to: d(6) }]);
         assert_eq!(x.added, vec![job(4, "anode_change", "A04")]);
         assert_eq!(x.dropped, vec![job(9, "anode_change", "A03")]);
         assert!(!x.is_empty());
         // the same plan against itself: nothing changed
         let same = approved(now.clone());
-        assert!(diff(&same, &now, d(2)).is_empty());
+        assert!(diff(&same, &now, d(2), d(15)).is_empty());
+        // a shorter plan today (to day 7): the approved jobs after it are not dropped
+        let x = diff(&a, &[job(6, "anode_change", "A02")], d(2), d(7));
+        assert!(x.dropped.is_empty() && x.added.is_empty(), "{x:?}");
+        assert_eq!(x.moved.len(), 1);
     }
 
     #[test]
@@ -226,11 +234,11 @@ mod tests {
         // Approved harvests on days 3 and 10; now a new one on day 5 between them: the two keep
         // their days and day 5 is added (matching 3→5 and 10→3 would cost more, and cross).
         let a = approved(vec![job(3, "harvest", "B1"), job(10, "harvest", "B1")]);
-        let x = diff(&a, &[job(3, "harvest", "B1"), job(5, "harvest", "B1"), job(10, "harvest", "B1")], d(2));
+        let x = diff(&a, &[job(3, "harvest", "B1"), job(5, "harvest", "B1"), job(10, "harvest", "B1")], d(2), d(15));
         assert!(x.moved.is_empty());
         assert_eq!(x.added, vec![job(5, "harvest", "B1")]);
         // moved far (10 → 3, more than twice UNMATCHED_DAYS): dropped and added
-        let x = diff(&approved(vec![job(10, "anode_change", "B1")]), &[job(3, "anode_change", "B1")], d(2));
+        let x = diff(&approved(vec![job(10, "anode_change", "B1")]), &[job(3, "anode_change", "B1")], d(2), d(15));
         assert_eq!((x.added.len(), x.dropped.len(), x.moved.len()), (1, 1, 0));
     }
 }

@@ -171,7 +171,8 @@ impl Plant {
 
     /// What `plan` changes against the last approved plan (`None`: none approved yet).
     pub fn changes_since_approved(&self, plan: &Plan) -> Result<Option<PlanDiff>> {
-        Ok(self.store.db().last_approved_plan()?.map(|a| diff(&a, &planned_jobs(plan), plan.from)))
+        let to = plan.days.last().map_or(plan.from, |d| d.date);
+        Ok(self.store.db().last_approved_plan()?.map(|a| diff(&a, &planned_jobs(plan), plan.from, to)))
     }
 
     /// Records the hand moves of `opts` in the event log as kept decisions
