@@ -198,6 +198,14 @@ fn the_approved_plan_and_what_changed_since() {
     );
     assert!(arr(&x["moved"]).is_empty() && arr(&x["added"]).is_empty() && arr(&x["dropped"]).is_empty(), "{x}");
     let approved_id = x["approved"].as_i64().unwrap();
+    // the next morning, the same length of plan: nothing due before today is called dropped
+    let next = tk.cmd().env("TANKBOOK_NOW", "2026-03-12T00:00:00Z").args(["plan", "--json"]).output().unwrap();
+    let next: Value = serde_json::from_slice(&next.stdout).unwrap();
+    assert_eq!(next["from"], "2026-03-11");
+    let y = &next["since_approved"];
+    assert_eq!(y["approved"].as_i64(), Some(approved_id));
+    assert!(arr(&y["dropped"]).iter().all(|j| j["date"].as_str().unwrap() >= "2026-03-11"), "{y}");
+    assert!(arr(&y["added"]).iter().all(|j| j["date"].as_str().unwrap() <= "2026-03-23"), "{y}");
     // initials that are not initials are refused, and nothing is recorded
     let dump = tk.dump();
     let err = tk.fails(1, &["plan", "--approve", "--by", "S D"]);
