@@ -5,7 +5,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 cargo build --release -q
-bin=target/release/tankbook
+bin=${CARGO_TARGET_DIR:-target}/release/tankbook
 dir=$(mktemp -d)
 trap 'rm -rf "$dir"' EXIT
 export TANKBOOK_NOW=${TANKBOOK_NOW:-2026-11-20T05:30:00Z}

@@ -266,6 +266,18 @@ pub struct PlanArgs {
     /// Move a cell's anode change to another day inside its window; repeat for more cells
     #[arg(long = "move", value_name = "CELL=DATE", value_parser = parse_move)]
     pub moves: Vec<(String, NaiveDate)>,
+    /// Record the --move decisions in the event log, so later plans keep them while feasible (needs --by; undo takes one back)
+    #[arg(long, requires = "moves", requires = "by")]
+    pub keep: bool,
+    /// Record this plan as approved, so later plans show what changed since (needs --by)
+    #[arg(long, requires = "by")]
+    pub approve: bool,
+    /// Initials of who keeps the moves or approves the plan
+    #[arg(long, value_name = "INITIALS", env = "TANKBOOK_BY")]
+    pub by: Option<String>,
+    /// Cap the harvests only, without levelling the stripping machine's daily cathodes (to compare)
+    #[arg(long)]
+    pub no_smoothing: bool,
     /// JSON output (schema 1)
     #[arg(long)]
     pub json: bool,

@@ -143,7 +143,12 @@ pub fn run(cli: Cli) -> Result<()> {
     if matches!(command, Command::Forecast(_) | Command::Plan(_) | Command::Events(_)) {
         plant.refuse_damage()?;
     }
-    let writes = matches!(command, Command::Layout(_) | Command::Import(_) | Command::Log(_) | Command::Undo(_));
+    let writes = match &command {
+        Command::Layout(_) | Command::Import(_) | Command::Log(_) | Command::Undo(_) => true,
+        // a kept move or an approval is an entry too
+        Command::Plan(p) => p.keep || p.approve,
+        _ => false,
+    };
     match command {
         Command::Layout(LayoutCmd::Load { file }) => {
             let s = plant.load_layout_file(&file, now)?;
@@ -195,7 +200,7 @@ pub fn run(cli: Cli) -> Result<()> {
                 print::forecast(&plant, &f)?;
             }
         }
-        Command::Plan(a) => plan::run(&plant, a, now)?,
+        Command::Plan(a) => plan::run(&mut plant, a, now)?,
         Command::Patrol(a) => learn::patrol(&plant, &a, now)?,
         Command::Backtest(a) => learn::backtest(&plant, &a, now)?,
         Command::Check(a) => {

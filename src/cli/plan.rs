@@ -6,10 +6,11 @@ use std::path::Path;
 
 use super::args::PlanArgs;
 use crate::domain::charge::Time;
-use crate::domain::plan::{Plan, PlanDay, Reason, UnplacedJob};
-use crate::plant::{PlanOptions, Plant};
+use crate::domain::plan::{Bound, Plan, PlanDay, Reason, UnplacedJob};
+use crate::domain::plan_diff::PlanDiff;
+use crate::plant::{Opts, PlanOptions, Plant};
 
-pub fn run(plant: &Plant, a: PlanArgs, now: Time) -> Result<()> {
+pub fn run(plant: &mut Plant, a: PlanArgs, now: Time) -> Result<()> {
     let opts = PlanOptions {
         from: a.from,
         days: a.days,
@@ -18,8 +19,23 @@ pub fn run(plant: &Plant, a: PlanArgs, now: Time) -> Result<()> {
         anode_stock: a.anode_stock,
         anodes_per_day: a.anodes_per_day,
         moves: a.moves,
+        smooth_harvests: !a.no_smoothing,
     };
-    let p = plant.plan(&opts, now)?;
+    let record = Opts { by: a.by.clone().unwrap_or_default(), force: false, now };
+    let p = if a.keep {
+        let (entries, p) = plant.keep_moves(&opts, &record)?;
+        let list: Vec<String> = entries.iter().map(i64::to_string).collect();
+        eprintln!("kept {} move(s) as entries {} (undo takes one back)", entries.len(), list.join(", "));
+        p
+    } else {
+        plant.plan(&opts, now)?
+    };
+    let mut p = p;
+    if a.approve {
+        let id = plant.approve_plan(&p, &record)?;
+        eprintln!("recorded this plan as approved plan {id} by {}", record.by.trim().to_uppercase());
+        p.since_approved = plant.changes_since_approved(&p)?;
+    }
     if let Some(path) = &a.csv {
         let rows = write_csv(path, &p).with_context(|| format!("--csv {}", path.display()))?;
         eprintln!("wrote {rows} planned jobs to {}", path.display());
@@ -69,10 +85,49 @@ fn day_line(d: &PlanDay) -> String {
             format!("crew {}/{} cells{by_shift}", d.crew_load, d.crew_capacity)
         }
     };
+    let stock = match (d.anode_stock, d.anodes_delivered) {
+        (Some(s), Some(x)) => format!(", deliver {x}, stock {s} left"),
+        _ => String::new(),
+    };
+    let crane = match (d.crane_lifts, d.crane_capacity) {
+        (Some(l), Some(c)) => format!("; crane {l}/{c} lifts"),
+        _ => String::new(),
+    };
+    let bound = match d.bound_by {
+        Some(b) => format!("; held back by {}", bound_name(b)),
+        None => String::new(),
+    };
     format!(
-        "{}  {crew}; anodes {} ({:.1} t), scrap {:.1} t; harvest {}/{} cathodes, copper {:.1} t",
+        "{}  {crew}; anodes {} ({:.1} t){stock}, scrap {:.1} t; harvest {}/{} cathodes, copper {:.1} t{crane}{bound}",
         d.date, d.anodes_needed, d.anode_tonnes, d.scrap_tonnes, d.harvest_cathodes, d.harvest_capacity, d.copper_tonnes
     )
+}
+
+fn bound_name(b: Bound) -> &'static str {
+    match b {
+        Bound::Crew => "the crew",
+        Bound::Stripping => "the stripping machine",
+        Bound::Anodes => "the anode supply",
+        Bound::Crane => "the crane lifts",
+    }
+}
+
+/// The changes since the last approved plan, for the morning meeting.
+fn changes_since(plant: &Plant, x: &PlanDiff) {
+    println!("since the plan approved by {} at {} ({} to {}):", x.by, plant.show_time(x.approved_at), x.approved_from, x.approved_to);
+    if x.is_empty() {
+        println!("  no changes");
+    }
+    let kind = |k: &str| if k == "harvest" { "harvest" } else { "anode change" };
+    for m in &x.moved {
+        println!("  moved    {:<13} {:<8} {} -> {}", kind(m.kind), m.cell, m.from, m.to);
+    }
+    for j in &x.added {
+        println!("  added    {:<13} {:<8} {}", kind(j.kind), j.cell, j.date);
+    }
+    for j in &x.dropped {
+        println!("  dropped  {:<13} {:<8} {}", kind(j.kind), j.cell, j.date);
+    }
 }
 
 fn table(plant: &Plant, p: &Plan) -> Result<()> {
@@ -89,9 +144,20 @@ fn table(plant: &Plant, p: &Plan) -> Result<()> {
         plant.show_time(p.as_of)
     );
     println!("CAUTION: {}", p.advisory);
+    if let Some(x) = &p.since_approved {
+        println!();
+        changes_since(plant, x);
+    }
     for d in &p.days {
         println!();
         println!("{}", day_line(d));
+        for o in &d.outages {
+            let work = match o.anode_work {
+                crate::domain::layout::OutageWork::Forbidden => "no anode work in its cells",
+                crate::domain::layout::OutageWork::Preferred => "anode work preferred in its cells",
+            };
+            println!("  outage on {} from {} to {}: {work}", o.circuit, plant.show_time(o.from), plant.show_time(o.to));
+        }
         for c in &d.anode_changes {
             let mut notes = Vec::new();
             if c.overdue {
@@ -122,6 +188,9 @@ fn table(plant: &Plant, p: &Plan) -> Result<()> {
             if h.with_anode_change {
                 notes.push("with the anode change");
             }
+            if h.light {
+                notes.push("light");
+            }
             println!(
                 "  harvest       {:<8} {:<5} {:<4} {:>6.1} kg/cathode  {} cathodes{}",
                 h.cell,
@@ -151,13 +220,28 @@ fn table(plant: &Plant, p: &Plan) -> Result<()> {
             println!("  {:<8} {}", u.cell, u.message);
         }
     }
+    for k in &p.kept_moves {
+        let state = if k.applied { "applied" } else { "after this plan" };
+        println!("kept move {} to {} by {} (entry {}): {state}", k.cell, k.date, k.by, k.entry);
+    }
+    for k in &p.dropped_moves {
+        println!("kept move {} to {} by {} (entry {}) dropped: {}", k.cell, k.date, k.by, k.entry, k.reason);
+    }
+    for w in &p.warnings {
+        println!("warning {} {}: {}", w.cell, w.date, w.message);
+    }
     if !p.out_of_circuit.is_empty() {
         println!("cut out with no end, nothing planned: {}", p.out_of_circuit.join(" "));
     }
     println!(
-        "levelling: anode changes {}, harvests {}",
+        "levelling: anode changes {}, harvests {}{}",
         if p.exact { "proven optimal" } else { "feasible, not proven optimal" },
-        if p.harvests_exact { "proven optimal" } else { "feasible, not proven optimal" }
+        if p.harvests_exact { "proven optimal" } else { "feasible, not proven optimal" },
+        if p.harvests_smoothed > 0 {
+            format!(" ({} moved inside their windows to even out the stripping machine)", p.harvests_smoothed)
+        } else {
+            String::new()
+        }
     );
     println!("CAUTION: {}", p.advisory);
     Ok(())

@@ -7,7 +7,7 @@ use super::charge::{OpenSpan, Time};
 
 /// What kind of entry an event records.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
-#[serde(rename_all = "lowercase")]
+#[serde(rename_all = "snake_case")]
 pub enum EventKind {
     Scrap,
     Harvest,
@@ -18,11 +18,13 @@ pub enum EventKind {
     Setpoint,
     Voltage,
     Reading,
+    /// A hand move of a cell's anode change kept for later plans (`at`: the start of its production day).
+    KeptMove,
     Void,
 }
 
 impl EventKind {
-    pub const ALL: [EventKind; 10] = [
+    pub const ALL: [EventKind; 11] = [
         EventKind::Scrap,
         EventKind::Harvest,
         EventKind::Anodes,
@@ -32,6 +34,7 @@ impl EventKind {
         EventKind::Setpoint,
         EventKind::Voltage,
         EventKind::Reading,
+        EventKind::KeptMove,
         EventKind::Void,
     ];
 
@@ -46,6 +49,7 @@ impl EventKind {
             EventKind::Setpoint => "setpoint",
             EventKind::Voltage => "voltage",
             EventKind::Reading => "reading",
+            EventKind::KeptMove => "kept_move",
             EventKind::Void => "void",
         }
     }

@@ -2,7 +2,7 @@
 //! cells and the parameters each section runs with, and the rules a layout must obey.
 
 use serde::{Deserialize, Serialize};
-use std::collections::BTreeSet;
+use std::collections::{BTreeMap, BTreeSet};
 
 use super::plant_time::{PlantZone, parse_day_start};
 
@@ -292,6 +292,30 @@ pub struct PlanKeys {
     pub anodes_per_day: Option<u64>,
     pub no_anode_work: Vec<String>,
     pub whole_sections: bool,
+    /// Per circuit: whether anode work on a day its circuit is down for an
+    /// outage is forbidden (the default for a circuit not listed) or preferred.
+    pub outage_anode_work: BTreeMap<String, OutageWork>,
+    /// Crane lifts a shift can make (`None`: no limit).
+    pub crane_lifts_per_shift: Option<u32>,
+    /// Crane lifts an anode change takes (spent anodes out, new anodes in).
+    pub lifts_per_anode_change: u32,
+    /// Crane lifts a harvest takes (cathodes out, blanks back in).
+    pub lifts_per_harvest: u32,
+    /// A crop pulled with the anodes lighter than this fraction of
+    /// `cathode_target_kg` is warned about on the plan.
+    pub light_crop_fraction: f64,
+}
+
+/// Anode work on a circuit's outage days.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "lowercase")]
+pub enum OutageWork {
+    /// No anode work in the circuit's cells while it is down (lock-out of a
+    /// circuit being worked on, its crane taken up).
+    #[default]
+    Forbidden,
+    /// The cells are out of circuit anyway: change anodes then, if the window allows.
+    Preferred,
 }
 
 impl Default for PlanKeys {
@@ -307,6 +331,14 @@ impl Default for PlanKeys {
             anodes_per_day: None,
             no_anode_work: Vec::new(),
             whole_sections: false,
+            outage_anode_work: BTreeMap::new(),
+            crane_lifts_per_shift: None,
+            // common practice, no source: one lift takes the spent anodes out, one sets the new ones;
+            // a harvest lifts the cathodes out and the stripped blanks back in
+            lifts_per_anode_change: 2,
+            lifts_per_harvest: 2,
+            // the issue's default: a last crop under 60 % of the target is light (common practice, no source)
+            light_crop_fraction: 0.6,
         }
     }
 }
@@ -464,6 +496,22 @@ pub fn parse(text: &str) -> Result<Layout, LayoutError> {
             err(header_line(text, "no_anode_work", 0), "plan.no_anode_work".into(), format!("'{d}' is not a date (YYYY-MM-DD)"))
         })?;
     }
+    let plan_err = |key: &str, message: String| err(header_line(text, key, 0), format!("plan.{key}"), message);
+    if file.plan.crane_lifts_per_shift == Some(0) {
+        return Err(plan_err("crane_lifts_per_shift", "0 lifts a shift leaves no crane for anode changes or harvests".into()));
+    }
+    for (key, v) in [("lifts_per_anode_change", file.plan.lifts_per_anode_change), ("lifts_per_harvest", file.plan.lifts_per_harvest)] {
+        if v == 0 {
+            return Err(plan_err(key, "a job takes at least one crane lift".into()));
+        }
+    }
+    let f = file.plan.light_crop_fraction;
+    if !(f > 0.0 && f <= 1.0) {
+        return Err(plan_err("light_crop_fraction", format!("{f} is not a fraction of the target: give a number above 0, at most 1")));
+    }
+    if let Some(name) = file.plan.outage_anode_work.keys().find(|n| !file.circuit.iter().any(|c| &c.name == *n)) {
+        return Err(plan_err("outage_anode_work", format!("unknown circuit {name}: it is not in the layout")));
+    }
     if file.store.keep_backups == 0 {
         return Err(err(
             header_line(text, "keep_backups", 0),
@@ -620,5 +668,27 @@ anode_kind = "inert"
         assert_eq!((e.field.as_str(), e.line), ("store.keep_backups", Some(6)), "{e}");
         let typo = GOOD.replace("[defaults]", "[store]\nkeep_backup = 3\n[defaults]");
         assert!(parse(&typo).unwrap_err().message.contains("keep_backup"));
+    }
+
+    #[test]
+    fn plan_keys_for_outages_crane_and_light_crops() {
+        let l = parse(GOOD).unwrap();
+        assert_eq!(l.plan.outage_anode_work.get("C1"), None);
+        assert_eq!((l.plan.crane_lifts_per_shift, l.plan.lifts_per_anode_change, l.plan.lifts_per_harvest), (None, 2, 2));
+        let keys = "[plan]\ncrane_lifts_per_shift = 30\nlifts_per_harvest = 3\nlight_crop_fraction = 0.5\n\
+                    [plan.outage_anode_work]\nC1 = \"preferred\"\n[defaults]";
+        let l = parse(&GOOD.replace("[defaults]", keys)).unwrap();
+        assert_eq!(l.plan.outage_anode_work.get("C1"), Some(&OutageWork::Preferred));
+        assert_eq!((l.plan.crane_lifts_per_shift, l.plan.lifts_per_harvest, l.plan.light_crop_fraction), (Some(30), 3, 0.5));
+        for (bad, field) in [
+            ("[plan.outage_anode_work]\nC9 = \"preferred\"", "plan.outage_anode_work"),
+            ("[plan.outage_anode_work]\nC1 = \"sometimes\"", "toml"),
+            ("[plan]\ncrane_lifts_per_shift = 0", "plan.crane_lifts_per_shift"),
+            ("[plan]\nlifts_per_anode_change = 0", "plan.lifts_per_anode_change"),
+            ("[plan]\nlight_crop_fraction = 1.5", "plan.light_crop_fraction"),
+        ] {
+            let e = parse(&GOOD.replace("[defaults]", &format!("{bad}\n[defaults]"))).unwrap_err();
+            assert_eq!(e.field, field, "{bad}: {e}");
+        }
     }
 }

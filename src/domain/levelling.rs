@@ -45,6 +45,9 @@ pub struct Task {
     /// Section changed together: all tasks with the same `Some(g)` are
     /// placed on one common day or are all unplaced.
     pub group: Option<u32>,
+    /// Days of the horizon on which this task may not be done although the
+    /// crew works (its own circuit is down for an outage), in any order.
+    pub days_off: Vec<usize>,
 }
 
 /// What the tankhouse can do on each day of the horizon.
@@ -503,13 +506,13 @@ fn build_items(tasks: &[Task], order: &[usize], crew: &[u32], we: i128, wl: i128
             excluded.push((members, Unplaced::WindowOutsideHorizon));
             continue;
         }
-        let window = crew.get(lo..=hi).unwrap_or(&[]);
-        if window.iter().all(|&c| c == 0) {
+        let off = |d: usize| members.iter().any(|&i| tasks[i].days_off.contains(&d));
+        if (lo..=hi).all(|d| crew.get(d).is_none_or(|&c| c == 0) || off(d)) {
             excluded.push((members, Unplaced::NoWorkingDayInWindow));
             continue;
         }
         let size = members.len() as u64;
-        let days: Vec<usize> = (lo..=hi).filter(|&d| crew.get(d).is_some_and(|&c| u64::from(c) >= size)).collect();
+        let days: Vec<usize> = (lo..=hi).filter(|&d| !off(d) && crew.get(d).is_some_and(|&c| u64::from(c) >= size)).collect();
         if days.is_empty() {
             excluded.push((members, Unplaced::NoCrewCapacity));
             continue;
@@ -1476,7 +1479,7 @@ mod tests {
     use proptest::prelude::*;
 
     fn task(cell: &str, earliest: usize, latest: usize, ideal: usize) -> Task {
-        Task { cell: cell.to_string(), earliest, latest, ideal, anodes: 50, group: None }
+        Task { cell: cell.to_string(), earliest, latest, ideal, anodes: 50, group: None, days_off: Vec::new() }
     }
 
     fn unlimited(crew: Vec<u32>) -> Capacity {
@@ -1700,6 +1703,7 @@ mod tests {
                                 (true, 3) => Some(9),
                                 _ => None,
                             },
+                            days_off: Vec::new(),
                         })
                         .collect();
                     let cap = Capacity { crew, anode_stock, anodes_per_day };
@@ -1825,11 +1829,27 @@ mod tests {
                         ideal,
                         anodes: a,
                         group: (g < 3 * groups).then_some(g / 3),
+                        days_off: Vec::new(),
                     })
                     .collect();
                 let cap = Capacity { crew: crew[..h].to_vec(), anode_stock: stock, anodes_per_day: supply[..h].to_vec() };
                 (tasks, cap)
             })
+    }
+
+    #[test]
+    fn days_off_are_never_used_and_other_tasks_keep_the_day() {
+        // Two cells ideal on day 1, crew 2 a day; A's circuit is down on day 1 (a day off for A only).
+        // By hand: B stays on day 1 (cost 0); A goes a day early to day 0 (cost 1, cheaper than 3 late).
+        let a = Task { days_off: vec![1], ..task("A", 0, 3, 1) };
+        let out = level(&[a.clone(), task("B", 0, 3, 1)], &unlimited(vec![2, 2, 2, 2]), W13).unwrap();
+        assert_eq!(out.day, vec![Some(0), Some(1)]);
+        assert!(out.exact);
+        // every day of A's window off: no working day in the window, B unaffected
+        let off = Task { days_off: vec![0, 1, 2, 3], ..a };
+        let out = level(&[off, task("B", 0, 3, 1)], &unlimited(vec![2, 2, 2, 2]), W13).unwrap();
+        assert_eq!(out.day, vec![None, Some(1)]);
+        assert_eq!(out.unplaced, vec![(0, Unplaced::NoWorkingDayInWindow)]);
     }
 
     #[test]

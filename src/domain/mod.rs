@@ -16,5 +16,7 @@ pub mod levelling;
 pub mod outlook;
 pub mod patrol;
 pub mod plan;
+pub mod plan_diff;
 pub mod plant_time;
 pub mod shift;
+pub mod smoothing;

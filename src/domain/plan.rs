@@ -21,11 +21,15 @@
 //!    their target mass. Work whose due time has already passed is overdue and
 //!    is planned from the first day.
 //! 2. **Levelling** ([`plan`]): anode changes go through
-//!    [`levelling::level`] (crew per day, days without anode work, anode
-//!    supply, whole sections as groups), then the hand moves are applied to
-//!    the levelled plan one by one and each is re-checked. Harvests are
-//!    levelled next against the stripping machine, with the last crop of each
-//!    cycle fixed to its anode-change day.
+//!    [`levelling::level`] (crew per day, days without anode work, each
+//!    circuit's own outage days, anode supply, crane lifts, whole sections as
+//!    groups), then the kept moves (recorded decisions) and the hand moves are
+//!    applied to the levelled plan one by one and each is re-checked. Harvests
+//!    are levelled next against the stripping machine and the crane lifts
+//!    left, with the last crop of each cycle fixed to its anode-change day,
+//!    then smoothed inside their windows ([`smoothing::smooth`]). Anode
+//!    deliveries are levelled under the daily preparation limit
+//!    ([`smoothing::deliveries`]), giving each day's stock line.
 //! 3. **Prediction**: every planned job is given the instant of its day nearest
 //!    its due time (never before now), and the anode fraction, scrap and
 //!    cathode mass are predicted there on the same curve.
@@ -37,9 +41,11 @@ use std::collections::{BTreeMap, HashMap};
 use super::anode::AnodeLoad;
 use super::charge::{Curve, OpenSpan, Span, Time, cell_charge, cell_time_reaching};
 use super::forecast::CellInput;
-use super::layout::AnodeKind;
+use super::layout::{AnodeKind, OutageWork};
 use super::levelling::{self, Capacity, LevelError, Task, Unplaced, Weights};
+use super::plan_diff::PlanDiff;
 use super::plant_time::ProductionDays;
+use super::smoothing::{self, DayLimits, Placed};
 
 /// The caution every plan carries (DOMAIN.md, "Cautions the tool must carry").
 pub const ADVISORY: &str = "This plan is advisory: it is predicted from the logged current and the layout's rules and does not \
@@ -132,11 +138,28 @@ pub struct Rules {
     /// Production days without anode work.
     pub no_anode_work: Vec<NaiveDate>,
     /// Logged outages (past and planned), by circuit name: a production day
-    /// that overlaps one has no anode work anywhere, because the plant's one
-    /// crew and its cranes are taken up by the outage.
+    /// that overlaps one concerns only that circuit's cells (see `outage_work`).
     pub outages: Vec<(String, Span)>,
+    /// Per circuit: anode work on its outage days is forbidden (a circuit not
+    /// listed) or preferred (the window's outage day nearest the ideal becomes the ideal).
+    pub outage_work: BTreeMap<String, OutageWork>,
     /// Change each section's cells on one common day.
     pub whole_sections: bool,
+    /// The crane-lift budget (`None`: no limit).
+    pub crane: Option<Crane>,
+    /// Level the harvests' daily cathodes after the cap-only levelling (see [`plan`]).
+    pub smooth_harvests: bool,
+    /// A crop pulled with the anodes lighter than this fraction of its
+    /// `cathode_target_kg` is warned about.
+    pub light_crop_fraction: f64,
+}
+
+/// The crane-lift budget of a shift and what each job takes of it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Crane {
+    pub lifts_per_shift: u32,
+    pub per_anode_change: u32,
+    pub per_harvest: u32,
 }
 
 impl Rules {
@@ -162,6 +185,32 @@ pub struct PlanInput {
     pub cells: Vec<CellInput>,
     /// Hand moves of a cell's anode change to another day, applied in order.
     pub moves: Vec<(String, NaiveDate)>,
+    /// Recorded decisions, oldest first: each moves the cell's first change
+    /// in the plan while that is feasible, and is dropped with the reason otherwise.
+    pub kept: Vec<KeptMove>,
+}
+
+/// A hand move recorded in the event log (`plan --move CELL=DATE --keep`).
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct KeptMove {
+    pub cell: String,
+    pub date: NaiveDate,
+    /// Initials of who kept it.
+    pub by: String,
+    /// The event log entry that records it (`undo` takes it back).
+    pub entry: i64,
+    /// `false`: its date lies after the plan's last day, so this plan does not show it.
+    pub applied: bool,
+}
+
+/// A recorded decision that the plan could not apply.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct DroppedMove {
+    pub cell: String,
+    pub date: NaiveDate,
+    pub by: String,
+    pub entry: i64,
+    pub reason: String,
 }
 
 /// When a change is due, on the days of the plan.
@@ -429,6 +478,8 @@ pub struct Harvest {
     pub window: Window,
     /// The crop the anode change pulls (fixed to the change's day).
     pub with_anode_change: bool,
+    /// Pulled with the anodes below `light_crop_fraction` of the target mass (see `warnings`).
+    pub light: bool,
 }
 
 /// A job the plan could not place.
@@ -445,11 +496,46 @@ pub struct UnplacedJob {
     pub overdue: bool,
 }
 
-/// A shift's share of the day's anode changes.
+/// A shift's share of the day's anode changes and harvests.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub struct ShiftLoad {
+    /// Anode changes.
     pub load: u32,
+    /// The shift's share of the day's crew capacity.
     pub capacity: u32,
+    pub harvests: u32,
+    /// Crane lifts of its changes (with the crops they pull) and harvests; `None` without a crane budget.
+    pub crane_lifts: Option<u32>,
+}
+
+/// What held a day's work back: a job wanted the day and this was full.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Bound {
+    Crew,
+    Stripping,
+    Anodes,
+    Crane,
+}
+
+/// An outage overlapping a production day.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct DayOutage {
+    pub circuit: String,
+    pub from: Time,
+    pub to: Time,
+    /// Anode work in the circuit's cells that day.
+    pub anode_work: OutageWork,
+}
+
+/// Something the foreman should look at before following the plan.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PlanWarning {
+    /// `light_last_crop`.
+    pub kind: &'static str,
+    pub cell: String,
+    pub date: NaiveDate,
+    pub message: String,
 }
 
 /// One production day of the plan.
@@ -457,8 +543,10 @@ pub struct ShiftLoad {
 pub struct PlanDay {
     pub date: NaiveDate,
     pub starts_at: Time,
-    /// Why there is no anode work this day (`None`: there is).
+    /// Why there is no anode work this day anywhere (`None`: there is, at least in some circuits).
     pub no_anode_work: Option<String>,
+    /// Outages overlapping the day: anode work in that circuit is forbidden or preferred.
+    pub outages: Vec<DayOutage>,
     pub anode_changes: Vec<AnodeChange>,
     pub harvests: Vec<Harvest>,
     pub anodes_needed: u64,
@@ -471,6 +559,15 @@ pub struct PlanDay {
     pub shifts: Vec<ShiftLoad>,
     pub harvest_cathodes: u64,
     pub harvest_capacity: u32,
+    /// New anodes left after the day's changes (`None`: the supply is not limited).
+    pub anode_stock: Option<u64>,
+    /// New anodes to deliver that day, levelled under `anodes_per_day` (`None`: not limited).
+    pub anodes_delivered: Option<u64>,
+    /// Crane lifts of the day's jobs, and the day's budget (`None`: no crane budget).
+    pub crane_lifts: Option<u32>,
+    pub crane_capacity: Option<u32>,
+    /// The constraint that kept a job off this day (`None`: none did).
+    pub bound_by: Option<Bound>,
 }
 
 /// The plan.
@@ -487,7 +584,16 @@ pub struct Plan {
     pub exact: bool,
     /// The harvests are proven optimal (see [`plan`]).
     pub harvests_exact: bool,
+    /// Harvests the smoothing moved to another day of their window.
+    pub harvests_smoothed: usize,
     pub shifts_per_day: u32,
+    /// Recorded moves this plan applies (or whose date lies after it).
+    pub kept_moves: Vec<KeptMove>,
+    /// Recorded moves this plan could not apply, with the reason.
+    pub dropped_moves: Vec<DroppedMove>,
+    pub warnings: Vec<PlanWarning>,
+    /// What changed since the last approved plan (`None`: no plan approved yet).
+    pub since_approved: Option<PlanDiff>,
     pub advisory: &'static str,
 }
 
@@ -588,28 +694,65 @@ fn remaining_supply(stock: u64, per_day: &[u64], used: &[u64]) -> (u64, Vec<u64>
     (0, per)
 }
 
-/// A day's crew capacity split over the shifts (the first shifts take the remainder)
-/// and its changes filled in shift order.
-fn shift_loads(load: u32, capacity: u32, shifts: u32) -> Vec<ShiftLoad> {
-    if shifts <= 1 {
-        return Vec::new();
-    }
-    let mut left = load;
+/// A day's crew capacity split over the shifts (the first shifts take the
+/// remainder) and its changes filled in shift order; `with_crop[k]` says
+/// whether the k-th change pulls a crop (its lifts count then too). With a
+/// crane budget the day's capacity is at most the shifts times the changes
+/// one shift can lift, so no shift's share is more than that.
+fn fill_changes(with_crop: &[bool], capacity: u32, shifts: u32, crane: Option<Crane>) -> Vec<ShiftLoad> {
+    let shifts = shifts.max(1);
+    let mut rest = with_crop.iter();
     (0..shifts)
         .map(|s| {
             let cap = capacity / shifts + u32::from(s < capacity % shifts);
-            let l = left.min(cap);
-            left -= l;
-            ShiftLoad { load: l, capacity: cap }
+            let mine: Vec<bool> = rest.by_ref().take(cap as usize).copied().collect();
+            let lifts = crane.map(|c| mine.iter().map(|&crop| c.per_anode_change + if crop { c.per_harvest } else { 0 }).sum());
+            ShiftLoad { load: mine.len() as u32, capacity: cap, harvests: 0, crane_lifts: lifts }
         })
         .collect()
+}
+
+/// Harvests the crane can still take over the day's shifts.
+fn harvest_room(shifts: &[ShiftLoad], crane: Option<Crane>) -> u32 {
+    match crane {
+        None => u32::MAX,
+        Some(c) => shifts.iter().map(|s| c.lifts_per_shift.saturating_sub(s.crane_lifts.unwrap_or(0)) / c.per_harvest).sum(),
+    }
+}
+
+/// Puts `k` harvests into the shifts, each into the first shift with the
+/// lifts left for it; without a crane budget, evenly (the first shifts take the remainder).
+fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
+    if crane.is_none() {
+        let n = shifts.len() as u32;
+        for (i, s) in shifts.iter_mut().enumerate() {
+            s.harvests = k / n.max(1) + u32::from((i as u32) < k % n.max(1));
+        }
+        return;
+    }
+    for _ in 0..k {
+        let fits = |s: &ShiftLoad| crane.is_none_or(|c| s.crane_lifts.unwrap_or(0) + c.per_harvest <= c.lifts_per_shift);
+        if let Some(s) = shifts.iter_mut().find(|s| fits(s)) {
+            s.harvests += 1;
+            if let (Some(c), Some(l)) = (crane, s.crane_lifts.as_mut()) {
+                *l += c.per_harvest;
+            }
+        }
+    }
 }
 
 /// Makes the plan.
 ///
 /// Guaranteed: no day's anode changes exceed its crew capacity (0 on a day
 /// without anode work; otherwise `crew_cells_per_day`, and never more than the
-/// stripping machine can take of the crops those changes pull); the cumulative
+/// stripping machine can take of the crops those changes pull, nor than the
+/// shifts' crane lifts allow with each change lifting its crop too); no
+/// change of a circuit whose anode work is forbidden during outages is on a
+/// day that overlaps one of its outages (other circuits' cells keep working;
+/// a day is without anode work for all only when every circuit is down, or
+/// it is a `no_anode_work` date); no shift's crane lifts exceed
+/// `lifts_per_shift` (changes fill the shifts in order, harvests go to the
+/// first shift with lifts left); the cumulative
 /// anode supply is never overdrawn; no day's harvests exceed
 /// `harvest_cathodes_per_day` cathodes; every anode change whose window starts
 /// inside the horizon is placed inside its window or listed in `unplaced` with
@@ -636,6 +779,25 @@ fn shift_loads(load: u32, capacity: u32, shifts: u32) -> Vec<ShiftLoad> {
 /// capacity, harvests left over are then fitted into the cathodes still free,
 /// cheapest day first, and no optimality is claimed.
 ///
+/// With `smooth_harvests`, the capped harvests are then moved one at a time
+/// to another day of their window while that lowers the sum of squared daily
+/// cathodes (ties: while it lowers the distance from the due days), within
+/// the same cathode and crane limits: never a harvest more unplaced, never a
+/// spread worse than the capped plan's; `harvests_exact` is then true only if
+/// nothing moved.
+///
+/// Kept moves (recorded decisions, oldest first) move the cell's first change
+/// in the plan under the same checks as a hand move; one that fails is listed
+/// in `dropped_moves` with the reason instead of failing the plan, and one
+/// whose cell also has a hand move is overridden by it.
+///
+/// Each day's `bound_by` names the limit that kept a job off it: a change
+/// levelled away from its ideal day (or unplaced) marks the days between, and
+/// the day is bound by what set its change capacity (crew, stripping machine
+/// or crane) when full, else by the anodes; otherwise a harvest displaced in
+/// the capped levelling marks them, bound by the stripping machine when it
+/// cannot take that harvest, or the crane when its lifts are used up.
+///
 /// Anode changes are levelled over the plan and [`LOOKAHEAD_DAYS`] after it;
 /// one levelled to a day after the plan is listed as [`Reason::AfterHorizon`].
 pub fn plan<C: Curve>(input: &PlanInput, curves: &HashMap<String, C>) -> Result<Plan, PlanError<C::Error>>
@@ -661,6 +823,31 @@ where
         outlooks.push(o);
     }
 
+    if let Some(c) = rules.crane
+        && c.lifts_per_shift < c.per_anode_change + c.per_harvest
+    {
+        return Err(PlanError::Rule {
+            key: "crane_lifts_per_shift",
+            message: format!(
+                "{} lifts a shift cannot lift one anode change with the crop it pulls ({} + {} lifts)",
+                c.lifts_per_shift, c.per_anode_change, c.per_harvest
+            ),
+        });
+    }
+    // Each circuit's outage days, over the plan and the look-ahead after it.
+    let span_days = n + LOOKAHEAD_DAYS;
+    let work_of = |circuit: &str| rules.outage_work.get(circuit).copied().unwrap_or_default();
+    let mut down: HashMap<&str, Vec<usize>> = HashMap::new();
+    let mut day_outages: Vec<Vec<DayOutage>> = vec![Vec::new(); span_days];
+    for (circuit, s) in &rules.outages {
+        for (d, list) in day_outages.iter_mut().enumerate() {
+            if s.from < cal.start(d + 1) && s.to > cal.start(d) {
+                down.entry(circuit.as_str()).or_default().push(d);
+                list.push(DayOutage { circuit: circuit.clone(), from: s.from, to: s.to, anode_work: work_of(circuit) });
+            }
+        }
+    }
+
     let mut jobs: Vec<ChangeJob> = Vec::new();
     let mut groups: BTreeMap<(&str, &str, usize), u32> = BTreeMap::new();
     for (ci, o) in outlooks.iter().enumerate() {
@@ -676,35 +863,71 @@ where
             } else {
                 None
             };
+            let (earliest, latest, mut ideal) = (to_day(ch.earliest), to_day(ch.latest), to_day(ch.ideal));
+            let outage_days = down.get(c.circuit.as_str()).cloned().unwrap_or_default();
+            let days_off = match work_of(&c.circuit) {
+                OutageWork::Forbidden => outage_days,
+                OutageWork::Preferred => {
+                    // the cells are out of circuit anyway: the window's outage day nearest the ideal becomes the ideal
+                    let near =
+                        outage_days.iter().copied().filter(|d| (earliest..=latest).contains(d)).min_by_key(|d| (d.abs_diff(ideal), *d));
+                    ideal = near.unwrap_or(ideal);
+                    Vec::new()
+                }
+            };
             jobs.push(ChangeJob {
                 cell: ci,
                 cycle: k,
                 task: Task {
                     cell: format!("{}#{k:03}", c.cell),
-                    earliest: to_day(ch.earliest),
-                    latest: to_day(ch.latest),
-                    ideal: to_day(ch.ideal),
+                    earliest,
+                    latest,
+                    ideal,
                     anodes: c.params.anodes_per_cell,
                     group,
+                    days_off,
                 },
             });
         }
     }
-    // Days without anode work, and the crew capacity of the others.
-    let horizon = jobs.iter().map(|j| j.task.latest.saturating_add(1)).max().unwrap_or(n).clamp(n, n + LOOKAHEAD_DAYS);
+    // Days without anode work anywhere: the layout's dates, and days on which
+    // every circuit with cells is down with anode work forbidden.
+    let horizon = jobs.iter().map(|j| j.task.latest.saturating_add(1)).max().unwrap_or(n).clamp(n, span_days);
+    let mut circuits: Vec<&str> = cells.iter().map(|c| c.circuit.as_str()).collect();
+    circuits.sort_unstable();
+    circuits.dedup();
     let mut blocked: Vec<Option<String>> = vec![None; horizon];
     for (d, b) in blocked.iter_mut().enumerate() {
-        let (a, z) = (cal.start(d), cal.start(d + 1));
         if rules.no_anode_work.contains(&cal.date(d as i64)) {
             *b = Some("no anode work (layout no_anode_work)".to_string());
-        } else if let Some((circuit, s)) = rules.outages.iter().find(|(_, s)| s.from < z && s.to > a) {
-            // on the plant's clock, as the foreman typed the outage
-            *b = Some(format!("outage on {circuit} from {} to {}", cal.days.zone.show(s.from), cal.days.zone.show(s.to)));
+            continue;
+        }
+        let forbidden: Vec<&DayOutage> = day_outages[d].iter().filter(|o| o.anode_work == OutageWork::Forbidden).collect();
+        if !circuits.is_empty() && circuits.iter().all(|c| forbidden.iter().any(|o| o.circuit == *c)) {
+            let why: Vec<String> = forbidden
+                .iter()
+                .map(|o| {
+                    // on the plant's clock, as the foreman typed the outage
+                    format!("outage on {} from {} to {}", o.circuit, cal.days.zone.show(o.from), cal.days.zone.show(o.to))
+                })
+                .collect();
+            *b = Some(why.join("; "));
         }
     }
     let max_cathodes = jobs.iter().map(|j| cells[j.cell].params.cathodes_per_cell).max().unwrap_or(1).max(1);
     let strip_cells = rules.harvest_cathodes_per_day / max_cathodes;
-    let crew: Vec<u32> = blocked.iter().map(|b| if b.is_some() { 0 } else { rules.crew_cells_per_day.min(strip_cells) }).collect();
+    let shifts = rules.shifts_per_day.max(1);
+    let crane_cells = rules.crane.map_or(u32::MAX, |c| shifts.saturating_mul(c.lifts_per_shift / (c.per_anode_change + c.per_harvest)));
+    let day_cap = rules.crew_cells_per_day.min(strip_cells).min(crane_cells);
+    // which limit sets the day's change capacity (the crew's own first)
+    let change_bound = if day_cap == rules.crew_cells_per_day {
+        Bound::Crew
+    } else if day_cap == strip_cells {
+        Bound::Stripping
+    } else {
+        Bound::Crane
+    };
+    let crew: Vec<u32> = blocked.iter().map(|b| if b.is_some() { 0 } else { day_cap }).collect();
     let (stock, per_day) = rules.supply(horizon);
     let mut by_cell: HashMap<(usize, usize), usize> = HashMap::new();
     for (i, j) in jobs.iter().enumerate() {
@@ -745,13 +968,59 @@ where
         for (t, u) in &out.unplaced {
             let task = &tasks[*t];
             // a day the earlier cycles filled is a full day, not a day without anode work
-            let worked = (task.earliest..=task.latest.min(horizon - 1)).any(|d| crew[d] > 0);
+            let worked = (task.earliest..=task.latest.min(horizon - 1)).any(|d| crew[d] > 0 && !task.days_off.contains(&d));
             let u = if *u == Unplaced::NoWorkingDayInWindow && worked { Unplaced::NoCrewCapacity } else { *u };
             slot[these[*t]] = Slot::Out(reason_of(u, false));
         }
         (stock_left, per_day_left) = remaining_supply(stock_left, &per_day_left, &used);
     }
-    apply_moves(input, &jobs, &mut slot, &crew, stock, &per_day, &by_cell)?;
+    // Recorded decisions first (oldest first), then this command's hand moves.
+    let mv = Moves { input, jobs: &jobs, crew: &crew, stock, per_day: &per_day, by_cell: &by_cell };
+    let mut seen: Vec<usize> = Vec::new();
+    let (mut kept_moves, mut dropped_moves) = (Vec::new(), Vec::new());
+    for k in &input.kept {
+        let drop = |reason: String| DroppedMove { cell: k.cell.clone(), date: k.date, by: k.by.clone(), entry: k.entry, reason };
+        if input.moves.iter().any(|(c, _)| *c == k.cell) {
+            dropped_moves.push(drop("overridden by a --move of the same cell in this command".to_string()));
+            continue;
+        }
+        if (k.date - cal.from).num_days() >= n as i64 {
+            kept_moves.push(KeptMove { applied: false, ..k.clone() });
+            continue;
+        }
+        match mv.apply(&mut slot, &mut seen, &k.cell, k.date, true) {
+            Ok(()) => kept_moves.push(KeptMove { applied: true, ..k.clone() }),
+            Err(reason) => dropped_moves.push(drop(reason)),
+        }
+    }
+    for (cell, date) in &input.moves {
+        mv.apply(&mut slot, &mut seen, cell, *date, false).map_err(|message| PlanError::Move {
+            cell: cell.clone(),
+            date: *date,
+            message,
+        })?;
+    }
+
+    // The day's changes in shifts, and the crane lifts they leave for harvests.
+    let pulls_crop = |i: usize| outlooks[jobs[i].cell].cycles[jobs[i].cycle].last_crop_from.is_some();
+    let mut with_crop: Vec<Vec<(String, bool)>> = vec![Vec::new(); n];
+    for (i, s) in slot.iter().enumerate() {
+        if let Slot::Day(d, _) = *s
+            && d < n
+        {
+            with_crop[d].push((jobs[i].task.cell.clone(), pulls_crop(i)));
+        }
+    }
+    let mut day_shifts: Vec<Vec<ShiftLoad>> = with_crop
+        .iter_mut()
+        .enumerate()
+        .map(|(d, list)| {
+            list.sort();
+            let crops: Vec<bool> = list.iter().map(|x| x.1).collect();
+            fill_changes(&crops, crew[d], shifts, rules.crane)
+        })
+        .collect();
+    let crane_harvests: Vec<u32> = day_shifts.iter().map(|s| harvest_room(s, rules.crane)).collect();
 
     // Harvests: the crops pulled with the changes are fixed; the others level.
     let change_day = |ci: usize, k: usize| -> Option<Option<usize>> {
@@ -804,6 +1073,7 @@ where
                     ideal: to_day(ideal),
                     anodes: 0,
                     group: None,
+                    days_off: Vec::new(),
                 };
                 floating.push((crop, task));
             }
@@ -831,7 +1101,7 @@ where
     let widest = counts.iter().copied().max().unwrap_or(1).max(1);
     let htasks: Vec<Task> = floating.iter().map(|f| f.1.clone()).collect();
     let hcap = Capacity {
-        crew: used.iter().map(|u| (strip.saturating_sub(*u) / u64::from(widest)) as u32).collect(),
+        crew: used.iter().zip(&crane_harvests).map(|(u, k)| ((strip.saturating_sub(*u) / u64::from(widest)) as u32).min(*k)).collect(),
         anode_stock: u64::MAX,
         anodes_per_day: vec![0; n],
     };
@@ -840,12 +1110,14 @@ where
     for (i, u) in &hout.unplaced {
         hslot[*i] = Slot::Out(reason_of(*u, true));
     }
+    let mut harvests_on = vec![0u32; n];
     for (i, s) in hslot.iter().enumerate() {
         if let Slot::Day(d, _) = s {
             used[*d] += u64::from(counts[i]);
+            harvests_on[*d] += 1;
         }
     }
-    // Fit what is left into the cathodes still free, cheapest day first.
+    // Fit what is left into the cathodes and crane lifts still free, cheapest day first.
     for i in 0..hslot.len() {
         if !matches!(hslot[i], Slot::Out(Reason::NoStrippingCapacity)) {
             continue;
@@ -856,14 +1128,94 @@ where
             if d < t.ideal { (t.ideal - d) as f64 * HARVEST_WEIGHTS.early } else { (d - t.ideal) as f64 * HARVEST_WEIGHTS.late }
         };
         days.sort_by(|a, b| cost(*a).total_cmp(&cost(*b)).then(a.cmp(b)));
-        if let Some(d) = days.into_iter().find(|d| used[*d] + u64::from(counts[i]) <= strip) {
+        if let Some(d) = days.into_iter().find(|d| used[*d] + u64::from(counts[i]) <= strip && harvests_on[*d] < crane_harvests[*d]) {
             used[d] += u64::from(counts[i]);
+            harvests_on[d] += 1;
             hslot[i] = Slot::Day(d, false);
         }
     }
     // Every harvest on its due day is optimal whatever the cathode counts.
     let all_due = hslot.iter().zip(&floating).all(|(s, f)| *s == Slot::Day(f.1.ideal, false));
-    let harvests_exact = all_due || (hout.exact && counts.iter().all(|c| *c == widest));
+    let capped_exact = all_due || (hout.exact && counts.iter().all(|c| *c == widest));
+    // Days a job wanted and did not get (from the capped plan, before smoothing):
+    // between its ideal day and the day it got, or its whole window when unplaced.
+    let mut wanted_change = vec![false; n];
+    let mut wanted_harvest: Vec<Option<u64>> = vec![None; n];
+    let mark = |flags: &mut dyn FnMut(usize), t: &Task, got: Option<usize>| {
+        let ideal = t.ideal.clamp(t.earliest, t.latest);
+        let days = match got {
+            Some(d) if d > ideal => ideal..d,
+            Some(d) => d + 1..ideal + 1,
+            None => t.earliest..t.latest.saturating_add(1),
+        };
+        for d in days.filter(|d| *d < n && !t.days_off.contains(d)) {
+            flags(d);
+        }
+    };
+    for (i, s) in slot.iter().enumerate() {
+        match *s {
+            Slot::Day(d, false) => mark(&mut |x| wanted_change[x] = true, &jobs[i].task, Some(d)),
+            Slot::Out(Reason::NoCrewCapacity | Reason::NoAnodes) => mark(&mut |x| wanted_change[x] = true, &jobs[i].task, None),
+            _ => {}
+        }
+    }
+    for (i, s) in hslot.iter().enumerate() {
+        let c = u64::from(counts[i]);
+        let mut flag = |x: usize| wanted_harvest[x] = Some(wanted_harvest[x].map_or(c, |m: u64| m.min(c)));
+        match *s {
+            Slot::Day(d, _) => mark(&mut flag, &floating[i].1, Some(d)),
+            Slot::Out(_) => mark(&mut flag, &floating[i].1, None),
+        }
+    }
+    // Smoothing: harvests move inside their windows to even out the daily cathodes.
+    let mut harvests_smoothed = 0;
+    if rules.smooth_harvests {
+        let mut placed: Vec<(usize, Placed)> = hslot
+            .iter()
+            .enumerate()
+            .filter_map(|(i, s)| match *s {
+                Slot::Day(day, _) => {
+                    let t = &floating[i].1;
+                    let p =
+                        Placed { day, earliest: t.earliest, latest: t.latest.min(n - 1), ideal: t.ideal, cathodes: u64::from(counts[i]) };
+                    Some((i, p))
+                }
+                Slot::Out(_) => None,
+            })
+            .collect();
+        let mut ps: Vec<Placed> = placed.iter().map(|x| x.1).collect();
+        let limits = DayLimits { cathodes: vec![strip; n], harvests: crane_harvests.clone() };
+        harvests_smoothed = smoothing::smooth(&mut ps, &mut used, &mut harvests_on, &limits, HARVEST_WEIGHTS);
+        for ((i, _), p) in placed.iter_mut().zip(&ps) {
+            hslot[*i] = Slot::Day(p.day, false);
+        }
+    }
+    let harvests_exact = capped_exact && harvests_smoothed == 0;
+    for (d, sh) in day_shifts.iter_mut().enumerate() {
+        fill_harvests(sh, harvests_on[d], rules.crane);
+    }
+    // What held each day back.
+    let supply_limited = rules.anode_stock.is_some() || rules.anodes_per_day.is_some();
+    let change_load: Vec<u32> = with_crop.iter().map(|l| l.len() as u32).collect();
+    let bound_by: Vec<Option<Bound>> = (0..n)
+        .map(|d| {
+            if wanted_change[d] && crew[d] > 0 {
+                return Some(if change_load[d] >= crew[d] {
+                    change_bound
+                } else if supply_limited {
+                    Bound::Anodes
+                } else {
+                    // a whole section did not fit in the crew left
+                    Bound::Crew
+                });
+            }
+            match wanted_harvest[d] {
+                Some(c) if used[d] + c > strip => Some(Bound::Stripping),
+                Some(_) if harvests_on[d] >= crane_harvests[d] => Some(Bound::Crane),
+                _ => None,
+            }
+        })
+        .collect();
 
     // Predictions, day by day.
     let mut days: Vec<PlanDay> = (0..n)
@@ -871,6 +1223,7 @@ where
             date: cal.date(d as i64),
             starts_at: cal.start(d),
             no_anode_work: blocked[d].clone(),
+            outages: day_outages[d].clone(),
             anode_changes: Vec::new(),
             harvests: Vec::new(),
             anodes_needed: 0,
@@ -882,6 +1235,11 @@ where
             shifts: Vec::new(),
             harvest_cathodes: 0,
             harvest_capacity: rules.harvest_cathodes_per_day,
+            anode_stock: None,
+            anodes_delivered: None,
+            crane_lifts: rules.crane.map(|_| day_shifts[d].iter().filter_map(|s| s.crane_lifts).sum()),
+            crane_capacity: rules.crane.map(|c| c.lifts_per_shift.saturating_mul(shifts)),
+            bound_by: bound_by[d],
         })
         .collect();
     let mut out_jobs = Vec::new();
@@ -991,12 +1349,50 @@ where
             at,
             window: p.window,
             with_anode_change: p.with_change,
+            light: false,
         });
+    }
+    // Light last crops: warned, not re-spread (crops_per_anode_cycle spreads a cycle's crops evenly).
+    let mut warnings = Vec::new();
+    let cell_of: HashMap<&str, usize> = cells.iter().enumerate().map(|(i, c)| (c.cell.as_str(), i)).collect();
+    for day in &mut days {
+        for h in day.harvests.iter_mut().filter(|h| h.with_anode_change) {
+            let Some(c) = cell_of.get(h.cell.as_str()).map(|&i| &cells[i]) else { continue };
+            let target = c.params.cathode_target_kg;
+            if c.params.crops_per_anode_cycle.is_none() && h.mass_kg < rules.light_crop_fraction * target {
+                h.light = true;
+                warnings.push(PlanWarning {
+                    kind: "light_last_crop",
+                    cell: h.cell.clone(),
+                    date: day.date,
+                    message: format!(
+                        "the crop pulled with the anodes is light: {:.1} kg a cathode against the {target:.1} kg target \
+                         (below {:.0} %); set crops_per_anode_cycle to split the anode life into equal crops",
+                        h.mass_kg,
+                        rules.light_crop_fraction * 100.0
+                    ),
+                });
+            }
+        }
+    }
+    // The stock line: deliveries levelled under the daily preparation limit.
+    if rules.anode_stock.is_some() || rules.anodes_per_day.is_some() {
+        let (s0, per) = (rules.anode_stock.unwrap_or(0), rules.anodes_per_day.unwrap_or(0));
+        let use_per_day: Vec<u64> = days.iter().map(|d| d.anodes_needed).collect();
+        let delivered = smoothing::deliveries(s0, per, &use_per_day);
+        let mut left = u128::from(s0);
+        for (day, x) in days.iter_mut().zip(delivered) {
+            left = (left + u128::from(x)).saturating_sub(u128::from(day.anodes_needed));
+            day.anodes_delivered = Some(x);
+            day.anode_stock = Some(u64::try_from(left).unwrap_or(u64::MAX));
+        }
     }
     for day in &mut days {
         day.anode_changes.sort_by(|a, b| a.cell.cmp(&b.cell).then(a.cycle.cmp(&b.cycle)));
         day.harvests.sort_by(|a, b| a.cell.cmp(&b.cell).then(a.at.cmp(&b.at)));
-        day.shifts = shift_loads(day.crew_load, day.crew_capacity, rules.shifts_per_day);
+    }
+    for (day, sh) in days.iter_mut().zip(day_shifts) {
+        day.shifts = if shifts > 1 { sh } else { Vec::new() };
     }
     out_jobs.sort_by(|a, b| a.kind.cmp(b.kind).then(a.cell.cmp(&b.cell)).then(a.window.ideal.cmp(&b.window.ideal)));
     let out_of_circuit = cells.iter().zip(&outlooks).filter(|(_, o)| o.out_of_circuit).map(|(c, _)| c.cell.clone()).collect();
@@ -1009,7 +1405,12 @@ where
         out_of_circuit,
         exact,
         harvests_exact,
+        harvests_smoothed,
         shifts_per_day: rules.shifts_per_day,
+        kept_moves,
+        dropped_moves,
+        warnings,
+        since_approved: None,
         advisory: ADVISORY,
     })
 }
@@ -1039,85 +1440,90 @@ fn harvest_message(r: Reason, w: &Window) -> String {
     }
 }
 
-/// Applies the hand moves to the levelled changes, in order, each checked
-/// against the cell's window, the day's crew and the anode supply.
-fn apply_moves<E: std::error::Error + 'static>(
-    input: &PlanInput,
-    jobs: &[ChangeJob],
-    slot: &mut [Slot],
-    crew: &[u32],
+/// What a hand move (or a recorded one) is checked against.
+struct Moves<'a> {
+    input: &'a PlanInput,
+    jobs: &'a [ChangeJob],
+    crew: &'a [u32],
     stock: u64,
-    per_day: &[u64],
-    by_cell: &HashMap<(usize, usize), usize>,
-) -> Result<(), PlanError<E>> {
-    let cal = &input.calendar;
-    let n = cal.len();
-    let mut seen: Vec<usize> = Vec::new();
-    for (cell, date) in &input.moves {
-        let refuse = |message: String| PlanError::Move { cell: cell.clone(), date: *date, message };
-        let Some(ci) = input.cells.iter().position(|c| &c.cell == cell) else {
-            return Err(refuse(format!("unknown cell {cell}")));
+    per_day: &'a [u64],
+    by_cell: &'a HashMap<(usize, usize), usize>,
+}
+
+impl Moves<'_> {
+    /// Moves `cell`'s change onto `date` in the levelled plan, checked
+    /// against the cell's window, its circuit's outages, the day's crew and
+    /// the anode supply; returns why it cannot be made otherwise (and changes
+    /// nothing then). `first_only`: the move is for the cell's first change
+    /// in the plan (a recorded decision); otherwise for whichever of its
+    /// changes has the date in its window.
+    fn apply(&self, slot: &mut [Slot], seen: &mut Vec<usize>, cell: &str, date: NaiveDate, first_only: bool) -> Result<(), String> {
+        let (input, jobs, crew) = (self.input, self.jobs, self.crew);
+        let cal = &input.calendar;
+        let n = cal.len();
+        let Some(ci) = input.cells.iter().position(|c| c.cell == cell) else {
+            return Err(format!("unknown cell {cell}"));
         };
-        let idx = (*date - cal.from).num_days();
+        let idx = (date - cal.from).num_days();
         if idx < 0 || idx >= n as i64 {
-            return Err(refuse(format!("the date is outside the plan ({} to {})", cal.from, cal.date(n as i64 - 1))));
+            return Err(format!("the date is outside the plan ({} to {})", cal.from, cal.date(n as i64 - 1)));
         }
         let d = idx as usize;
-        let mine: Vec<usize> = (0..).map_while(|k| by_cell.get(&(ci, k)).copied()).collect();
+        let mine: Vec<usize> = (0..).map_while(|k| self.by_cell.get(&(ci, k)).copied()).collect();
         let Some(&first) = mine.first() else {
-            let why = if input.cells[ci].params.anode_kind == AnodeKind::Inert {
-                "it has inert anodes, which are not changed"
+            return Err(if input.cells[ci].params.anode_kind == AnodeKind::Inert {
+                "it has inert anodes, which are not changed".to_string()
             } else {
-                "it has no anode change whose window starts inside the plan"
-            };
-            return Err(refuse(why.to_string()));
+                "it has no anode change whose window starts inside the plan".to_string()
+            });
         };
         let clipped = |i: usize| (jobs[i].task.earliest, jobs[i].task.latest.min(n - 1));
-        let Some(i) = mine.iter().copied().find(|&i| {
+        let inside = |i: usize| {
             let (a, z) = clipped(i);
             a <= d && d <= z
-        }) else {
+        };
+        let found = if first_only { inside(first).then_some(first) } else { mine.iter().copied().find(|&i| inside(i)) };
+        let Some(i) = found else {
             let (a, z) = clipped(first);
-            return Err(refuse(format!(
+            return Err(format!(
                 "outside the cell's window ({} to {}, scrap_upper to scrap_lower)",
                 cal.date(a as i64),
                 cal.date(z as i64)
-            )));
+            ));
         };
         if seen.contains(&i) {
-            return Err(refuse("the cell's change is moved twice".to_string()));
+            return Err("the cell's change is moved twice".to_string());
         }
-        seen.push(i);
         if slot[i] == Slot::Out(Reason::EarlierChangeUnplaced) {
-            return Err(refuse("the cell's change before this one is not placed, and this window assumes it".to_string()));
+            return Err("the cell's change before this one is not placed, and this window assumes it".to_string());
         }
         if crew[d] == 0 {
-            return Err(refuse("there is no anode work that day".to_string()));
+            return Err("there is no anode work that day".to_string());
+        }
+        if jobs[i].task.days_off.contains(&d) {
+            return Err(format!("circuit {} is down for an outage that day, and anode work is forbidden then", input.cells[ci].circuit));
         }
         let on_day = (0..jobs.len()).filter(|&k| k != i && matches!(slot[k], Slot::Day(x, _) if x == d)).count();
         if on_day as u32 >= crew[d] {
-            return Err(refuse(format!(
-                "over capacity: the crew is full that day ({on_day} of {} cells); move another cell away first",
-                crew[d]
-            )));
+            return Err(format!("over capacity: the crew is full that day ({on_day} of {} cells); move another cell away first", crew[d]));
         }
         let before = slot[i];
         slot[i] = Slot::Day(d, true);
-        let mut used = vec![0u64; n];
+        let mut used = vec![0u64; self.per_day.len()];
         for (k, s) in slot.iter().enumerate() {
-            // a job levelled past the last day uses no anodes inside the plan
             if let Slot::Day(x, _) = s
                 && let Some(u) = used.get_mut(*x)
             {
                 *u += u64::from(jobs[k].task.anodes);
             }
         }
-        if let Some(short) = overdrawn(stock, per_day, &used) {
+        if let Some(short) = overdrawn(self.stock, self.per_day, &used) {
             slot[i] = before;
-            return Err(refuse(format!("not enough new anodes: the supply runs short on {}", cal.date(short as i64))));
+            return Err(format!("not enough new anodes: the supply runs short on {}", cal.date(short as i64)));
         }
+        seen.push(i);
+        Ok(())
     }
-    Ok(())
 }
 
 #[cfg(test)]
@@ -1176,7 +1582,11 @@ mod tests {
             anodes_per_day: None,
             no_anode_work: Vec::new(),
             outages: Vec::new(),
+            outage_work: BTreeMap::new(),
             whole_sections: false,
+            crane: None,
+            smooth_harvests: true,
+            light_crop_fraction: 0.6,
         }
     }
     /// A plant-check cell (CellParams::default() is the plant check) with a load set at `set_h`.
@@ -1198,7 +1608,7 @@ mod tests {
     }
     fn input(now_h: u32, start: &str, len: usize, rules: Rules, cells: Vec<CellInput>) -> PlanInput {
         let now = at(f64::from(now_h));
-        PlanInput { now, calendar: calendar(start, now, len), rules, cells, moves: Vec::new() }
+        PlanInput { now, calendar: calendar(start, now, len), rules, cells, moves: Vec::new(), kept: Vec::new() }
     }
     fn changes(p: &Plan) -> Vec<(usize, &AnodeChange)> {
         p.days.iter().enumerate().flat_map(|(d, x)| x.anode_changes.iter().map(move |c| (d, c))).collect()
@@ -1485,10 +1895,24 @@ mod tests {
 
     #[test]
     fn shifts_split_the_day() {
-        assert_eq!(shift_loads(5, 8, 2), vec![ShiftLoad { load: 4, capacity: 4 }, ShiftLoad { load: 1, capacity: 4 }]);
-        let caps: Vec<u32> = shift_loads(0, 7, 3).iter().map(|s| s.capacity).collect();
+        let shift = |load, capacity| ShiftLoad { load, capacity, harvests: 0, crane_lifts: None };
+        assert_eq!(fill_changes(&[false; 5], 8, 2, None), vec![shift(4, 4), shift(1, 4)]);
+        let caps: Vec<u32> = fill_changes(&[], 7, 3, None).iter().map(|s| s.capacity).collect();
         assert_eq!(caps, vec![3, 2, 2]);
-        assert!(shift_loads(3, 8, 1).is_empty());
+        assert_eq!(fill_changes(&[false; 3], 8, 1, None), vec![shift(3, 8)]);
+        // with a crane of 9 lifts a shift, 2 a change and 2 a harvest: a change with its crop is 4 lifts,
+        // one without it 2; the 9 − 8 = 1 lift left in the first shift takes no harvest, the 9 − 6 in the
+        // second takes one (by hand)
+        let crane = Some(Crane { lifts_per_shift: 9, per_anode_change: 2, per_harvest: 2 });
+        let mut sh = fill_changes(&[true, true, true, false], 4, 2, crane);
+        assert_eq!(sh.iter().map(|s| s.crane_lifts).collect::<Vec<_>>(), vec![Some(8), Some(6)]);
+        assert_eq!(harvest_room(&sh, crane), 1);
+        fill_harvests(&mut sh, 1, crane);
+        assert_eq!(sh.iter().map(|s| (s.harvests, s.crane_lifts)).collect::<Vec<_>>(), vec![(0, Some(8)), (1, Some(8))]);
+        // without a crane budget the harvests are split evenly over the shifts
+        let mut sh = fill_changes(&[true; 3], 8, 3, None);
+        fill_harvests(&mut sh, 5, None);
+        assert_eq!(sh.iter().map(|s| s.harvests).collect::<Vec<_>>(), vec![2, 2, 1]);
     }
 
     #[test]
@@ -1500,5 +1924,232 @@ mod tests {
         assert_eq!(per, vec![50, 0, 50]);
         assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 201, 0]), Some(1));
         assert_eq!(overdrawn(100, &[50, 50, 50], &[0, 200, 50]), None);
+    }
+
+    /// `flat` on two circuits, C1 and C2.
+    fn flat2(now_h: u32) -> HashMap<String, MemoryCurve> {
+        let mut c = flat(now_h);
+        let one = c["C1"].clone();
+        c.insert("C2".to_string(), one);
+        c
+    }
+    fn on(circuit: &str, id: &str) -> CellInput {
+        CellInput { circuit: circuit.to_string(), ..cell(id, 0.0) }
+    }
+    fn outage_on(circuit: &str, from_h: f64, to_h: f64) -> (String, Span) {
+        (circuit.to_string(), Span { from: at(from_h), to: at(to_h) })
+    }
+    /// Day index of each cell's change.
+    fn change_days(p: &Plan) -> BTreeMap<String, usize> {
+        changes(p).iter().map(|(d, c)| (c.cell.clone(), *d)).collect()
+    }
+
+    #[test]
+    fn an_outage_on_one_circuit_leaves_the_other_circuits_changes_where_they_are() {
+        // Five cells on C1 and five on C2, all set at t0: ideal 451.83 h = 03-19 19:50Z → day 03-18
+        // (days start 20:00; index 8). A 3-h outage on C1 that day (03-19 10:00–13:00Z).
+        let cells: Vec<CellInput> =
+            (1..=5).map(|i| on("C1", &format!("A{i:02}"))).chain((1..=5).map(|i| on("C2", &format!("B{i:02}")))).collect();
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 442.0, 445.0)];
+        let inp = input(240, "20:00", 14, r, cells.clone());
+        let p = plan(&inp, &flat2(240)).unwrap();
+        let days = change_days(&p);
+        // C2's five stay on their ideal day; C1's go a day early (cost 1 each, cheaper than 3 late)
+        for i in 1..=5 {
+            assert_eq!(days[&format!("B{i:02}")], 8, "{days:?}");
+            assert_eq!(days[&format!("A{i:02}")], 7, "{days:?}");
+        }
+        // the day still has anode work (for C2), and says which circuit is down
+        assert_eq!(p.days[8].no_anode_work, None);
+        assert_eq!(p.days[8].outages.len(), 1);
+        assert_eq!((p.days[8].outages[0].circuit.as_str(), p.days[8].outages[0].anode_work), ("C1", OutageWork::Forbidden));
+        assert_eq!(p.days[8].crew_capacity, 10);
+        // a hand move of a C1 cell onto the outage day is refused; a C2 cell may go there
+        let mut m = inp.clone();
+        m.moves = vec![("A01".into(), date(2026, 3, 18))];
+        let e = plan(&m, &flat2(240)).unwrap_err();
+        assert!(e.to_string().contains("circuit C1 is down"), "{e}");
+        // Preferred on C1, with the outage a day before the ideal (03-17, index 7): C1's cells go
+        // there (the outage day is their ideal), C2's stay on 03-18.
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 418.0, 421.0)];
+        r.outage_work = BTreeMap::from([("C1".to_string(), OutageWork::Preferred)]);
+        let p = plan(&input(240, "20:00", 14, r, cells), &flat2(240)).unwrap();
+        let days = change_days(&p);
+        assert!((1..=5).all(|i| days[&format!("A{i:02}")] == 7 && days[&format!("B{i:02}")] == 8), "{days:?}");
+        assert_eq!(p.days[7].outages[0].anode_work, OutageWork::Preferred);
+    }
+
+    #[test]
+    fn an_outage_on_every_circuit_stops_anode_work() {
+        let mut r = rules(10);
+        r.outages = vec![outage_on("C1", 442.0, 445.0), outage_on("C2", 443.0, 444.0)];
+        let p = plan(&input(240, "20:00", 14, r, vec![on("C1", "A01"), on("C2", "B01")]), &flat2(240)).unwrap();
+        assert_eq!(p.days[8].crew_capacity, 0);
+        let why = p.days[8].no_anode_work.as_deref().unwrap_or("");
+        assert!(why.contains("outage on C1") && why.contains("outage on C2"), "{why}");
+    }
+
+    #[test]
+    fn kept_moves_apply_while_feasible_and_are_dropped_with_the_reason() {
+        let kept = |cell: &str, d: NaiveDate, entry: i64| KeptMove { cell: cell.into(), date: d, by: "JD".into(), entry, applied: false };
+        let mut inp = input(240, "20:00", 14, rules(1), vec![cell("A01", 0.0), cell("A02", 0.0), cell("A03", 0.0)]);
+        // A01 kept on 03-20 (inside its window 03-16 … 03-20); A02 kept on 03-21 (outside it)
+        inp.kept = vec![kept("A01", date(2026, 3, 20), 11), kept("A02", date(2026, 3, 21), 12), kept("A03", date(2026, 4, 30), 13)];
+        let p = plan(&inp, &flat(240)).unwrap();
+        let a01 = changes(&p).into_iter().find(|(_, c)| c.cell == "A01").unwrap();
+        assert_eq!((a01.0, a01.1.moved), (10, true));
+        assert_eq!(p.kept_moves.iter().map(|k| (k.cell.as_str(), k.applied)).collect::<Vec<_>>(), vec![("A01", true), ("A03", false)]);
+        assert_eq!(p.dropped_moves.len(), 1);
+        assert_eq!((p.dropped_moves[0].cell.as_str(), p.dropped_moves[0].entry), ("A02", 12));
+        assert!(p.dropped_moves[0].reason.contains("outside the cell's window"), "{}", p.dropped_moves[0].reason);
+        // a hand move of the same cell overrides the kept one
+        inp.moves = vec![("A01".into(), date(2026, 3, 19))];
+        let p = plan(&inp, &flat(240)).unwrap();
+        assert!(p.dropped_moves.iter().any(|d| d.cell == "A01" && d.reason.contains("overridden")));
+        assert_eq!(change_days(&p)["A01"], 9);
+    }
+
+    #[test]
+    fn light_last_crops_are_warned() {
+        // Without crops_per_anode_cycle the crop pulled with the anodes is 62.48 kg (see
+        // crops_at_target_mass_between_changes), below 0.6 × 120 = 72 kg: warned and flagged.
+        let inp = input(24, "20:00", 20, rules(8), vec![cell("A01", 0.0)]);
+        let p = plan(&inp, &flat(24)).unwrap();
+        assert_eq!(p.warnings.len(), 1);
+        assert_eq!((p.warnings[0].kind, p.warnings[0].cell.as_str(), p.warnings[0].date), ("light_last_crop", "A01", date(2026, 3, 18)));
+        assert!(p.warnings[0].message.contains("crops_per_anode_cycle"));
+        assert!(harvests(&p).iter().all(|(_, h)| h.light == h.with_anode_change));
+        // at 0.5 (60 kg) it is not light; with three equal crops there is no light last crop
+        let mut r = rules(8);
+        r.light_crop_fraction = 0.5;
+        assert!(plan(&input(24, "20:00", 20, r, vec![cell("A01", 0.0)]), &flat(24)).unwrap().warnings.is_empty());
+        let mut c = cell("A01", 0.0);
+        c.params.crops_per_anode_cycle = Some(3);
+        assert!(plan(&input(24, "20:00", 20, rules(8), vec![c]), &flat(24)).unwrap().warnings.is_empty());
+    }
+
+    #[test]
+    fn bound_by_names_the_constraint_that_kept_a_job_off_the_day() {
+        // The thirty-cell wave: 8 on the ideal day and 8 on each of the two days before, 6 a day
+        // late (see a_wave_of_thirty_cells_spreads_early_rather_than_late): the crew binds the
+        // ideal day and the two days early; the day after takes what is left, so it binds nothing.
+        let cells: Vec<CellInput> = (1..=30)
+            .map(|i| {
+                let mut c = cell(&format!("A{i:02}"), 0.0);
+                c.params.scrap_lower = 0.07;
+                c
+            })
+            .collect();
+        let mut r = rules(8);
+        r.smooth_harvests = false;
+        let inp = input(24, "08:00", 28, r.clone(), cells.clone());
+        let p = plan(&inp, &flat(24)).unwrap();
+        let ideal = (date(2026, 3, 19) - inp.calendar.from).num_days() as usize;
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Crew));
+        assert_eq!(p.days[ideal - 1].bound_by, Some(Bound::Crew));
+        assert_eq!(p.days[ideal + 1].bound_by, None);
+        // a crane of 20 lifts a shift (2 + 2 a change with its crop): 5 changes a day, the crane binds
+        r.crane = Some(Crane { lifts_per_shift: 20, per_anode_change: 2, per_harvest: 2 });
+        let p = plan(&input(24, "08:00", 28, r.clone(), cells.clone()), &flat(24)).unwrap();
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Crane));
+        assert_eq!(p.days[ideal].crew_capacity, 5);
+        assert_eq!(p.days[ideal].crane_lifts, Some(20));
+        // 5 anodes a day and none in stock: 95 by the ideal day, one change of 50 by then; the anodes bind
+        let mut r = rules(8);
+        r.anodes_per_day = Some(5);
+        let p = plan(&input(24, "08:00", 28, r, cells), &flat(24)).unwrap();
+        assert!(p.days[ideal].crew_load < 8);
+        assert_eq!(p.days[ideal].bound_by, Some(Bound::Anodes));
+        assert!(p.days.iter().all(|d| d.anodes_delivered.is_some_and(|x| x <= 5)));
+    }
+
+    #[test]
+    fn the_anode_stock_line_follows_levelled_deliveries() {
+        // Two changes of 50 anodes on 03-18 (index 8) with 20 in stock and up to 30 a day: the need
+        // beyond stock is 80 by day 8, so 80/9 = 8.9 a day, rounded up cumulatively (by hand).
+        let mut r = rules(8);
+        r.anode_stock = Some(20);
+        r.anodes_per_day = Some(30);
+        let p = plan(&input(240, "20:00", 14, r, vec![cell("A01", 0.0), cell("A02", 0.0)]), &flat(240)).unwrap();
+        assert_eq!(change_days(&p).values().copied().collect::<Vec<_>>(), vec![8, 8]);
+        let delivered: Vec<u64> = p.days.iter().map(|d| d.anodes_delivered.unwrap()).collect();
+        assert_eq!(&delivered[..9], &[9, 9, 9, 9, 9, 9, 9, 9, 8]);
+        assert!(delivered[9..].iter().all(|x| *x == 0));
+        let stock: Vec<u64> = p.days.iter().map(|d| d.anode_stock.unwrap()).collect();
+        assert_eq!(&stock[..9], &[29, 38, 47, 56, 65, 74, 83, 92, 0]);
+        // unlimited supply: no stock line
+        let p = plan(&input(240, "20:00", 14, rules(8), vec![cell("A01", 0.0)]), &flat(240)).unwrap();
+        assert!(p.days.iter().all(|d| d.anode_stock.is_none() && d.anodes_delivered.is_none()));
+    }
+
+    #[test]
+    fn smoothing_spreads_crops_due_together_and_never_worsens_the_spread() {
+        // Six cells set together: their first crops are all due 179.25 h after the set (day 03-07
+        // with 20:00 day starts, index 6), each free to move a day either way. Capped only, the
+        // stripping machine takes 6 × 51 = 306 cathodes that day and none beside it; smoothed, two a
+        // day (102, 102, 102), by hand.
+        let cells: Vec<CellInput> = (1..=6).map(|i| cell(&format!("A{i:02}"), 0.0)).collect();
+        let mut r = rules(8);
+        r.smooth_harvests = false;
+        let capped = plan(&input(24, "20:00", 14, r, cells.clone()), &flat(24)).unwrap();
+        let smooth = plan(&input(24, "20:00", 14, rules(8), cells), &flat(24)).unwrap();
+        let load = |p: &Plan| p.days.iter().map(|d| d.harvest_cathodes).collect::<Vec<u64>>();
+        assert_eq!(&load(&capped)[5..8], &[0, 306, 0]);
+        assert_eq!(&load(&smooth)[5..8], &[102, 102, 102]);
+        assert!(smoothing::spread(&load(&smooth)) < smoothing::spread(&load(&capped)));
+        assert_eq!(smooth.harvests_smoothed, 4);
+        assert!(!smooth.harvests_exact && capped.harvests_exact);
+        assert_eq!(harvests(&smooth).len(), harvests(&capped).len());
+    }
+
+    proptest::proptest! {
+        #![proptest_config(proptest::prelude::ProptestConfig::with_cases(48))]
+        #[test]
+        fn the_crane_budget_is_never_exceeded(
+            sets in proptest::collection::vec(0u32..400, 1..14),
+            lifts in 4u32..30,
+            per_change in 1u32..4,
+            per_harvest in 1u32..4,
+            shifts in 1u32..4,
+            crew in 1u32..10,
+            smooth in proptest::bool::ANY,
+        ) {
+            let cells: Vec<CellInput> = sets.iter().enumerate().map(|(i, h)| cell(&format!("A{i:02}"), -f64::from(*h))).collect();
+            let mut r = rules(crew);
+            r.shifts_per_day = shifts;
+            r.smooth_harvests = smooth;
+            let crane = Crane { lifts_per_shift: lifts, per_anode_change: per_change, per_harvest };
+            r.crane = Some(crane);
+            // a t0 far enough back for every set: the curve starts 400 h earlier
+            let now_h = 400;
+            let rs: Vec<RawReading> = (0..=now_h + 400).map(|h| RawReading { t: at(f64::from(h) - 400.0), amps: 30_000.0 }).collect();
+            let curves = HashMap::from([("C1".to_string(), MemoryCurve::build(&rs, &[], &[], at(f64::from(now_h))))]);
+            let inp = input(now_h, "06:00", 21, r, cells);
+            match plan(&inp, &curves) {
+                Ok(p) => {
+                    let budget = lifts * shifts;
+                    for d in &p.days {
+                        let crops = d.harvests.iter().filter(|h| h.with_anode_change).count() as u32;
+                        let others = d.harvests.len() as u32 - crops;
+                        let want = d.anode_changes.len() as u32 * per_change + (crops + others) * per_harvest;
+                        proptest::prop_assert_eq!(d.crane_lifts, Some(want), "{}", d.date);
+                        proptest::prop_assert!(want <= budget, "{}: {want} lifts > {budget}", d.date);
+                        proptest::prop_assert_eq!(d.crane_capacity, Some(budget));
+                        if shifts > 1 {
+                            proptest::prop_assert_eq!(d.shifts.iter().filter_map(|s| s.crane_lifts).sum::<u32>(), want);
+                            proptest::prop_assert_eq!(d.shifts.iter().map(|s| s.harvests).sum::<u32>(), others);
+                            for s in &d.shifts {
+                                proptest::prop_assert!(s.crane_lifts.unwrap_or(0) <= lifts, "{}: a shift over its lifts {:?}", d.date, d.shifts);
+                            }
+                        }
+                    }
+                }
+                // too small a budget for one change with its crop is refused, naming the key
+                Err(PlanError::Rule { key, .. }) => proptest::prop_assert!(lifts < per_change + per_harvest && key == "crane_lifts_per_shift"),
+                Err(e) => proptest::prop_assert!(false, "{e}"),
+            }
+        }
     }
 }

@@ -5,12 +5,17 @@ use chrono::NaiveDate;
 use std::collections::HashMap;
 
 use super::forecast::snapshots;
-use super::{Plant, PlantError, Result};
+use super::record::initials;
+use super::{Opts, Plant, PlantError, Result, far_future};
 use crate::domain::charge::Time;
 use crate::domain::forecast::CellInput;
+use crate::domain::history::EventKind;
 use crate::domain::levelling::Weights;
-use crate::domain::plan::{Calendar, Plan, PlanError, PlanInput, Rules, plan};
+use crate::domain::plan::{Calendar, Crane, KeptMove, Plan, PlanError, PlanInput, Rules, plan};
+use crate::domain::plan_diff::{PlanDiff, diff, planned_jobs};
+use crate::domain::plant_time::ProductionDays;
 use crate::store::StoreCurve;
+use crate::store::{Db, NewEvent};
 
 /// The longest plan, in production days: a year is far beyond what the
 /// forecasts can say and keeps the levelling's work bounded.
@@ -29,6 +34,8 @@ pub struct PlanOptions {
     pub anodes_per_day: Option<u64>,
     /// Hand moves of a cell's anode change to another day, applied in order.
     pub moves: Vec<(String, NaiveDate)>,
+    /// Level the harvests' daily cathodes after capping them (`false`: the cap-only plan, to compare).
+    pub smooth_harvests: bool,
 }
 
 impl Default for PlanOptions {
@@ -42,6 +49,7 @@ impl Default for PlanOptions {
             anode_stock: None,
             anodes_per_day: None,
             moves: Vec::new(),
+            smooth_harvests: true,
         }
     }
 }
@@ -55,6 +63,12 @@ impl Plant {
     /// `opts.from`, on every circuit's curve as of `now` (see
     /// [`crate::domain::plan::plan`] for what is guaranteed).
     pub fn plan(&self, opts: &PlanOptions, now: Time) -> Result<Plan> {
+        self.plan_with(opts, now, &[])
+    }
+
+    /// [`Plant::plan`] with `extra` kept moves after the recorded ones (each
+    /// replacing a recorded one of the same cell).
+    fn plan_with(&self, opts: &PlanOptions, now: Time, extra: &[KeptMove]) -> Result<Plan> {
         let db = self.store.db();
         let info = db.plant_info()?.ok_or(PlantError::NoLayout)?;
         if opts.days == 0 || opts.days > MAX_PLAN_DAYS {
@@ -116,16 +130,121 @@ impl Plant {
                 anodes_per_day: opts.anodes_per_day.or(keys.anodes_per_day),
                 no_anode_work,
                 outages,
+                outage_work: keys.outage_anode_work.clone(),
                 whole_sections: keys.whole_sections,
+                crane: keys.crane_lifts_per_shift.map(|l| Crane {
+                    lifts_per_shift: l,
+                    per_anode_change: keys.lifts_per_anode_change,
+                    per_harvest: keys.lifts_per_harvest,
+                }),
+                smooth_harvests: opts.smooth_harvests,
+                light_crop_fraction: keys.light_crop_fraction,
             },
+            kept: kept_moves(db, &info.days, from)?
+                .into_iter()
+                .filter(|k| !extra.iter().any(|x| x.cell == k.cell))
+                .chain(extra.iter().cloned())
+                .collect(),
             cells,
             moves: opts.moves.clone(),
         };
-        plan(&input, &curves).map_err(|e| match e {
+        let mut p = plan(&input, &curves).map_err(|e| match e {
             PlanError::Curve(e) => PlantError::Store(e),
             e @ PlanError::Move { .. } => rejected("--move", e.to_string()),
             PlanError::Rule { key, message } => rejected(format!("plan.{key}"), message),
             PlanError::Level(e) => PlantError::Internal(format!("levelling the plan: {e}")),
-        })
+        })?;
+        p.since_approved = self.changes_since_approved(&p)?;
+        Ok(p)
     }
+
+    /// What `plan` changes against the last approved plan (`None`: none approved yet).
+    pub fn changes_since_approved(&self, plan: &Plan) -> Result<Option<PlanDiff>> {
+        let to = plan.days.last().map_or(plan.from, |d| d.date);
+        Ok(self.store.db().last_approved_plan()?.map(|a| diff(&a, &planned_jobs(plan), plan.from, to)))
+    }
+
+    /// Records the hand moves of `opts` in the event log as kept decisions
+    /// (one entry per move, in one transaction), each for the cell's first
+    /// change in the plan, so later plans apply them while they stay feasible;
+    /// returns the entries and the plan made with them. The moves are first
+    /// tried as kept moves on the plan: if one cannot be applied (outside the
+    /// first change's window, a full day, no anodes, its circuit down),
+    /// nothing is recorded and the reason is given.
+    pub fn keep_moves(&mut self, opts: &PlanOptions, record: &Opts) -> Result<(Vec<i64>, Plan)> {
+        if opts.moves.is_empty() {
+            return Err(rejected("--keep", "there is no --move to keep"));
+        }
+        let by = initials(&record.by)?;
+        let trial: Vec<KeptMove> = opts
+            .moves
+            .iter()
+            .enumerate()
+            .map(|(i, (cell, date))| KeptMove { cell: cell.clone(), date: *date, by: by.clone(), entry: -(i as i64) - 1, applied: false })
+            .collect();
+        let later = PlanOptions { moves: Vec::new(), ..opts.clone() };
+        let tried = self.plan_with(&later, record.now, &trial)?;
+        for t in &trial {
+            if let Some(d) = tried.dropped_moves.iter().find(|d| d.entry == t.entry) {
+                return Err(rejected("--move", format!("{}={}: {}", t.cell, t.date, d.reason)));
+            }
+            if tried.kept_moves.iter().any(|k| k.entry == t.entry && !k.applied) {
+                return Err(rejected("--move", format!("{}={}: the date is after the plan's last day", t.cell, t.date)));
+            }
+        }
+        let info = self.store.db().plant_info()?.ok_or(PlantError::NoLayout)?;
+        let entries = self.store.write(|db| {
+            let mut out = Vec::new();
+            for (cell, date) in &opts.moves {
+                out.push(db.append_event(&NewEvent {
+                    kind: EventKind::KeptMove,
+                    cell: Some(cell.clone()),
+                    circuit_id: None,
+                    at: info.days.start_of(*date),
+                    end: None,
+                    count: None,
+                    kg: None,
+                    amps: None,
+                    volts: None,
+                    by: by.clone(),
+                    forced: false,
+                    recorded_at: record.now,
+                    voids: None,
+                })?);
+            }
+            Ok::<_, PlantError>(out)
+        })?;
+        Ok((entries, self.plan(&later, record.now)?))
+    }
+
+    /// Records `plan` as approved by `by` (what it plans for each day); later
+    /// plans show what changed since (`Plan::since_approved`). Returns its record's id.
+    pub fn approve_plan(&mut self, plan: &Plan, record: &Opts) -> Result<i64> {
+        let by = initials(&record.by)?;
+        let to = plan.days.last().map_or(plan.from, |d| d.date);
+        let jobs = planned_jobs(plan);
+        self.store.write(|db| Ok::<_, PlantError>(db.record_approved_plan(record.now, &by, plan.from, to, &jobs)?))
+    }
+}
+
+/// The live kept moves a plan from `from` applies: the newest per cell, dated
+/// on or after `from`, and not yet done (no anode set in the cell since it was kept).
+fn kept_moves(db: Db<'_>, days: &ProductionDays, from: NaiveDate) -> Result<Vec<KeptMove>> {
+    let mut newest: HashMap<String, KeptMove> = HashMap::new();
+    for e in db.kept_moves()? {
+        let Some(cell) = e.cell.clone() else { continue };
+        let date = days.day_of(e.at);
+        if date < from {
+            continue;
+        }
+        // anodes logged after the decision: the change it was about is done
+        let done = db.load_at(&cell, far_future())?.is_some_and(|(set_event, _, _, _)| set_event > e.id);
+        if done {
+            continue;
+        }
+        newest.insert(cell.clone(), KeptMove { cell, date, by: e.by, entry: e.id, applied: false });
+    }
+    let mut out: Vec<KeptMove> = newest.into_values().collect();
+    out.sort_by_key(|k| k.entry);
+    Ok(out)
 }

@@ -12,6 +12,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("003_learnt", include_str!("migrations/003_learnt.sql")),
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
     ("005_drafts", include_str!("migrations/005_drafts.sql")),
+    ("006_approved_plan", include_str!("migrations/006_approved_plan.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -77,6 +78,15 @@ mod tests {
             assert_eq!(n, 1, "{name}");
         }
         assert!(store.db().damaged_entries(10).unwrap().is_empty());
+        // 006: the approved-plan tables exist, empty, and take a plan of the old rows' cell
+        let plans: i64 = c.query_row("SELECT count(*) FROM approved_plan", [], |r| r.get(0)).unwrap();
+        assert_eq!(plans, 0);
+        c.execute_batch(
+            "INSERT INTO approved_plan VALUES (1, 5000, 'JD', '2026-03-01', '2026-03-14');
+             INSERT INTO approved_job VALUES (1, '2026-03-03', 'harvest', 'A01');",
+        )
+        .unwrap();
+        assert!(c.execute("INSERT INTO approved_job VALUES (1, '2026-03-03', 'repair', 'A01')", []).is_err());
     }
 
     #[test]

@@ -10,6 +10,7 @@ mod drafts;
 mod events;
 mod learnt;
 mod migrations;
+mod plan_record;
 mod readings;
 mod report;
 
