@@ -205,3 +205,27 @@ fn the_screens_save_the_shift_report_beside_the_database() {
     // the same as the command writes for the same shift and clock
     assert_eq!(html, report(&tk, &[]));
 }
+
+#[test]
+fn the_patrol_list_is_on_the_page_as_tankbook_patrol_ranks_it() {
+    let tk = full_demo();
+    let html = report(&tk, &[]);
+    let patrol = tk.json(&["patrol", "--json"]);
+    // the cells the patrol suspects (score 6 or more, its tile threshold), in its order
+    let suspects: Vec<&str> = patrol["cells"]
+        .as_array()
+        .expect("cells")
+        .iter()
+        .filter(|c| c["score"].as_f64().expect("score") >= 6.0)
+        .map(|c| c["cell"].as_str().expect("id"))
+        .collect();
+    assert!(!suspects.is_empty(), "the demo has shorted cells");
+    let at = html.find("Patrol for shorts").expect("a patrol section");
+    let rows = &html[at..];
+    let mut last = 0;
+    for cell in suspects.iter().take(12) {
+        let here = rows.find(&format!("<td>{cell}</td>")).unwrap_or_else(|| panic!("{cell} listed for the patrol"));
+        assert!(here >= last, "{cell} out of the patrol's order");
+        last = here;
+    }
+}

@@ -13,6 +13,7 @@ use crate::domain::entry::Field;
 use crate::domain::forecast::{CellForecast, Forecast};
 use crate::domain::history::{Event, EventKind};
 use crate::domain::layout::AnodeKind;
+use crate::domain::patrol::{PatrolCell, SUSPECT_SCORE};
 use crate::domain::shift::{Shift, next_shift, previous_shift, shift_of};
 use crate::report::{
     ADVISORY, CellEfficiency, CircuitPeriod, CrewDay, DueLine, DueWindow, EntryLine, HarvestLine, PullLine, ReportData, SectionCopper,
@@ -43,6 +44,10 @@ pub struct WrittenReport {
 
 /// Readings per circuit chart: enough for a smooth line over a shift or a month.
 const CHART_POINTS: usize = 400;
+
+/// The most suspect cells the report lists for the patrol (the rest are on
+/// `tankbook patrol`): a page, not a second patrol screen.
+const PATROL_SHOWN: usize = 12;
 
 fn who(e: &Event) -> String {
     e.by.clone()
@@ -227,6 +232,7 @@ impl Plant {
             .filter(|c| c.warnings.iter().any(|w| w.code == "thin_anode"))
             .filter_map(|c| Some((c.cell.clone(), c.anode.as_ref()?.thickness_mm?)))
             .collect();
+        let patrol: Vec<PatrolCell> = self.patrol(to)?.cells.into_iter().filter(|c| c.score >= SUSPECT_SCORE).take(PATROL_SHOWN).collect();
         let balance = self.balance(from, to)?;
         let energy = crate::domain::balance::mean_energy_kwh_per_t(
             forecast
@@ -256,6 +262,7 @@ impl Plant {
             crew_shifts_per_day: info.plan.shifts_per_day,
             outlook,
             thin_anodes,
+            patrol,
             plated_t: balance.plant.plated_t,
             harvested_t: balance.plant.cathode_out_t + balance.plant.liberator_out_t,
             energy_kwh_per_t: energy,

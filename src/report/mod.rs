@@ -15,6 +15,7 @@ use serde::Serialize;
 use crate::domain::balance::Balance;
 use crate::domain::charge::{Point, Span, Time};
 use crate::domain::forecast::Warning;
+use crate::domain::patrol::PatrolCell;
 use crate::domain::plant_time::PlantZone;
 
 pub use page::render;
@@ -164,6 +165,9 @@ pub struct ReportData {
     pub outlook: Vec<DueWindow>,
     /// Cells whose anodes are thinner than their limit: (cell, mm).
     pub thin_anodes: Vec<(String, f64)>,
+    /// The cells to check for shorts at the end of the period, most suspect
+    /// first (the patrol list's cells at or above its suspect score).
+    pub patrol: Vec<PatrolCell>,
     /// Copper plated in the refining cells in the period (Faraday), t.
     pub plated_t: f64,
     /// Cathodes weighed in the period (refining and liberator), t.

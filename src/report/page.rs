@@ -203,6 +203,34 @@ fn outlook(d: &ReportData) -> Markup {
                     ". They can drop off their lugs: change them first."
                 }
             }
+            (patrol(d))
+        }
+    }
+}
+
+/// The cells to check for shorts, as `tankbook patrol` ranks them.
+fn patrol(d: &ReportData) -> Markup {
+    html! {
+        @if d.patrol.is_empty() {
+            p { strong { "Patrol for shorts: " } span.muted { "no cell's voltage, efficiency or shorts point at a short." } }
+        } @else {
+            h3 { "Patrol for shorts (" (d.patrol.len()) ", most suspect first)" }
+            table {
+                thead { tr { th { "Cell" } th { "Section" } th.n { "Volts" } th.n { "mV vs section" } th.n { "Current efficiency" } th.n { "Shorts this crop" } th { "Why" } } }
+                tbody {
+                    @for c in &d.patrol {
+                        tr {
+                            td { (c.cell) }
+                            td { (c.circuit) " " (c.section) }
+                            td.n { (format!("{:.3}", c.voltage)) }
+                            td.n { (format!("{:+.0}", c.deviation_mv)) }
+                            td.n { (pct(c.cathode_efficiency)) }
+                            td.n { (c.shorts_this_crop) }
+                            td { (c.reasons.join("; ")) }
+                        }
+                    }
+                }
+            }
         }
     }
 }
