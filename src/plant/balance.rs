@@ -27,9 +27,9 @@ impl Plant {
 
     /// The copper balance of `(from, to]` (empty when `from == to`, as a shift
     /// report made at the first instant of its shift), per circuit and for the plant. The
-    /// copper held in the cells comes from [`Plant::forecast`] at `from` and at
-    /// `to`, so it uses the efficiencies the forecast uses; the Faraday figure
-    /// uses the cathode efficiency of the forecast at `to`.
+    /// copper held in the cells comes from the forecast at `from` and at `to`,
+    /// both with the efficiencies learnt as of `to`; the Faraday figure uses
+    /// the cathode efficiency of the forecast at `to`.
     pub fn balance(&self, from: Time, to: Time) -> Result<Balance> {
         if from > to {
             return Err(PlantError::rejected(
@@ -37,7 +37,9 @@ impl Plant {
                 format!("the period must not end before it starts ({} is after {})", self.show_time(from), self.show_time(to)),
             ));
         }
-        let start = self.forecast(from, None)?;
+        // both ends at the efficiencies learnt by `to`, so the change in the
+        // cells is the model's, not a change of what the model believes
+        let start = self.forecast_learnt_at(from, None, to)?;
         let end = self.forecast(to, None)?;
         let (start, end) = (by_cell(&start), by_cell(&end));
         let db = self.store.db();

@@ -19,9 +19,16 @@ const WARNING_LOOKBACK: Duration = Duration::days(30);
 impl Plant {
     /// Forecasts every cell (or one) as of `as_of`; nothing after `as_of` is used.
     pub fn forecast(&self, as_of: Time, only_cell: Option<&str>) -> Result<Forecast> {
+        self.forecast_learnt_at(as_of, only_cell, as_of)
+    }
+
+    /// [`Plant::forecast`] as of `as_of`, with the efficiencies learnt from the
+    /// weighings up to `learnt_at` instead: the copper balance holds both ends
+    /// of its period at the efficiencies learnt by its end.
+    pub(crate) fn forecast_learnt_at(&self, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Forecast> {
         self.refuse_damage()?;
         let db = self.store.db();
-        let cells = snapshots(db, as_of, only_cell)?;
+        let cells = snapshots_learnt_at(db, as_of, only_cell, learnt_at)?;
         let mut curves: HashMap<i64, StoreCurve<'_>> = HashMap::new();
         let mut warnings = Vec::new();
         for c in db.circuits()? {
@@ -63,6 +70,11 @@ impl Plant {
 /// Every cell (or one) as of `as_of`, with its circuit's id: the one place the
 /// forecast, the plan and the patrol get a cell's data from, learnt values included.
 pub(crate) fn snapshots(db: Db<'_>, as_of: Time, only_cell: Option<&str>) -> Result<Vec<(i64, CellInput)>> {
+    snapshots_learnt_at(db, as_of, only_cell, as_of)
+}
+
+/// [`snapshots`] with the values learnt from the weighings up to `learnt_at`.
+fn snapshots_learnt_at(db: Db<'_>, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Vec<(i64, CellInput)>> {
     db.plant_info()?.ok_or(PlantError::NoLayout)?;
     let mut cells = db.cells()?;
     if let Some(id) = only_cell {
@@ -72,7 +84,7 @@ pub(crate) fn snapshots(db: Db<'_>, as_of: Time, only_cell: Option<&str>) -> Res
         }
     }
     let params = db.params_at_all(as_of)?;
-    let mut learnt = learn::learnt_as_of(db, &cells, &params, as_of)?;
+    let mut learnt = learn::learnt_as_of(db, &cells, &params, learnt_at)?;
     let mut left_out: HashMap<String, Vec<String>> = HashMap::new();
     for r in db.left_out_rows(as_of - WARNING_LOOKBACK, as_of)? {
         let what = match r.kind {
