@@ -2,25 +2,17 @@
 
 use anyhow::Result;
 use std::fmt::Write as _;
-use std::io::Write as _;
 
 use super::args::{BacktestArgs, PatrolArgs};
+use super::print::{emit, json};
 use crate::domain::charge::Time;
 use crate::domain::entry::Field;
 use crate::plant::Plant;
 
-/// Writes the whole output at once; a reader that stops early (`| head`) is not an error.
-fn emit(text: &str) -> Result<()> {
-    match std::io::stdout().lock().write_all(text.as_bytes()) {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
-        r => Ok(r?),
-    }
-}
-
 pub fn patrol(plant: &Plant, a: &PatrolArgs, now: Time) -> Result<()> {
     let p = plant.patrol(now)?;
     if a.json {
-        return emit(&(serde_json::to_string_pretty(&p)? + "\n"));
+        return json(&p);
     }
     let mut out = String::new();
     writeln!(out, "cells to check for shorts as of {}, most suspect first", plant.show_time(p.as_of))?;
@@ -59,7 +51,7 @@ pub fn backtest(plant: &Plant, a: &BacktestArgs, now: Time) -> Result<()> {
     };
     let b = plant.backtest(from, to, a.cell.as_deref())?;
     if a.json {
-        return emit(&(serde_json::to_string_pretty(&b)? + "\n"));
+        return json(&b);
     }
     let mut out = String::new();
     let f = |x: Option<f64>, unit: &str| x.map_or("-".to_string(), |v| format!("{v:.2}{unit}"));

@@ -195,7 +195,7 @@ pub fn run(cli: Cli) -> Result<()> {
             };
             let f = plant.forecast(as_of, a.cell.as_deref())?;
             if a.json {
-                println!("{}", serde_json::to_string_pretty(&f)?);
+                print::json(&f)?;
             } else {
                 print::forecast(&plant, &f)?;
             }
@@ -206,7 +206,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Check(a) => {
             let r = plant.check()?;
             if a.json {
-                println!("{}", serde_json::to_string_pretty(&r)?);
+                print::json(&r)?;
             } else {
                 println!("{} cells, {} entries, {} readings", r.cells, r.events, r.readings);
                 for p in &r.problems {
@@ -254,7 +254,7 @@ fn backups(plant: &Plant, json: bool) -> Result<()> {
     let folder = crate::plant::backup_folder(plant.path());
     if json {
         let v = serde_json::json!({ "schema": 1, "folder": folder, "backups": list });
-        println!("{}", serde_json::to_string_pretty(&v)?);
+        print::json(&v)?;
         return Ok(());
     }
     if list.is_empty() {

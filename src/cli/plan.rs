@@ -41,7 +41,7 @@ pub fn run(plant: &mut Plant, a: PlanArgs, now: Time) -> Result<()> {
         eprintln!("wrote {rows} planned jobs to {}", path.display());
     }
     if a.json {
-        println!("{}", serde_json::to_string_pretty(&p)?);
+        super::print::json(&p)?;
     } else {
         table(plant, &p)?;
     }

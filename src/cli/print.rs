@@ -17,6 +17,19 @@ fn due(plant: &Plant, t: Option<Time>, as_of: Time) -> String {
     }
 }
 
+/// Writes to stdout at once; a reader that stops early (`| head`) is not an error.
+pub(super) fn emit(text: &str) -> anyhow::Result<()> {
+    match std::io::stdout().lock().write_all(text.as_bytes()) {
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        r => Ok(r?),
+    }
+}
+
+/// A command's JSON (`--json`), pretty-printed, through [`emit`].
+pub(super) fn json(value: &impl serde::Serialize) -> anyhow::Result<()> {
+    emit(&(serde_json::to_string_pretty(value)? + "\n"))
+}
+
 /// The forecast table. Times are on the plant clock, whose zone the first line names.
 /// A closed pipe (`| head`) ends the output quietly.
 pub fn forecast(plant: &Plant, f: &Forecast) -> Result<()> {
@@ -90,7 +103,7 @@ fn write_forecast(out: &mut impl Write, plant: &Plant, f: &Forecast) -> std::io:
 pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Result<()> {
     let ev = plant.recent_events(cell, limit)?;
     if json {
-        println!("{}", serde_json::to_string_pretty(&serde_json::json!({ "schema": 1, "events": ev }))?);
+        self::json(&serde_json::json!({ "schema": 1, "events": ev }))?;
         return Ok(());
     }
     println!("{:>6} {:<9} {:<8} {:<17} {:<5} what", "entry", "kind", "where", "at", "by");

@@ -3,9 +3,9 @@
 
 use anyhow::{Context, Result};
 use std::fmt::Write as _;
-use std::io::Write as _;
 
 use super::args::{BalanceArgs, ReportArgs, ShiftArg};
+use super::print::{emit, json};
 use crate::domain::balance::Balance;
 use crate::domain::charge::Time;
 use crate::domain::entry::Field;
@@ -44,14 +44,6 @@ fn not_ahead(plant: &Plant, field: &str, t: Time, now: Time) -> Result<()> {
     Ok(())
 }
 
-/// Writes to stdout; a reader that went away (`tankbook balance | head`) is not an error.
-fn emit(text: &str) -> Result<()> {
-    match std::io::stdout().lock().write_all(text.as_bytes()) {
-        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
-        r => Ok(r?),
-    }
-}
-
 pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
     let (month, _) = plant.month_so_far(now)?;
     let from = match &a.from {
@@ -64,7 +56,7 @@ pub fn balance(plant: &Plant, a: BalanceArgs, now: Time) -> Result<()> {
     };
     not_ahead(plant, "--to", to, now)?;
     let b = plant.balance(from, to)?;
-    if a.json { emit(&format!("{}\n", serde_json::to_string_pretty(&b)?)) } else { emit(&balance_table(plant, &b)) }
+    if a.json { json(&b) } else { emit(&balance_table(plant, &b)) }
 }
 
 fn balance_table(plant: &Plant, b: &Balance) -> String {
