@@ -112,3 +112,28 @@ fn demo_again_replaces_the_demo_database() {
     assert!(out.status.success());
     assert!(String::from_utf8_lossy(&out.stderr).contains("replacing the demo database"));
 }
+
+/// `tankbook forecast --json | head -c 10` and the like: a reader that stops
+/// early ends the output quietly (exit 0, nothing on stderr), never a panic.
+#[test]
+fn a_reader_that_stops_early_is_not_an_error() {
+    use std::io::Read;
+    let tk = demo(&[]);
+    for args in [&["forecast", "--json"][..], &["plan", "--json"], &["events", "--json", "--limit", "2000"], &["forecast"]] {
+        let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_tankbook"))
+            .args(args)
+            .env("TANKBOOK_DB", &tk.db)
+            .env("TANKBOOK_NOW", &tk.now)
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .unwrap();
+        let mut head = [0u8; 10];
+        child.stdout.take().unwrap().read_exact(&mut head).unwrap();
+        // the read end is closed here, long before the output (well over a pipe's 64 KiB) is written
+        let out = child.wait_with_output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert!(out.status.success(), "{args:?}: {:?} {err}", out.status);
+        assert!(!err.contains("panicked"), "{args:?}: {err}");
+    }
+}
