@@ -626,6 +626,11 @@ fn a_confirmed_plan_move_is_kept_for_later_plans() {
     again.press(Key::Enter);
     again.press(Key::Char('p'));
     assert_eq!(kept(again.app.plan.plan.as_ref().unwrap()).map(|k| k.entry), Some(k.entry));
+    // undo takes the decision back like any entry
+    again.press(Key::Char('u'));
+    assert!(matches!(&again.app.overlay, Some(Overlay::ConfirmUndo(e)) if e.id == k.entry), "{:?}", again.app.overlay);
+    again.press(Key::Char('y'));
+    assert_eq!(kept(again.app.plan.plan.as_ref().unwrap()), None);
 }
 
 #[test]
