@@ -731,7 +731,14 @@ impl App {
                     .parent()
                     .and_then(|d| path.strip_prefix(d).ok())
                     .map_or_else(|| path.display().to_string(), |p| p.display().to_string());
-                self.say(format!("today's backup made: {shown}"));
+                // after what the write said (recorded …), which the foreman must still see
+                let text = match &self.status {
+                    Some(Status { text, bad: false }) if !text.contains("today's backup") => {
+                        format!("{text} · today's backup made: {shown}")
+                    }
+                    _ => format!("today's backup made: {shown}"),
+                };
+                self.say(text);
             }
             Ok(None) => {}
             Err(e) => self.warn(format!("warning: the daily backup was not made ({e}); the entry itself is saved")),
