@@ -626,6 +626,16 @@ fn a_confirmed_plan_move_is_kept_for_later_plans() {
     again.press(Key::Enter);
     again.press(Key::Char('p'));
     assert_eq!(kept(again.app.plan.plan.as_ref().unwrap()).map(|k| k.entry), Some(k.entry));
+    // a hand move of the same cell overrides the decision on this screen: the plan lists it as dropped, with the reason
+    let p = again.app.plan.plan.clone().unwrap();
+    let job = p.days[at.2].anode_changes.iter().position(|c| c.cell == cell).unwrap();
+    assert_eq!(move_change(&mut again, (at.2, job, at.0)), cell);
+    again.press(Key::Char('n'));
+    let p = again.app.plan.plan.clone().unwrap();
+    assert!(p.dropped_moves.iter().any(|d| d.entry == k.entry), "{:?}", p.dropped_moves);
+    let wide = screen(&again, 160, 48);
+    assert!(wide.contains(&format!("kept move dropped: {cell} {} (AK): ", date.format("%m-%d"))), "{wide}");
+    again.press(Key::Char('z'));
     // undo takes the decision back like any entry
     again.press(Key::Char('u'));
     assert!(matches!(&again.app.overlay, Some(Overlay::ConfirmUndo(e)) if e.id == k.entry), "{:?}", again.app.overlay);
