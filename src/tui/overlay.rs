@@ -669,8 +669,8 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
                 "Keep this move?",
                 vec![
                     Line::raw(format!("Keep {cell}'s anode change on {date} as a decision, by {by}?")),
-                    Line::raw("It is recorded in the event log; every later plan keeps it while it"),
-                    Line::raw("stays feasible (or says why not); undo takes it back."),
+                    Line::raw("Recorded in the event log: later plans keep it while it stays"),
+                    Line::raw("feasible (or say why they drop it); undo takes it back."),
                     keys_line(CONFIRM_KEEP),
                 ],
             );
