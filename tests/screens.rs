@@ -369,6 +369,8 @@ fn the_plan_screen_moves_a_change_inside_its_window_and_refuses_outside() {
         f.s.press(if f.s.app.plan.day < target { Key::Down } else { Key::Up });
     }
     f.s.press(Key::Enter);
+    assert!(matches!(&f.s.app.overlay, Some(Overlay::ConfirmKeep(c, _)) if *c == cell), "{:?}", f.s.app.overlay);
+    f.s.press(Key::Char('n'));
     let p = f.s.app.plan.plan.clone().unwrap();
     let job = p.days[target].anode_changes.iter().position(|c| c.cell == cell && c.cycle == 0).expect("moved to the chosen day");
     assert!(p.days[target].anode_changes[job].moved);
@@ -493,4 +495,251 @@ fn an_entry_that_did_not_save_is_kept_as_a_draft_when_the_terminal_goes() {
     f.s.press(Key::Esc);
     f.s.press(Key::Char('w'));
     assert!(f.s.app.unsaved.is_none() && f.s.app.unconfirmed_form().is_none());
+}
+
+// ---- the shift report key, the copper balance, kept moves, approvals, background backups ----
+
+#[test]
+fn the_report_key_writes_the_shift_report_and_says_where() {
+    let mut f = session();
+    start(&mut f);
+    let folder = f.s.plant.path().parent().unwrap().join("reports");
+    assert!(!folder.exists());
+    f.s.press(Key::Char('R'));
+    let status = f.s.app.status.clone().unwrap();
+    assert!(!status.bad, "{status:?}");
+    let path = PathBuf::from(status.text.strip_prefix("shift report written to ").expect("the status line names the file"));
+    assert_eq!(path.parent().unwrap(), folder, "beside the database, in reports/");
+    let html = std::fs::read_to_string(&path).unwrap();
+    assert!(html.contains("<svg") && html.contains("</html>"), "a whole report with its charts");
+    // the shift in progress at 05:30 UTC (06:30 Madrid) on 11-20 is the day shift, the first
+    assert_eq!(path.file_name().unwrap(), "shift-2026-11-20-1.html");
+    // the full path is also shown in a box, as the status line may be too narrow for it
+    assert!(matches!(&f.s.app.overlay, Some(Overlay::Info(t)) if t.contains(&path.display().to_string())));
+    f.s.press(Key::Char('x'));
+    assert!(f.s.app.overlay.is_none());
+}
+
+#[test]
+fn the_copper_balance_screen() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('c'));
+    assert_eq!(f.s.app.view, View::Balance);
+    let (from, to) = f.s.plant.month_so_far(fixed()).unwrap();
+    let want = f.s.plant.balance(from, to).unwrap();
+    assert_eq!(f.s.app.balance.balance.as_ref(), Some(&want), "the screen shows the plant's balance of the month so far");
+    f.s.app.status = None;
+    for (w, h) in [(80, 24), (160, 48)] {
+        let text = screen(&f.s, w, h);
+        // every column and the line on how to read the residual fit
+        for needed in ["R1", "R2", "plant", "RESIDUAL", "Faraday: electrolyte gain", "liberator cells, apart", "missing entries."] {
+            assert!(text.contains(needed), "{w}x{h}: no {needed:?}\n{text}");
+        }
+        let residual = format!("{:.3}", want.plant.residual_t);
+        assert!(text.lines().any(|l| l.starts_with("RESIDUAL") && l.trim_end().ends_with(&residual)), "{text}");
+    }
+    snap("balance", &f.s);
+    f.s.press(Key::Char('b'));
+    assert_eq!(f.s.app.view, View::Tankhouse);
+}
+
+/// A change of the running load that can move to another day inside its window: (day, job, target day).
+fn movable(plan: &tankbook::domain::plan::Plan) -> (usize, usize, usize) {
+    plan.days
+        .iter()
+        .enumerate()
+        .find_map(|(i, d)| {
+            d.anode_changes.iter().enumerate().filter(|(_, c)| c.cycle == 0 && c.window.earliest > plan.days[0].date).find_map(|(j, c)| {
+                plan.days
+                    .iter()
+                    .enumerate()
+                    .find(|(k, o)| {
+                        *k != i
+                            && *k < 14
+                            && o.crew_load < o.crew_capacity
+                            && o.date >= c.window.earliest
+                            && c.window.latest.is_some_and(|l| o.date <= l)
+                    })
+                    .map(|(k, _)| (i, j, k))
+            })
+        })
+        .expect("some change can move")
+}
+
+/// Moves the selected plan's change (day, job) to `target` with m … Enter; its cell.
+fn move_change(s: &mut Session, (day, job, target): (usize, usize, usize)) -> String {
+    s.app.plan.day = day;
+    s.app.plan.job = job;
+    let cell = s.app.selected_change().unwrap().cell.clone();
+    s.press(Key::Char('m'));
+    while s.app.plan.day != target {
+        s.press(if s.app.plan.day < target { Key::Down } else { Key::Up });
+    }
+    s.press(Key::Enter);
+    cell
+}
+
+fn plan_json(db: &std::path::Path) -> serde_json::Value {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_tankbook"))
+        .env("TANKBOOK_DB", db)
+        .env("TANKBOOK_NOW", "2026-11-20T05:30:00Z")
+        .args(["plan", "--json"])
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+#[test]
+fn a_confirmed_plan_move_is_kept_for_later_plans() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('p'));
+    let plan = f.s.app.plan.plan.clone().unwrap();
+    let at = movable(&plan);
+    let date = plan.days[at.2].date;
+    let cell = move_change(&mut f.s, at);
+    assert!(matches!(&f.s.app.overlay, Some(Overlay::ConfirmKeep(c, d)) if *c == cell && *d == date), "{:?}", f.s.app.overlay);
+    f.s.press(Key::Char('y'));
+    let status = f.s.app.status.clone().unwrap();
+    assert!(!status.bad && status.text.starts_with(&format!("kept: {cell} on {date} by AK")), "{status:?}");
+    assert!(f.s.app.plan.moves.is_empty(), "the move is now a recorded decision, not a hand move of this screen");
+    let kept = |p: &tankbook::domain::plan::Plan| p.kept_moves.iter().find(|k| k.cell == cell).cloned();
+    let k = kept(f.s.app.plan.plan.as_ref().unwrap()).expect("the plan on screen keeps it");
+    assert_eq!((k.date, k.by.as_str(), k.applied), (date, "AK", true));
+    let p = f.s.app.plan.plan.clone().unwrap();
+    assert!(p.days[at.2].anode_changes.iter().any(|c| c.cell == cell && c.moved), "on the chosen day");
+    assert!(screen(&f.s, 160, 48).contains(&format!("kept: {cell} {} AK", date.format("%m-%d"))));
+    // in the event log: the command line's plan lists it
+    let json = plan_json(f.s.plant.path());
+    let listed: Vec<&serde_json::Value> = json["kept_moves"].as_array().unwrap().iter().filter(|k| k["cell"] == cell.as_str()).collect();
+    assert_eq!(listed.len(), 1, "{json}");
+    assert_eq!((listed[0]["date"].as_str().unwrap(), listed[0]["by"].as_str().unwrap()), (date.to_string().as_str(), "AK"));
+    assert_eq!(listed[0]["entry"].as_i64(), Some(k.entry));
+    // it survives a reload and a new session
+    f.s.press(Key::F(5));
+    assert_eq!(kept(f.s.app.plan.plan.as_ref().unwrap()).map(|k| k.entry), Some(k.entry));
+    let path = f.s.plant.path().to_path_buf();
+    let mut again = Session::open(Plant::open(&path).unwrap(), fixed, false).unwrap();
+    again.type_str("dt");
+    again.press(Key::Enter);
+    again.press(Key::Char('p'));
+    assert_eq!(kept(again.app.plan.plan.as_ref().unwrap()).map(|k| k.entry), Some(k.entry));
+    // a hand move of the same cell overrides the decision on this screen: the plan lists it as dropped, with the reason
+    let p = again.app.plan.plan.clone().unwrap();
+    let job = p.days[at.2].anode_changes.iter().position(|c| c.cell == cell).unwrap();
+    assert_eq!(move_change(&mut again, (at.2, job, at.0)), cell);
+    again.press(Key::Char('n'));
+    let p = again.app.plan.plan.clone().unwrap();
+    assert!(p.dropped_moves.iter().any(|d| d.entry == k.entry), "{:?}", p.dropped_moves);
+    let wide = screen(&again, 160, 48);
+    assert!(wide.contains(&format!("kept move dropped: {cell} {} (AK): ", date.format("%m-%d"))), "{wide}");
+    again.press(Key::Char('z'));
+    // undo takes the decision back like any entry
+    again.press(Key::Char('u'));
+    assert!(matches!(&again.app.overlay, Some(Overlay::ConfirmUndo(e)) if e.id == k.entry), "{:?}", again.app.overlay);
+    again.press(Key::Char('y'));
+    assert_eq!(kept(again.app.plan.plan.as_ref().unwrap()), None);
+}
+
+#[test]
+fn approving_the_plan_then_the_changes_since_are_shown_at_the_top() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('p'));
+    assert!(screen(&f.s, 80, 24).lines().nth(2).unwrap().starts_with("no plan approved yet"), "{}", screen(&f.s, 80, 24));
+    f.s.press(Key::Char('S'));
+    assert!(matches!(f.s.app.overlay, Some(Overlay::ConfirmApprove)));
+    assert!(screen(&f.s, 80, 24).contains("signed AK"));
+    f.s.press(Key::Char('n'));
+    assert!(f.s.app.plan.plan.as_ref().unwrap().since_approved.is_none(), "n approves nothing");
+    f.s.press(Key::Char('S'));
+    f.s.press(Key::Char('y'));
+    assert!(f.s.app.status.as_ref().unwrap().text.starts_with("plan approved by AK"), "{:?}", f.s.app.status);
+    let d = f.s.app.plan.plan.as_ref().unwrap().since_approved.clone().expect("approved");
+    assert!(d.is_empty() && d.by == "AK", "{d:?}");
+    assert!(screen(&f.s, 80, 24).lines().nth(2).unwrap().starts_with("no change since the plan AK approved 11-20 06:30"));
+    // a hand move after the approval is what the morning meeting sees first
+    let plan = f.s.app.plan.plan.clone().unwrap();
+    let at = movable(&plan);
+    let from = plan.days[at.0].date;
+    let to = plan.days[at.2].date;
+    let cell = move_change(&mut f.s, at);
+    f.s.press(Key::Char('n'));
+    let d = f.s.app.plan.plan.as_ref().unwrap().since_approved.clone().unwrap();
+    assert!(d.moved.iter().any(|m| m.cell == cell && m.from == from && m.to == to), "{d:?}");
+    let top = screen(&f.s, 80, 24).lines().nth(2).unwrap().to_string();
+    assert!(top.starts_with(&format!("since AK's approval 11-20 06:30: {} moved, ", d.moved.len())), "{top}");
+    let wide = screen(&f.s, 160, 48);
+    assert!(wide.contains(&format!("{cell} anodes {}→{}", from.format("%m-%d"), to.format("%m-%d"))), "{wide}");
+    assert!(wide.lines().nth(1).unwrap().starts_with("ADVISORY plan"), "the advisory line stays first");
+}
+
+/// A plant that is not the demo (the demo is never backed up): the plant check's
+/// layout, a day of current and a load in A01, entered through the plant API (no backup yet).
+fn march() -> Time {
+    DateTime::parse_from_rfc3339("2026-03-02T00:00:00Z").unwrap().with_timezone(&Utc)
+}
+
+fn backups_in(dir: &std::path::Path) -> Vec<String> {
+    match std::fs::read_dir(dir.join("backups")) {
+        // the database files themselves (a copy opened here has its journal files beside it)
+        Ok(r) => r.map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).filter(|n| n.ends_with(".db")).collect(),
+        Err(_) => Vec::new(),
+    }
+}
+
+#[test]
+fn the_daily_backup_is_made_in_the_background_after_a_commit_never_after_a_draft() {
+    use tankbook::domain::entry::Entry;
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plant.db");
+    let mut plant = Plant::open(&path).unwrap();
+    let layout = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("fixtures/plant_check.toml");
+    plant.load_layout_file(&layout, march()).unwrap();
+    let mut csv = String::from("time,circuit,amps\n");
+    for h in 0..=24 {
+        csv.push_str(&format!("{},C1,30000\n", (march() - chrono::Duration::hours(24 - h)).to_rfc3339()));
+    }
+    plant.import_current(csv.as_bytes(), "test", march()).unwrap();
+    let set = march() - chrono::Duration::hours(24);
+    let opts = tankbook::plant::Opts { by: "JD".into(), force: false, now: march() };
+    plant.record(&Entry::Anodes { cell: "A01".into(), at: set, count: 50, mean_kg: 380.0 }, &opts).unwrap();
+    let mut s = Session::open(plant, march, false).unwrap();
+    s.act(Action::Resize(80, 24));
+    s.type_str("ak");
+    s.press(Key::Enter);
+    // a form typed and kept as a draft (the terminal went away): no backup
+    s.type_str("/A01");
+    s.press(Key::Enter);
+    s.type_str("nt");
+    s.type_str("2");
+    assert!(s.keep_draft("the terminal was closed").is_some());
+    assert!(s.finish_backups(std::time::Duration::from_secs(10)));
+    assert!(backups_in(dir.path()).is_empty(), "a draft starts no backup");
+    // the same entry recorded: the day's backup follows in the background
+    s.press(Key::Enter);
+    assert!(matches!(s.app.overlay, Some(Overlay::Review(_))), "{:?}", s.app.overlay);
+    s.press(Key::Char('y'));
+    assert!(s.app.status.as_ref().unwrap().text.starts_with("recorded shorts for A01"), "{:?}", s.app.status);
+    assert!(s.finish_backups(std::time::Duration::from_secs(30)), "the backup ends");
+    // production day 03-01 (days start 06:00 UTC)
+    assert_eq!(backups_in(dir.path()), ["plant-2026-03-01.db"]);
+    let status = s.app.status.clone().unwrap();
+    assert!(
+        status.text.starts_with("recorded shorts for A01") && status.text.ends_with(" · today's backup made: backups/plant-2026-03-01.db"),
+        "{status:?}"
+    );
+    assert!(!s.poll_backups(), "one result per backup");
+    // the backup is a whole database holding the entry
+    let copy = Plant::open(&dir.path().join("backups/plant-2026-03-01.db")).unwrap();
+    assert_eq!(copy.recent_events(Some("A01"), 1).unwrap()[0].kind.name(), "shorts");
+    // an undo commits too: with the day's backup gone, it is made again
+    std::fs::remove_file(dir.path().join("backups/plant-2026-03-01.db")).unwrap();
+    s.press(Key::Char('u'));
+    s.press(Key::Char('y'));
+    assert!(s.app.status.as_ref().unwrap().text.starts_with("undid entry"), "{:?}", s.app.status);
+    assert!(s.finish_backups(std::time::Duration::from_secs(30)));
+    assert_eq!(backups_in(dir.path()), ["plant-2026-03-01.db"]);
 }

@@ -9,6 +9,7 @@
 
 use chrono::Duration;
 
+use super::balance::BalanceScreen;
 use super::cell::CellScreen;
 use super::entries::EntriesScreen;
 use super::form::{Form, FormContext, FormKind, form_field};
@@ -35,6 +36,8 @@ pub enum View {
     Rectifier,
     Entries,
     Plan,
+    /// The copper balance of the month so far.
+    Balance,
 }
 
 impl View {
@@ -45,6 +48,7 @@ impl View {
             View::Rectifier => "Rectifiers",
             View::Entries => "Entries",
             View::Plan => "Plan",
+            View::Balance => "Copper balance",
         }
     }
 }
@@ -65,6 +69,10 @@ pub enum Action {
     PlanJob(i32),
     PlanMove,
     PlanReset,
+    /// Sign the plan on screen as approved (asks first).
+    PlanApprove,
+    /// Write the report of the shift in progress and say where.
+    ShiftReport,
     EntryMenu,
     UndoLast,
     ShowView(View),
@@ -101,6 +109,14 @@ pub enum Effect {
     Undo(i64),
     /// A draft was taken up again or thrown away: remove it from the database.
     DropDraft(i64),
+    /// The copper balance of the month so far.
+    LoadBalance,
+    /// Write the shift report into the reports folder beside the database.
+    SaveReport,
+    /// Record a confirmed hand move as a kept decision, with the initials of who is logging.
+    KeepMove(String, chrono::NaiveDate),
+    /// Record the plan on screen as approved by who is logging.
+    ApprovePlan,
 }
 
 /// What the next production day's first shift must do, shown before the day turns.
@@ -141,6 +157,7 @@ pub struct App {
     pub rectifiers: RectifierScreen,
     pub entries: EntriesScreen,
     pub plan: PlanScreen,
+    pub balance: BalanceScreen,
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
@@ -176,6 +193,7 @@ impl App {
             rectifiers: RectifierScreen::default(),
             entries: EntriesScreen::default(),
             plan: PlanScreen::default(),
+            balance: BalanceScreen::default(),
             status: None,
             unsaved: None,
             unsaved_form: None,
@@ -335,6 +353,7 @@ impl App {
                     View::Rectifier => Some(Effect::LoadTrends),
                     View::Entries => Some(Effect::LoadRecent),
                     View::Plan => Some(Effect::LoadPlan),
+                    View::Balance => Some(Effect::LoadBalance),
                     View::Cell => self.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
                     View::Tankhouse => None,
                 }
@@ -416,6 +435,21 @@ impl App {
                 self.say("hand moves dropped: the plan is levelled afresh");
                 Some(Effect::LoadPlan)
             }
+            Action::PlanApprove => {
+                match (&self.plan.plan, &self.who) {
+                    (None, _) => self.warn("no plan to approve yet"),
+                    (_, None) => {
+                        self.overlay = Some(Overlay::Initials(String::new()));
+                        self.warn("type your initials first: the approval records who signed");
+                    }
+                    (Some(_), Some(_)) => self.overlay = Some(Overlay::ConfirmApprove),
+                }
+                None
+            }
+            Action::ShiftReport => {
+                self.say("writing the shift report…");
+                Some(Effect::SaveReport)
+            }
             Action::Input(_) | Action::Resize(..) => None,
         }
     }
@@ -449,6 +483,7 @@ impl App {
                 self.plan.moved(dy);
                 None
             }
+            View::Balance => None,
         }
     }
 
@@ -622,6 +657,92 @@ impl App {
 
     pub fn loaded_plan(&mut self, p: Plan) {
         self.plan.loaded(p);
+        // a hand move the replan accepted: ask whether it is a decision to keep
+        if let Some((cell, date)) = self.plan.placed.take()
+            && self.plan.moves.contains(&(cell.clone(), date))
+            && self.overlay.is_none()
+        {
+            self.overlay = Some(Overlay::ConfirmKeep(cell, date));
+        }
+    }
+
+    /// A hand move recorded as a kept decision (its entries), or why not.
+    pub fn kept(&mut self, cell: &str, date: chrono::NaiveDate, result: Result<Vec<i64>, String>) -> Option<Effect> {
+        match result {
+            Ok(entries) => {
+                // recorded now: later plans apply it from the event log, not from this screen
+                self.plan.moves.retain(|(c, _)| c != cell);
+                let ids: Vec<String> = entries.iter().map(i64::to_string).collect();
+                let by = self.who.clone().unwrap_or_default();
+                self.say(format!("kept: {cell} on {date} by {by} (entry {}); later plans keep it, u undoes it", ids.join(", ")));
+                Some(Effect::LoadPlan)
+            }
+            Err(msg) => {
+                self.warn(format!("{cell} on {date} not kept: {msg}"));
+                None
+            }
+        }
+    }
+
+    /// The plan on screen recorded as approved (its record), or why not.
+    pub fn approved(&mut self, result: Result<i64, String>) -> Option<Effect> {
+        match result {
+            Ok(id) => {
+                let by = self.who.clone().unwrap_or_default();
+                self.say(format!("plan approved by {by} (approval {id}); changes from now on are shown at the top"));
+                Some(Effect::LoadPlan)
+            }
+            Err(msg) => {
+                self.warn(format!("the plan was not approved: {msg}"));
+                None
+            }
+        }
+    }
+
+    pub fn loaded_balance(&mut self, b: crate::domain::balance::Balance) {
+        self.balance.loaded(b);
+    }
+
+    pub fn balance_refused(&mut self, msg: String) {
+        self.balance.failed(msg.clone());
+        self.warn(format!("no copper balance: {msg}"));
+    }
+
+    /// The shift report was written (where), or why not.
+    pub fn report_saved(&mut self, result: Result<std::path::PathBuf, String>) {
+        match result {
+            Ok(path) => {
+                let text = format!("shift report written to {}", path.display());
+                self.status = Some(Status { text: text.clone(), bad: false });
+                if self.overlay.is_none() {
+                    self.overlay = Some(Overlay::Info(format!("{text}\nOpen it in a browser to print it (A4 or Letter).")));
+                }
+            }
+            Err(msg) => self.warn(format!("the shift report was not written: {msg}")),
+        }
+    }
+
+    /// The day's automatic backup finished in the background: where it went,
+    /// nothing when none was due, a warning when it failed (the entry is safe either way).
+    pub fn backup_done(&mut self, result: Result<Option<std::path::PathBuf>, String>) {
+        match result {
+            Ok(Some(path)) => {
+                let shown = std::path::Path::new(&self.db_path)
+                    .parent()
+                    .and_then(|d| path.strip_prefix(d).ok())
+                    .map_or_else(|| path.display().to_string(), |p| p.display().to_string());
+                // after what the write said (recorded …), which the foreman must still see
+                let text = match &self.status {
+                    Some(Status { text, bad: false }) if !text.contains("today's backup") => {
+                        format!("{text} · today's backup made: {shown}")
+                    }
+                    _ => format!("today's backup made: {shown}"),
+                };
+                self.say(text);
+            }
+            Ok(None) => {}
+            Err(e) => self.warn(format!("warning: the daily backup was not made ({e}); the entry itself is saved")),
+        }
     }
 
     /// A replan was refused (a hand move outside its window, over capacity…): the last move is taken back.

@@ -73,6 +73,8 @@ pub const GLOBAL: &[Binding] = &[
     b(&[Char('r')], Action::ShowView(View::Rectifier), "rectifiers: circuit current", None),
     b(&[Char('e')], Action::ShowView(View::Entries), "entries: the event log", None),
     b(&[Char('p')], Action::ShowView(View::Plan), "plan: anode changes and harvests, day by day", Some("plan")),
+    b(&[Char('c')], Action::ShowView(View::Balance), "copper balance: the month so far, per circuit and plant", None),
+    b(&[Char('R')], Action::ShiftReport, "write the shift report (printable HTML) and say where", None),
     b(&[Char('i')], Action::AskInitials, "change who is logging (initials)", None),
     b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
     b(&[F(5)], Action::Reload, "reload from the database", None),
@@ -123,9 +125,12 @@ pub const PLAN: &[Binding] = &[
     b(&[Left, Char('h')], Action::PlanJob(-1), "previous job of the day", None),
     b(&[Right, Char('l')], Action::PlanJob(1), "next job of the day", None),
     b(&[Char('m')], Action::PlanMove, "move the selected anode change to another day (re-checked)", Some("move")),
-    b(&[Char('z')], Action::PlanReset, "drop the moves made by hand", None),
+    b(&[Char('z')], Action::PlanReset, "drop the moves made by hand (kept ones stay: undo takes them back)", None),
+    b(&[Char('S')], Action::PlanApprove, "sign the plan as approved, with your initials (asks first)", Some("approve")),
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
 ];
+
+pub const BALANCE: &[Binding] = &[b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back"))];
 
 /// The table of a screen.
 pub fn table(view: View) -> &'static [Binding] {
@@ -135,6 +140,7 @@ pub fn table(view: View) -> &'static [Binding] {
         View::Rectifier => RECTIFIER,
         View::Entries => ENTRIES,
         View::Plan => PLAN,
+        View::Balance => BALANCE,
     }
 }
 
@@ -160,7 +166,7 @@ mod tests {
 
     #[test]
     fn no_key_is_bound_twice_on_a_screen() {
-        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries, View::Plan] {
+        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries, View::Plan, View::Balance] {
             let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
             for (i, k) in all.iter().enumerate() {
                 assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");

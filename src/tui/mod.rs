@@ -3,6 +3,7 @@
 //! tests drive the same code as the terminal does, without a terminal.
 
 pub mod app;
+mod balance;
 mod cell;
 mod draw;
 mod entries;
@@ -37,6 +38,27 @@ pub struct Session {
     pub plant: Plant,
     pub app: App,
     clock: fn() -> Time,
+    backups: Backups,
+}
+
+/// What a background backup reports: its file (`None`: none was due), or why it failed.
+type BackupResult = std::result::Result<Option<std::path::PathBuf>, String>;
+
+/// The day's automatic backup, made on a thread of its own after a write
+/// commits so the keys never wait for it; one at a time.
+struct Backups {
+    tx: mpsc::Sender<BackupResult>,
+    rx: mpsc::Receiver<BackupResult>,
+    running: bool,
+    /// A write committed while one was running: ask again when it ends.
+    again: bool,
+}
+
+impl Backups {
+    fn new() -> Backups {
+        let (tx, rx) = mpsc::channel();
+        Backups { tx, rx, running: false, again: false }
+    }
 }
 
 impl Session {
@@ -46,7 +68,7 @@ impl Session {
         let mut app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
         app.shifts_per_day = info.plan.shifts_per_day.max(1);
         app.drafts = plant.drafts()?;
-        let mut s = Session { plant, app, clock };
+        let mut s = Session { plant, app, clock, backups: Backups::new() };
         s.perform(Effect::Reload);
         Ok(s)
     }
@@ -80,7 +102,68 @@ impl Session {
         }
     }
 
+    /// Starts the day's backup in the background after a write committed (an
+    /// entry, an undo, a kept move, an approval; never a draft). The result
+    /// comes back through [`Session::poll_backups`].
+    fn start_backup(&mut self) {
+        if self.backups.running {
+            self.backups.again = true;
+            return;
+        }
+        let (path, now, tx) = (self.plant.path().to_path_buf(), (self.clock)(), self.backups.tx.clone());
+        let spawned = std::thread::Builder::new().name("daily backup".into()).spawn(move || {
+            let r = crate::plant::backup_if_due(&path, now).map_err(|e| format!("{e:#}"));
+            let _ = tx.send(r);
+        });
+        match spawned {
+            Ok(_) => self.backups.running = true,
+            Err(e) => self.app.backup_done(Err(format!("cannot start it: {e}"))),
+        }
+    }
+
+    /// Takes in a finished background backup, if one has finished: whether the screen changed.
+    pub fn poll_backups(&mut self) -> bool {
+        match self.backups.rx.try_recv() {
+            Ok(r) => {
+                self.backup_finished(r);
+                true
+            }
+            Err(_) => false,
+        }
+    }
+
+    fn backup_finished(&mut self, r: BackupResult) {
+        self.backups.running = false;
+        self.app.backup_done(r);
+        if std::mem::take(&mut self.backups.again) {
+            self.start_backup();
+        }
+    }
+
+    /// Waits up to `limit` for the background backup (if any) to finish, as the
+    /// screens end, so it is not cut short; whether none is left running.
+    pub fn finish_backups(&mut self, limit: StdDuration) -> bool {
+        let end = Instant::now() + limit;
+        while self.backups.running {
+            match self.backups.rx.recv_timeout(end.saturating_duration_since(Instant::now())) {
+                Ok(r) => self.backup_finished(r),
+                Err(_) => return false,
+            }
+        }
+        true
+    }
+
     fn perform_one(&mut self, effect: Effect) -> Option<Effect> {
+        let mut wrote = false;
+        let next = self.perform_effect(effect, &mut wrote);
+        if wrote {
+            self.start_backup();
+        }
+        next
+    }
+
+    /// Performs one effect; `wrote` is set when it committed a write.
+    fn perform_effect(&mut self, effect: Effect, wrote: &mut bool) -> Option<Effect> {
         let app = &mut self.app;
         let plant = &mut self.plant;
         match effect {
@@ -98,6 +181,7 @@ impl Session {
                     app::View::Rectifier => return Some(Effect::LoadTrends),
                     app::View::Entries => return Some(Effect::LoadRecent),
                     app::View::Plan => return Some(Effect::LoadPlan),
+                    app::View::Balance => return Some(Effect::LoadBalance),
                     app::View::Tankhouse => {}
                 }
                 None
@@ -147,12 +231,14 @@ impl Session {
             }
             Effect::Commit(batch) => {
                 let r = plant.record_batch(&batch).map_err(|e| e.to_string());
+                *wrote = r.is_ok();
                 app.committed(batch, r)
             }
             Effect::ImportReading { circuit, at, amps, by } => {
                 let csv = format!("time,circuit,amps\n{},{circuit},{amps}\n", at.to_rfc3339());
                 match plant.import_current(csv.as_bytes(), &format!("reading typed by {by}"), app.as_of) {
                     Ok(s) if s.added == 1 => {
+                        *wrote = true;
                         app.status = Some(app::Status { text: format!("recorded {amps} A on {circuit}"), bad: false });
                         Some(Effect::Reload)
                     }
@@ -182,7 +268,33 @@ impl Session {
             Effect::Undo(id) => {
                 let opts = crate::plant::Opts { by: app.who.clone().unwrap_or_default(), force: false, now: app.as_of };
                 let r = plant.undo(Some(id), &opts).map_err(|e| e.to_string());
+                *wrote = r.is_ok();
                 app.undone(r)
+            }
+            Effect::LoadBalance => {
+                match plant.month_so_far((self.clock)()).and_then(|(from, to)| plant.balance(from, to)) {
+                    Ok(b) => app.loaded_balance(b),
+                    Err(e) => app.balance_refused(e.to_string()),
+                }
+                None
+            }
+            Effect::SaveReport => {
+                app.report_saved(plant.save_shift_report((self.clock)()).map(|w| w.path).map_err(|e| e.to_string()));
+                None
+            }
+            Effect::KeepMove(cell, date) => {
+                let opts = crate::plant::PlanOptions { days: app.plan.days, moves: vec![(cell.clone(), date)], ..Default::default() };
+                let r = plant.keep_moves(&opts, &app.opts(false)).map(|(entries, _)| entries).map_err(|e| e.to_string());
+                *wrote = r.is_ok();
+                app.kept(&cell, date, r)
+            }
+            Effect::ApprovePlan => {
+                let r = match &app.plan.plan {
+                    Some(p) => plant.approve_plan(p, &app.opts(false)).map_err(|e| e.to_string()),
+                    None => Err("there is no plan on screen".to_string()),
+                };
+                *wrote = r.is_ok();
+                app.approved(r)
             }
         }
     }
@@ -249,7 +361,14 @@ pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
     leave(terminal);
     let mut err = std::io::stderr();
     match ended {
-        Ok(Ok(Ended::Quit)) => Ok(()),
+        Ok(Ok(Ended::Quit)) => {
+            // a backup still being made finishes rather than being cut short (a cut one is redone next time)
+            if !session.finish_backups(StdDuration::from_secs(20)) {
+                let _ =
+                    writeln!(err, "tankbook: today's backup was still being made and is cut short; it is made again after the next entry");
+            }
+            Ok(())
+        }
         Ok(Ok(Ended::Gone(why))) => {
             session.keep_draft(&why);
             Ok(())
@@ -336,6 +455,9 @@ fn event_loop(
                 Ok(_) => {}
                 Err(e) => return Ok(Ended::Gone(format!("the terminal's size cannot be read: {e}"))),
             }
+        }
+        if session.poll_backups() {
+            dirty = true;
         }
         if dirty {
             if let Err(e) = terminal.draw(|f| draw(f, &session.app)) {

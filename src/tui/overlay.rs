@@ -37,6 +37,12 @@ pub enum Overlay {
     Notice(String),
     /// A form kept when the terminal went away, offered back.
     Draft(Draft),
+    /// A hand move the replan accepted: keep it as a decision later plans apply?
+    ConfirmKeep(String, chrono::NaiveDate),
+    /// Sign the plan on screen as approved?
+    ConfirmApprove,
+    /// Something done that the foreman should read in full (a file written and where); any key closes it.
+    Info(String),
 }
 
 /// A checked entry waiting for the foreman's yes.
@@ -172,6 +178,16 @@ pub const PLAN_MOVE: &[OverlayBinding] = &[
     o(These(&[Esc]), Do::Cancel, "leave it where it is", Some("leave")),
 ];
 
+pub const CONFIRM_KEEP: &[OverlayBinding] = &[
+    o(These(&[Char('y')]), Do::Confirm, "keep the move: recorded with your initials, later plans keep it", Some("keep it")),
+    o(Other, Do::Cancel, "only for this screen: tomorrow's plan levels it afresh", Some("only for now")),
+];
+
+pub const CONFIRM_APPROVE: &[OverlayBinding] = &[
+    o(These(&[Char('y')]), Do::Confirm, "approve the plan as shown, with your initials", Some("approve")),
+    o(Other, Do::Cancel, "do not approve", Some("cancels")),
+];
+
 pub const DRAFT: &[OverlayBinding] = &[
     o(These(&[Enter, Char('y')]), Do::Confirm, "open it again to finish it", Some("open it")),
     o(These(&[Char('x')]), Do::Discard, "throw it away", Some("throw away")),
@@ -183,7 +199,7 @@ impl Overlay {
     pub fn table(&self) -> &'static [OverlayBinding] {
         match self {
             Overlay::Help(_) => HELP,
-            Overlay::Legend | Overlay::Notice(_) => CLOSE,
+            Overlay::Legend | Overlay::Notice(_) | Overlay::Info(_) => CLOSE,
             Overlay::Menu => MENU_KEYS,
             Overlay::Jump(_) => JUMP,
             Overlay::Initials(_) => INITIALS,
@@ -195,6 +211,8 @@ impl Overlay {
             Overlay::ConfirmQuit => CONFIRM_QUIT,
             Overlay::PlanMove(_) => PLAN_MOVE,
             Overlay::Draft(_) => DRAFT,
+            Overlay::ConfirmKeep(..) => CONFIRM_KEEP,
+            Overlay::ConfirmApprove => CONFIRM_APPROVE,
         }
     }
 }
@@ -269,7 +287,21 @@ impl App {
                 self.overlay = Some(Overlay::Help(top.min(last)));
                 None
             }
-            Overlay::Legend | Overlay::Notice(_) => None,
+            Overlay::Legend | Overlay::Notice(_) | Overlay::Info(_) => None,
+            Overlay::ConfirmKeep(cell, date) => match does {
+                Some(Do::Confirm) => Some(Effect::KeepMove(cell, date)),
+                _ => {
+                    self.say(format!("{cell} on {date} for this screen only: not kept"));
+                    None
+                }
+            },
+            Overlay::ConfirmApprove => match does {
+                Some(Do::Confirm) => Some(Effect::ApprovePlan),
+                _ => {
+                    self.say("the plan is not approved");
+                    None
+                }
+            },
             Overlay::ConfirmQuit => {
                 if does == Some(Do::Confirm) {
                     self.quit = true;
@@ -624,6 +656,44 @@ pub fn draw(f: &mut Frame, app: &App, o: &Overlay) {
             let lines = vec![Line::styled(text.clone(), bold().patch(fg(app, Color::Red))), keys_line(CLOSE)];
             popup(f, centered(full, 70, 5), "Note", lines)
         }
+        Overlay::Info(text) => {
+            let mut lines: Vec<Line> = text.lines().map(|t| Line::raw(t.to_string())).collect();
+            lines.push(keys_line(CLOSE));
+            popup(f, centered(full, 70, 5), "Done", lines)
+        }
+        Overlay::ConfirmKeep(cell, date) => {
+            let by = app.who.clone().unwrap_or_default();
+            popup(
+                f,
+                centered(full, 66, 6),
+                "Keep this move?",
+                vec![
+                    Line::raw(format!("Keep {cell}'s anode change on {date} as a decision, by {by}?")),
+                    Line::raw("Recorded in the event log: later plans keep it while it stays"),
+                    Line::raw("feasible (or say why they drop it); undo takes it back."),
+                    keys_line(CONFIRM_KEEP),
+                ],
+            );
+        }
+        Overlay::ConfirmApprove => {
+            let by = app.who.clone().unwrap_or_default();
+            let (from, to) = app
+                .plan
+                .plan
+                .as_ref()
+                .map_or((String::new(), String::new()), |p| (p.from.to_string(), p.days.last().map_or(p.from, |d| d.date).to_string()));
+            popup(
+                f,
+                centered(full, 66, 6),
+                "Approve the plan?",
+                vec![
+                    Line::raw(format!("Approve the plan {from} – {to} as shown, signed {by}?")),
+                    Line::raw("Later plans show what changed since (moved, added, dropped)."),
+                    Line::raw("The plan stays advisory: site procedures and engineers decide."),
+                    keys_line(CONFIRM_APPROVE),
+                ],
+            );
+        }
         Overlay::Draft(d) => {
             let title = super::form::FormKind::from_name(&d.form).map_or(d.form.clone(), |k| k.title().to_string());
             let by = d.by.as_deref().map_or(String::new(), |b| format!(", by {b}"));
@@ -653,8 +723,22 @@ mod tests {
 
     #[test]
     fn every_overlay_table_answers_each_key_once() {
-        let tables =
-            [HELP, CLOSE, MENU_KEYS, JUMP, INITIALS, FORM, REVIEW, REVIEW_QUESTIONED, REVIEW_FORCED, CONFIRM_UNDO, CONFIRM_QUIT, PLAN_MOVE];
+        let tables = [
+            HELP,
+            CLOSE,
+            MENU_KEYS,
+            JUMP,
+            INITIALS,
+            FORM,
+            REVIEW,
+            REVIEW_QUESTIONED,
+            REVIEW_FORCED,
+            CONFIRM_UNDO,
+            CONFIRM_QUIT,
+            PLAN_MOVE,
+            CONFIRM_KEEP,
+            CONFIRM_APPROVE,
+        ];
         for t in tables {
             let named: Vec<Key> = t.iter().filter_map(|b| if let These(k) = b.keys { Some(k) } else { None }).flatten().copied().collect();
             for (i, k) in named.iter().enumerate() {

@@ -11,7 +11,8 @@ use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 use super::app::App;
 use super::draw::{bold, fg};
 use super::overlay::Overlay;
-use crate::domain::plan::{AnodeChange, Plan, PlanDay};
+use crate::domain::plan::{AnodeChange, Bound, Plan, PlanDay};
+use crate::domain::plan_diff::PlanDiff;
 
 /// The plan screen's state: the plan, the hand moves, the selected day and job.
 #[derive(Debug, Clone, PartialEq)]
@@ -25,11 +26,14 @@ pub struct PlanScreen {
     pub job: usize,
     /// Production days planned.
     pub days: u32,
+    /// The hand move just placed, until the replan says whether it holds
+    /// (then the foreman is asked whether to keep it as a decision).
+    pub placed: Option<(String, NaiveDate)>,
 }
 
 impl Default for PlanScreen {
     fn default() -> Self {
-        PlanScreen { plan: None, moves: Vec::new(), replaced: None, day: 0, job: 0, days: 21 }
+        PlanScreen { plan: None, moves: Vec::new(), replaced: None, day: 0, job: 0, days: 21, placed: None }
     }
 }
 
@@ -69,6 +73,7 @@ impl PlanScreen {
         let date = self.plan.as_ref()?.days.get(self.day)?.date;
         self.replaced = self.moves.iter().position(|(c, _)| c == cell).map(|i| self.moves.remove(i));
         self.moves.push((cell.to_string(), date));
+        self.placed = Some((cell.to_string(), date));
         Some(date)
     }
 
@@ -81,6 +86,7 @@ impl PlanScreen {
 
     /// A refused replan takes the last hand move back (and puts back the one it replaced).
     pub fn take_back(&mut self) -> Option<(String, NaiveDate)> {
+        self.placed = None;
         let last = self.moves.pop()?;
         self.moves.extend(self.replaced.take());
         Some(last)
@@ -96,10 +102,43 @@ fn bar(load: u32, cap: u32, width: usize) -> String {
     format!("{}{}", "█".repeat(full), "░".repeat(width - full))
 }
 
+/// The constraint that held a day's work back, in a word (blank: none did).
+fn bound_word(b: Option<Bound>) -> &'static str {
+    match b {
+        Some(Bound::Crew) => "crew",
+        Some(Bound::Stripping) => "strip",
+        Some(Bound::Anodes) => "anode",
+        Some(Bound::Crane) => "crane",
+        None => "",
+    }
+}
+
+/// What changed since the last approved plan, counts first so they survive a narrow screen.
+fn diff_line(d: Option<&PlanDiff>, app: &App) -> String {
+    let Some(d) = d else { return "no plan approved yet: S signs this one".to_string() };
+    let when = app.days.zone.local(d.approved_at).format("%m-%d %H:%M");
+    if d.is_empty() {
+        return format!("no change since the plan {} approved {when}", d.by);
+    }
+    let kind = |k: &str| if k == "anode_change" { "anodes" } else { "harvest" };
+    let md = |x: chrono::NaiveDate| x.format("%m-%d").to_string();
+    let mut items: Vec<String> = d.moved.iter().map(|m| format!("{} {} {}→{}", m.cell, kind(m.kind), md(m.from), md(m.to))).collect();
+    items.extend(d.added.iter().map(|j| format!("+{} {} {}", j.cell, kind(j.kind), md(j.date))));
+    items.extend(d.dropped.iter().map(|j| format!("−{} {} {}", j.cell, kind(j.kind), md(j.date))));
+    format!(
+        "since {}'s approval {when}: {} moved, {} added, {} dropped · {}",
+        d.by,
+        d.moved.len(),
+        d.added.len(),
+        d.dropped.len(),
+        items.join(", ")
+    )
+}
+
 fn day_line(app: &App, d: &PlanDay, selected: bool, moving: bool) -> Line<'static> {
     let overdue = d.anode_changes.iter().any(|c| c.overdue) || d.harvests.iter().any(|h| h.overdue);
     let text = format!(
-        "{} {} {} {:>2}/{:<2} A {:>4} H {:>2} Cu {:>5.1} t{}",
+        "{} {} {} {:>2}/{:<2} A {:>4} H {:>2} Cu {:>5.1} t{}{}",
         d.date.weekday(),
         d.date.format("%m-%d"),
         bar(d.crew_load, d.crew_capacity, 10),
@@ -108,6 +147,7 @@ fn day_line(app: &App, d: &PlanDay, selected: bool, moving: bool) -> Line<'stati
         d.anodes_needed,
         d.harvests.len(),
         d.copper_tonnes,
+        if d.bound_by.is_some() { format!(" {}", bound_word(d.bound_by)) } else { String::new() },
         if overdue { " !" } else { "" }
     );
     let mut style = if d.crew_capacity == 0 { fg(app, Color::DarkGray) } else { Default::default() };
@@ -130,7 +170,11 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         return;
     };
     let wide = area.width >= 120;
-    let [advisory, totals, rest] = Layout::vertical([Constraint::Length(1), Constraint::Length(1), Constraint::Min(4)]).areas(area);
+    let since = diff_line(plan.since_approved.as_ref(), app);
+    // on a wide screen a long list of changes takes a second line; a narrow one keeps the counts
+    let since_rows = if wide && since.chars().count() > area.width as usize { 2 } else { 1 };
+    let [advisory, changed, totals, rest] =
+        Layout::vertical([Constraint::Length(1), Constraint::Length(since_rows), Constraint::Length(1), Constraint::Min(4)]).areas(area);
     f.render_widget(
         Paragraph::new(Line::styled(
             "ADVISORY plan: lifts, lock-out and acid handling follow site procedures; qualified engineers decide.",
@@ -138,6 +182,8 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         )),
         advisory,
     );
+    let style = if plan.since_approved.as_ref().is_some_and(|d| !d.is_empty()) { bold().patch(fg(app, Color::Yellow)) } else { bold() };
+    f.render_widget(Paragraph::new(Line::styled(since, style)).wrap(Wrap { trim: false }), changed);
     let changes: usize = plan.days.iter().map(|d| d.anode_changes.len()).sum();
     let anodes: u64 = plan.days.iter().map(|d| d.anodes_needed).sum();
     let anode_t: f64 = plan.days.iter().map(|d| d.anode_tonnes).sum();
@@ -156,7 +202,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         totals,
     );
     let [board, detail] = if wide {
-        Layout::horizontal([Constraint::Length(58), Constraint::Min(30)]).areas(rest)
+        Layout::horizontal([Constraint::Length(60), Constraint::Min(30)]).areas(rest)
     } else {
         Layout::vertical([Constraint::Percentage(50), Constraint::Percentage(50)]).areas(rest)
     };
@@ -236,7 +282,21 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             l.push(Line::styled(format!("  {} {}: {}", u.cell, u.kind.replace('_', " "), u.message), fg(app, Color::Red)));
         }
     }
-    l.push(Line::styled("! overdue   * moved by hand", fg(app, Color::DarkGray)));
+    if !plan.kept_moves.is_empty() {
+        let kept: Vec<String> = plan
+            .kept_moves
+            .iter()
+            .map(|k| format!("{} {} {}{}", k.cell, k.date.format("%m-%d"), k.by, if k.applied { "" } else { " (after the plan)" }))
+            .collect();
+        l.push(Line::raw(format!("kept: {}", kept.join(" · "))));
+    }
+    for d in &plan.dropped_moves {
+        l.push(Line::styled(
+            format!("kept move dropped: {} {} ({}): {}", d.cell, d.date.format("%m-%d"), d.by, d.reason),
+            fg(app, Color::Red),
+        ));
+    }
+    l.push(Line::styled("! overdue  * moved by hand or kept  crew/strip/anode/crane: what held the day", fg(app, Color::DarkGray)));
     let block = Block::default().borders(if wide { Borders::LEFT } else { Borders::TOP });
     f.render_widget(Paragraph::new(l).block(block).wrap(Wrap { trim: false }), detail);
 }
