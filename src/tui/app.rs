@@ -9,9 +9,11 @@
 
 use chrono::Duration;
 
+use super::accuracy::AccuracyScreen;
 use super::cell::CellScreen;
 use super::entries::EntriesScreen;
 use super::form::{Form, FormContext, FormKind, form_field};
+use super::patrol::PatrolScreen;
 use super::plan::PlanScreen;
 use super::rectifier::RectifierScreen;
 use super::tankhouse::{SIDE_PANEL, TILE_W, TankhouseScreen, WIDE};
@@ -35,6 +37,10 @@ pub enum View {
     Rectifier,
     Entries,
     Plan,
+    /// The cells to check for shorts, most suspect first.
+    Patrol,
+    /// How the learnt forecasts compared with the weighings (the back-test).
+    Accuracy,
 }
 
 impl View {
@@ -45,6 +51,8 @@ impl View {
             View::Rectifier => "Rectifiers",
             View::Entries => "Entries",
             View::Plan => "Plan",
+            View::Patrol => "Patrol",
+            View::Accuracy => "Accuracy",
         }
     }
 }
@@ -65,6 +73,10 @@ pub enum Action {
     PlanJob(i32),
     PlanMove,
     PlanReset,
+    /// The patrol list's selected cell, opened on the cell screen.
+    OpenPatrolCell,
+    /// The cell screen's right side: charts, or the predictions against the weighings in full.
+    CellWeighings,
     EntryMenu,
     UndoLast,
     ShowView(View),
@@ -87,6 +99,11 @@ pub enum Effect {
     LoadRecent,
     /// Plan the coming days with the hand moves made so far.
     LoadPlan,
+    /// The cell's back-test rows: its predictions against its weighings.
+    LoadCellBacktest(String),
+    LoadPatrol,
+    /// The whole plant's back-test, for the accuracy screen.
+    LoadAccuracy,
     /// The review step: run the checks, write nothing.
     Check(Vec<(Entry, Opts)>),
     Commit(Vec<(Entry, Opts)>),
@@ -141,6 +158,8 @@ pub struct App {
     pub rectifiers: RectifierScreen,
     pub entries: EntriesScreen,
     pub plan: PlanScreen,
+    pub patrol: PatrolScreen,
+    pub accuracy: AccuracyScreen,
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
@@ -176,6 +195,8 @@ impl App {
             rectifiers: RectifierScreen::default(),
             entries: EntriesScreen::default(),
             plan: PlanScreen::default(),
+            patrol: PatrolScreen::default(),
+            accuracy: AccuracyScreen::default(),
             status: None,
             unsaved: None,
             unsaved_form: None,
@@ -336,6 +357,8 @@ impl App {
                     View::Entries => Some(Effect::LoadRecent),
                     View::Plan => Some(Effect::LoadPlan),
                     View::Cell => self.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
+                    View::Patrol => Some(Effect::LoadPatrol),
+                    View::Accuracy => Some(Effect::LoadAccuracy),
                     View::Tankhouse => None,
                 }
             }
@@ -416,6 +439,17 @@ impl App {
                 self.say("hand moves dropped: the plan is levelled afresh");
                 Some(Effect::LoadPlan)
             }
+            Action::OpenPatrolCell => {
+                let cell = self.patrol.selected().map(|p| p.cell.clone())?;
+                let i = self.cells.iter().position(|c| c.cell == cell)?;
+                self.tankhouse.cursor = i;
+                self.view = View::Cell;
+                Some(Effect::LoadDetail(cell))
+            }
+            Action::CellWeighings => {
+                self.cell.weighings = !self.cell.weighings;
+                None
+            }
             Action::Input(_) | Action::Resize(..) => None,
         }
     }
@@ -449,6 +483,11 @@ impl App {
                 self.plan.moved(dy);
                 None
             }
+            View::Patrol => {
+                self.patrol.moved(dy);
+                None
+            }
+            View::Accuracy => None,
         }
     }
 
@@ -548,6 +587,18 @@ impl App {
 
     pub fn loaded_detail(&mut self, d: CellDetail) {
         self.cell.detail = Some(d);
+    }
+
+    pub fn loaded_cell_backtest(&mut self, cell: String, b: crate::domain::backtest::Backtest) {
+        self.cell.backtest = Some((cell, b));
+    }
+
+    pub fn loaded_patrol(&mut self, p: crate::domain::patrol::Patrol) {
+        self.patrol.loaded(p);
+    }
+
+    pub fn loaded_accuracy(&mut self, b: crate::domain::backtest::Backtest) {
+        self.accuracy.loaded(b);
     }
 
     pub fn loaded_trends(&mut self, t: Vec<CircuitTrend>) {

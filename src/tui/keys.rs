@@ -73,6 +73,8 @@ pub const GLOBAL: &[Binding] = &[
     b(&[Char('r')], Action::ShowView(View::Rectifier), "rectifiers: circuit current", None),
     b(&[Char('e')], Action::ShowView(View::Entries), "entries: the event log", None),
     b(&[Char('p')], Action::ShowView(View::Plan), "plan: anode changes and harvests, day by day", Some("plan")),
+    b(&[Char('s')], Action::ShowView(View::Patrol), "patrol: the cells to check for shorts, most suspect first", None),
+    b(&[Char('f')], Action::ShowView(View::Accuracy), "forecast accuracy: predictions against weighings", None),
     b(&[Char('i')], Action::AskInitials, "change who is logging (initials)", None),
     b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
     b(&[F(5)], Action::Reload, "reload from the database", None),
@@ -100,6 +102,7 @@ pub const CELL: &[Binding] = &[
     b(&[Right, Char('l')], Action::Move(1, 0), "next cell", None),
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
     b(&[Char('L')], Action::Legend, "legend of the cell symbols", None),
+    b(&[Tab], Action::CellWeighings, "predictions against weighings in full, or the charts", Some("weighings")),
 ];
 
 pub const RECTIFIER: &[Binding] = &[
@@ -127,6 +130,15 @@ pub const PLAN: &[Binding] = &[
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
 ];
 
+pub const PATROL: &[Binding] = &[
+    b(&[Up, Char('k')], Action::Move(0, -1), "more suspect cell", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "less suspect cell", None),
+    b(&[Enter], Action::OpenPatrolCell, "open the selected cell", Some("cell")),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+];
+
+pub const ACCURACY: &[Binding] = &[b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back"))];
+
 /// The table of a screen.
 pub fn table(view: View) -> &'static [Binding] {
     match view {
@@ -135,6 +147,8 @@ pub fn table(view: View) -> &'static [Binding] {
         View::Rectifier => RECTIFIER,
         View::Entries => ENTRIES,
         View::Plan => PLAN,
+        View::Patrol => PATROL,
+        View::Accuracy => ACCURACY,
     }
 }
 
@@ -166,6 +180,18 @@ mod tests {
                 assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");
             }
         }
+    }
+
+    #[test]
+    fn no_key_is_bound_twice_on_the_learning_screens() {
+        for view in [View::Patrol, View::Accuracy, View::Cell] {
+            let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
+            for (i, k) in all.iter().enumerate() {
+                assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");
+            }
+        }
+        assert_eq!(resolve(View::Patrol, Key::Enter), Some(Action::OpenPatrolCell));
+        assert_eq!(resolve(View::Tankhouse, Key::Char('s')), Some(Action::ShowView(View::Patrol)));
     }
 
     #[test]
