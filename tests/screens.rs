@@ -517,25 +517,28 @@ fn snapshots_of_the_learning_views() {
 fn the_patrol_view_opens_the_selected_cell() {
     let mut f = session();
     start(&mut f);
+    assert!(f.s.app.patrol.patrol.is_none(), "the patrol is read only when its view opens");
     f.s.press(Key::Char('s'));
     let list = f.s.plant.patrol(fixed()).unwrap();
     let shown = f.s.app.patrol.patrol.clone().expect("the patrol list is loaded when the view opens");
     assert_eq!(shown, list);
     assert!(list.cells.windows(2).all(|w| w[0].score >= w[1].score), "most suspect first");
-    // the third most suspect cell, chosen with the keys
+    // the fourth most suspect cell, chosen with the keys
     f.s.press(Key::Char('j'));
     f.s.press(Key::Down);
     f.s.press(Key::Char('k'));
     f.s.press(Key::Char('j'));
-    let third = list.cells[2].cell.clone();
-    assert_eq!(f.s.app.patrol.selected().unwrap().cell, third);
-    assert!(screen(&f.s, 80, 24).contains(&third));
+    f.s.press(Key::Char('j'));
+    let fourth = list.cells[3].cell.clone();
+    assert_ne!(f.s.app.selected().unwrap().cell, fourth, "not the cell the tankhouse had selected already");
+    assert_eq!(f.s.app.patrol.selected().unwrap().cell, fourth);
+    assert!(screen(&f.s, 80, 24).contains(&fourth));
     f.s.press(Key::Enter);
     assert_eq!(f.s.app.view, View::Cell);
-    assert_eq!(f.s.app.selected().unwrap().cell, third);
-    assert_eq!(f.s.app.cell.detail.as_ref().unwrap().forecast.cell, third);
-    assert_eq!(f.s.app.cell.backtest.as_ref().unwrap().0, third, "its weighings are loaded with it");
-    assert!(screen(&f.s, 80, 24).lines().nth(1).unwrap().starts_with(&third));
+    assert_eq!(f.s.app.selected().unwrap().cell, fourth);
+    assert_eq!(f.s.app.cell.detail.as_ref().unwrap().forecast.cell, fourth);
+    assert_eq!(f.s.app.cell.backtest.as_ref().unwrap().0, fourth, "its weighings are loaded with it");
+    assert!(screen(&f.s, 80, 24).lines().nth(1).unwrap().starts_with(&fourth));
 }
 
 #[test]
@@ -604,4 +607,35 @@ fn a_weighing_left_out_of_learning_says_why_on_the_cell_view() {
     let flat = panel.join(" ").split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(flat.contains("the crop weighed at"), "{text}");
     assert!(flat.contains("is impossible: it is kept in the log but not learnt from"), "{text}");
+}
+
+#[test]
+fn the_accuracy_view_sets_the_learnt_rule_against_the_fixed_one_and_follows_new_weighings() {
+    let mut f = session();
+    start(&mut f);
+    assert!(f.s.app.accuracy.backtest.is_none(), "the back-test runs only when its view opens");
+    f.s.press(Key::Char('f'));
+    let bt = f.s.plant.backtest(None, fixed(), None).unwrap();
+    assert_eq!(f.s.app.accuracy.backtest.as_ref().unwrap().summary, bt.summary);
+    let s = bt.summary;
+    assert!(s.mass_mape_pct.unwrap() < s.fixed_mass_mape_pct.unwrap(), "the demo's learnt rule beats the fixed one");
+    let text = screen(&f.s, 80, 24);
+    assert!(text.contains(&format!("mass error       {:.2} % learnt", s.mass_mape_pct.unwrap())), "{text}");
+    assert!(text.contains(&format!("{:.2} % fixed η", s.fixed_mass_mape_pct.unwrap())), "{text}");
+    // the sections' rows add up to the plant's, and each matches its own rows
+    let sections = &f.s.app.accuracy.sections;
+    assert_eq!(sections.iter().map(|x| x.2.crops).sum::<usize>(), s.crops);
+    assert_eq!(sections.iter().map(|x| x.2.scrap).sum::<usize>(), s.scrap);
+    let a: Vec<f64> = bt.crops.iter().filter(|r| r.section == "A").map(|r| r.error_pct.abs()).collect();
+    let a_mape = a.iter().sum::<f64>() / a.len() as f64;
+    let row = sections.iter().find(|x| x.1 == "A").unwrap();
+    assert!((row.2.mass_mape_pct.unwrap() - a_mape).abs() < 1e-9);
+    assert!(text.contains(&format!("A    {:>5} {:>6.2}", a.len(), a_mape)), "{text}");
+    // a weighing logged while the view is open is in it after the reload
+    let c = forecast_of(&f.s, "A09");
+    let kg = (c.cathode.unwrap().mass_kg * 51.0 * 0.99).round();
+    let entry = tankbook::domain::entry::Entry::Harvest { cell: "A09".into(), at: fixed(), total_kg: kg };
+    f.s.plant.record_batch(&[(entry, tankbook::plant::Opts { by: "AK".into(), force: true, now: fixed() })]).unwrap();
+    f.s.press(Key::F(5));
+    assert_eq!(f.s.app.accuracy.backtest.as_ref().unwrap().summary.crops, s.crops + 1);
 }
