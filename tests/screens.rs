@@ -743,3 +743,148 @@ fn the_daily_backup_is_made_in_the_background_after_a_commit_never_after_a_draft
     assert!(s.finish_backups(std::time::Duration::from_secs(30)));
     assert_eq!(backups_in(dir.path()), ["plant-2026-03-01.db"]);
 }
+
+#[test]
+fn snapshots_of_the_learning_views() {
+    let mut f = session();
+    start(&mut f);
+    f.s.type_str("/A09");
+    f.s.press(Key::Enter);
+    f.s.press(Key::Enter);
+    f.s.app.status = None;
+    f.s.press(Key::Tab);
+    snap("cell_weighings", &f.s);
+    f.s.press(Key::Char('s'));
+    assert_eq!(f.s.app.view, View::Patrol);
+    snap("patrol", &f.s);
+    f.s.press(Key::Char('f'));
+    assert_eq!(f.s.app.view, View::Accuracy);
+    snap("accuracy", &f.s);
+}
+
+#[test]
+fn the_patrol_view_opens_the_selected_cell() {
+    let mut f = session();
+    start(&mut f);
+    assert!(f.s.app.patrol.patrol.is_none(), "the patrol is read only when its view opens");
+    f.s.press(Key::Char('s'));
+    let list = f.s.plant.patrol(fixed()).unwrap();
+    let shown = f.s.app.patrol.patrol.clone().expect("the patrol list is loaded when the view opens");
+    assert_eq!(shown, list);
+    assert!(list.cells.windows(2).all(|w| w[0].score >= w[1].score), "most suspect first");
+    // the fourth most suspect cell, chosen with the keys
+    f.s.press(Key::Char('j'));
+    f.s.press(Key::Down);
+    f.s.press(Key::Char('k'));
+    f.s.press(Key::Char('j'));
+    f.s.press(Key::Char('j'));
+    let fourth = list.cells[3].cell.clone();
+    assert_ne!(f.s.app.selected().unwrap().cell, fourth, "not the cell the tankhouse had selected already");
+    assert_eq!(f.s.app.patrol.selected().unwrap().cell, fourth);
+    assert!(screen(&f.s, 80, 24).contains(&fourth));
+    f.s.press(Key::Enter);
+    assert_eq!(f.s.app.view, View::Cell);
+    assert_eq!(f.s.app.selected().unwrap().cell, fourth);
+    assert_eq!(f.s.app.cell.detail.as_ref().unwrap().forecast.cell, fourth);
+    assert_eq!(f.s.app.cell.backtest.as_ref().unwrap().0, fourth, "its weighings are loaded with it");
+    assert!(screen(&f.s, 80, 24).lines().nth(1).unwrap().starts_with(&fourth));
+}
+
+#[test]
+fn the_cell_view_shows_what_it_learnt_and_how_it_predicted() {
+    let mut f = session();
+    start(&mut f);
+    f.s.type_str("/A09");
+    f.s.press(Key::Enter);
+    f.s.press(Key::Enter);
+    let c = forecast_of(&f.s, "A09");
+    assert_eq!(c.cathode_efficiency_source.name(), "cell", "the demo's A09 has crops of its own");
+    let learnt = format!(
+        "Cathode η {:.1} % ±{:.1} · cell · {} crops",
+        c.cathode_efficiency * 100.0,
+        c.cathode_efficiency_se * 100.0,
+        c.crops_learnt
+    );
+    let anode =
+        format!("Anode ×{:.3} ±{:.3} · {} · {} scrap", c.anode_factor, c.anode_factor_se, c.anode_factor_source.name(), c.scrap_learnt);
+    let text = screen(&f.s, 80, 24);
+    assert!(text.contains(&learnt), "{learnt}\n{text}");
+    assert!(text.contains(&anode), "{anode}\n{text}");
+    let wide = screen(&f.s, 160, 48);
+    assert!(wide.contains(&format!("· cell · {} crops learnt", c.crops_learnt)), "{wide}");
+    // its last crop's back-test row: weighed and predicted kg, beside the charts on a wide screen, on Tab at 80
+    let bt = f.s.plant.backtest(None, fixed(), Some("A09")).unwrap();
+    let last = bt.crops.last().unwrap();
+    let row = format!("{:>5.0} {:>5.0} {:>+5.1} {:>+5.1}", last.weighed_kg, last.predicted_kg, last.error_pct, last.fixed_error_pct);
+    assert!(!text.contains(&row), "the charts first at 80 columns");
+    f.s.press(Key::Tab);
+    let text = screen(&f.s, 80, 24);
+    assert!(text.contains(&row), "{row}\n{text}");
+    assert!(
+        text.contains(&format!(
+            "{} crops: error {:.2} %, fixed η {:.2} %",
+            bt.summary.crops,
+            bt.summary.mass_mape_pct.unwrap(),
+            bt.summary.fixed_mass_mape_pct.unwrap()
+        )),
+        "{text}"
+    );
+    assert!(wide.contains(&format!("{:>7.0} {:>9.0} {:>6.0}", last.weighed_kg, last.predicted_kg, last.fixed_kg)), "{wide}");
+    f.s.press(Key::Tab);
+    assert!(!f.s.app.cell.weighings, "Tab goes back to the charts");
+}
+
+#[test]
+fn a_weighing_left_out_of_learning_says_why_on_the_cell_view() {
+    let mut f = session();
+    start(&mut f);
+    // A09's crop weighed at 15 % over what its charge can plate: over 100 % efficiency
+    let c = forecast_of(&f.s, "A09");
+    let kg = (c.cathode.as_ref().unwrap().mass_kg * 51.0 / c.cathode_efficiency * 1.15).round();
+    let entry = tankbook::domain::entry::Entry::Harvest { cell: "A09".into(), at: fixed(), total_kg: kg };
+    f.s.plant.record_batch(&[(entry, tankbook::plant::Opts { by: "AK".into(), force: true, now: fixed() })]).unwrap();
+    f.s.perform(tankbook::tui::app::Effect::Reload);
+    f.s.type_str("/A09");
+    f.s.press(Key::Enter);
+    f.s.press(Key::Enter);
+    f.s.press(Key::Tab);
+    let why = f.s.app.selected().unwrap().warnings.iter().find(|w| w.code == "weighing_not_learnt").expect("left out").message.clone();
+    assert!(why.contains("is impossible"), "{why}");
+    // the sentence is wrapped in the panel: its words are all on the screen, in order
+    let text = screen(&f.s, 160, 48);
+    let panel: Vec<String> = text.lines().map(|l| l.chars().skip(57).take_while(|c| *c != '│').collect()).collect();
+    let flat = panel.join(" ").split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(flat.contains("the crop weighed at"), "{text}");
+    assert!(flat.contains("is impossible: it is kept in the log but not learnt from"), "{text}");
+}
+
+#[test]
+fn the_accuracy_view_sets_the_learnt_rule_against_the_fixed_one_and_follows_new_weighings() {
+    let mut f = session();
+    start(&mut f);
+    assert!(f.s.app.accuracy.backtest.is_none(), "the back-test runs only when its view opens");
+    f.s.press(Key::Char('f'));
+    let bt = f.s.plant.backtest(None, fixed(), None).unwrap();
+    assert_eq!(f.s.app.accuracy.backtest.as_ref().unwrap().summary, bt.summary);
+    let s = bt.summary;
+    assert!(s.mass_mape_pct.unwrap() < s.fixed_mass_mape_pct.unwrap(), "the demo's learnt rule beats the fixed one");
+    let text = screen(&f.s, 80, 24);
+    assert!(text.contains(&format!("mass error       {:.2} % learnt", s.mass_mape_pct.unwrap())), "{text}");
+    assert!(text.contains(&format!("{:.2} % fixed η", s.fixed_mass_mape_pct.unwrap())), "{text}");
+    // the sections' rows add up to the plant's, and each matches its own rows
+    let sections = &f.s.app.accuracy.sections;
+    assert_eq!(sections.iter().map(|x| x.2.crops).sum::<usize>(), s.crops);
+    assert_eq!(sections.iter().map(|x| x.2.scrap).sum::<usize>(), s.scrap);
+    let a: Vec<f64> = bt.crops.iter().filter(|r| r.section == "A").map(|r| r.error_pct.abs()).collect();
+    let a_mape = a.iter().sum::<f64>() / a.len() as f64;
+    let row = sections.iter().find(|x| x.1 == "A").unwrap();
+    assert!((row.2.mass_mape_pct.unwrap() - a_mape).abs() < 1e-9);
+    assert!(text.contains(&format!("A    {:>5} {:>6.2}", a.len(), a_mape)), "{text}");
+    // a weighing logged while the view is open is in it after the reload
+    let c = forecast_of(&f.s, "A09");
+    let kg = (c.cathode.unwrap().mass_kg * 51.0 * 0.99).round();
+    let entry = tankbook::domain::entry::Entry::Harvest { cell: "A09".into(), at: fixed(), total_kg: kg };
+    f.s.plant.record_batch(&[(entry, tankbook::plant::Opts { by: "AK".into(), force: true, now: fixed() })]).unwrap();
+    f.s.press(Key::F(5));
+    assert_eq!(f.s.app.accuracy.backtest.as_ref().unwrap().summary.crops, s.crops + 1);
+}

@@ -9,10 +9,12 @@
 
 use chrono::Duration;
 
+use super::accuracy::AccuracyScreen;
 use super::balance::BalanceScreen;
 use super::cell::CellScreen;
 use super::entries::EntriesScreen;
 use super::form::{Form, FormContext, FormKind, form_field};
+use super::patrol::PatrolScreen;
 use super::plan::PlanScreen;
 use super::rectifier::RectifierScreen;
 use super::tankhouse::{SIDE_PANEL, TILE_W, TankhouseScreen, WIDE};
@@ -38,6 +40,10 @@ pub enum View {
     Plan,
     /// The copper balance of the month so far.
     Balance,
+    /// The cells to check for shorts, most suspect first.
+    Patrol,
+    /// How the learnt forecasts compared with the weighings (the back-test).
+    Accuracy,
 }
 
 impl View {
@@ -49,6 +55,8 @@ impl View {
             View::Entries => "Entries",
             View::Plan => "Plan",
             View::Balance => "Copper balance",
+            View::Patrol => "Patrol",
+            View::Accuracy => "Accuracy",
         }
     }
 }
@@ -73,6 +81,10 @@ pub enum Action {
     PlanApprove,
     /// Write the report of the shift in progress and say where.
     ShiftReport,
+    /// The patrol list's selected cell, opened on the cell screen.
+    OpenPatrolCell,
+    /// The cell screen's right side: charts, or the predictions against the weighings in full.
+    CellWeighings,
     EntryMenu,
     UndoLast,
     ShowView(View),
@@ -95,6 +107,11 @@ pub enum Effect {
     LoadRecent,
     /// Plan the coming days with the hand moves made so far.
     LoadPlan,
+    /// The cell's back-test rows: its predictions against its weighings.
+    LoadCellBacktest(String),
+    LoadPatrol,
+    /// The whole plant's back-test, for the accuracy screen.
+    LoadAccuracy,
     /// The review step: run the checks, write nothing.
     Check(Vec<(Entry, Opts)>),
     Commit(Vec<(Entry, Opts)>),
@@ -158,6 +175,8 @@ pub struct App {
     pub entries: EntriesScreen,
     pub plan: PlanScreen,
     pub balance: BalanceScreen,
+    pub patrol: PatrolScreen,
+    pub accuracy: AccuracyScreen,
     pub status: Option<Status>,
     /// Entries whose commit failed: kept in memory, never dropped.
     pub unsaved: Option<Vec<(Entry, Opts)>>,
@@ -194,6 +213,8 @@ impl App {
             entries: EntriesScreen::default(),
             plan: PlanScreen::default(),
             balance: BalanceScreen::default(),
+            patrol: PatrolScreen::default(),
+            accuracy: AccuracyScreen::default(),
             status: None,
             unsaved: None,
             unsaved_form: None,
@@ -355,6 +376,8 @@ impl App {
                     View::Plan => Some(Effect::LoadPlan),
                     View::Balance => Some(Effect::LoadBalance),
                     View::Cell => self.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
+                    View::Patrol => Some(Effect::LoadPatrol),
+                    View::Accuracy => Some(Effect::LoadAccuracy),
                     View::Tankhouse => None,
                 }
             }
@@ -450,6 +473,17 @@ impl App {
                 self.say("writing the shift report…");
                 Some(Effect::SaveReport)
             }
+            Action::OpenPatrolCell => {
+                let cell = self.patrol.selected().map(|p| p.cell.clone())?;
+                let i = self.cells.iter().position(|c| c.cell == cell)?;
+                self.tankhouse.cursor = i;
+                self.view = View::Cell;
+                Some(Effect::LoadDetail(cell))
+            }
+            Action::CellWeighings => {
+                self.cell.weighings = !self.cell.weighings;
+                None
+            }
             Action::Input(_) | Action::Resize(..) => None,
         }
     }
@@ -484,6 +518,11 @@ impl App {
                 None
             }
             View::Balance => None,
+            View::Patrol => {
+                self.patrol.moved(dy);
+                None
+            }
+            View::Accuracy => None,
         }
     }
 
@@ -583,6 +622,18 @@ impl App {
 
     pub fn loaded_detail(&mut self, d: CellDetail) {
         self.cell.detail = Some(d);
+    }
+
+    pub fn loaded_cell_backtest(&mut self, cell: String, b: crate::domain::backtest::Backtest) {
+        self.cell.backtest = Some((cell, b));
+    }
+
+    pub fn loaded_patrol(&mut self, p: crate::domain::patrol::Patrol) {
+        self.patrol.loaded(p);
+    }
+
+    pub fn loaded_accuracy(&mut self, b: crate::domain::backtest::Backtest) {
+        self.accuracy.loaded(b);
     }
 
     pub fn loaded_trends(&mut self, t: Vec<CircuitTrend>) {

@@ -6,10 +6,11 @@ use ratatui::layout::{Constraint, Layout, Rect};
 use ratatui::style::{Color, Style};
 use ratatui::symbols::Marker;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph};
+use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph, Wrap};
 
 use super::app::App;
 use super::draw::{bold, fg, state_mark};
+use crate::domain::backtest::Backtest;
 use crate::domain::charge::Time;
 use crate::domain::forecast::CellForecast;
 use crate::domain::outlook::states;
@@ -20,6 +21,10 @@ use crate::plant::CellDetail;
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct CellScreen {
     pub detail: Option<CellDetail>,
+    /// The cell's back-test (which cell, its rows): its predictions against its weighings.
+    pub backtest: Option<(String, Backtest)>,
+    /// The right side shows the predictions against the weighings in full instead of the charts.
+    pub weighings: bool,
 }
 
 /// Chart points (hours since the start, value).
@@ -73,14 +78,15 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
         }
         None => l.push(Line::raw("No crop growing")),
     }
+    l.extend(learnt_lines(c, wide));
     let last = c.last_crop_efficiency.map_or("-".into(), |e| format!("{:.1} %", e * 100.0));
-    l.push(Line::raw(format!("Efficiency used {:.1} %, last crop {last}", c.cathode_efficiency * 100.0)));
-    if let Some(d) = detail {
-        let hist: Vec<String> =
-            d.efficiencies.iter().rev().take(if wide { 10 } else { 6 }).rev().map(|(_, e, _)| format!("{:.1}", e * 100.0)).collect();
-        if !hist.is_empty() {
-            l.push(Line::raw(format!("  crops: {}", hist.join(" "))));
-        }
+    let hist: Vec<String> = detail.map_or(Vec::new(), |d| {
+        d.efficiencies.iter().rev().take(if wide { 10 } else { 6 }).rev().map(|(_, e, _)| format!("{:.1}", e * 100.0)).collect()
+    });
+    if hist.is_empty() {
+        l.push(Line::raw(format!("  last crop {last}")));
+    } else {
+        l.push(Line::raw(format!("  crops: {}", hist.join(" "))));
     }
     let est = if c.estimated_ah > 0.0 { format!(" ({:.0} kA·h estimated)", c.estimated_ah / 1000.0) } else { String::new() };
     l.push(Line::raw(format!("Charge {:.0} kA·h{est}", c.charge_ah / 1000.0)));
@@ -116,6 +122,130 @@ pub fn summary<'a>(app: &App, c: &'a CellForecast, detail: Option<&'a CellDetail
     l
 }
 
+/// The learnt values the forecast uses: cathode efficiency and anode factor,
+/// each with its source, the weighings it is learnt from and its standard error.
+pub fn learnt_lines(c: &CellForecast, wide: bool) -> Vec<Line<'static>> {
+    let (eta, se, src, n) =
+        (c.cathode_efficiency * 100.0, c.cathode_efficiency_se * 100.0, c.cathode_efficiency_source.name(), c.crops_learnt);
+    let crops = if n == 1 { "crop" } else { "crops" };
+    let mut l = vec![Line::raw(if wide {
+        format!("Cathode η {eta:.1} % ±{se:.1} · {src} · {n} {crops} learnt")
+    } else {
+        format!("Cathode η {eta:.1} % ±{se:.1} · {src} · {n} {crops}")
+    })];
+    if c.anode_kind == crate::domain::layout::AnodeKind::Soluble {
+        let (a, se, src, n) = (c.anode_factor, c.anode_factor_se, c.anode_factor_source.name(), c.scrap_learnt);
+        l.push(Line::raw(if wide {
+            format!("Anode factor {a:.3} ±{se:.3} · {src} · {n} scrap learnt")
+        } else {
+            format!("Anode ×{a:.3} ±{se:.3} · {src} · {n} scrap")
+        }));
+    }
+    l
+}
+
+/// The cell's predictions against its weighings: the back-test summary, the
+/// weighings left out of learning and why, then its last crops and scrap.
+fn weighings_lines(app: &App, c: &CellForecast, wide: bool, rows: usize, width: usize) -> Vec<Line<'static>> {
+    let mut l = Vec::new();
+    // lines the wrapped sentences take beyond their first
+    let mut extra = 0;
+    let left_out: Vec<&str> = c.warnings.iter().filter(|w| w.code == "weighing_not_learnt").map(|w| w.message.as_str()).collect();
+    let Some((_, bt)) = app.cell.backtest.as_ref().filter(|(id, _)| *id == c.cell) else {
+        l.push(Line::raw("reading the weighings…"));
+        return l;
+    };
+    let s = &bt.summary;
+    let pct = |v: Option<f64>| v.map_or("-".to_string(), |v| format!("{v:.2} %"));
+    let pts = |v: Option<f64>| v.map_or("-".to_string(), |v| format!("{v:.2}"));
+    if s.crops > 0 && !wide {
+        l.push(Line::raw(format!("{} crops: error {}, fixed η {}", s.crops, pct(s.mass_mape_pct), pct(s.fixed_mass_mape_pct))));
+        let bias = s.mass_bias_pct.map_or("-".into(), |v| format!("{v:+.2} %"));
+        let h = s.harvest_time_mae_h.map_or("-".into(), |h| format!("{h:.1} h"));
+        l.push(Line::raw(format!("  bias {bias}, harvest time ±{h}")));
+    }
+    if s.crops > 0 && wide {
+        l.push(Line::raw(format!(
+            "{} crops: mass error {} learnt, {} fixed · bias {}",
+            s.crops,
+            pct(s.mass_mape_pct),
+            pct(s.fixed_mass_mape_pct),
+            s.mass_bias_pct.map_or("-".into(), |v| format!("{v:+.2} %"))
+        )));
+        if let Some(h) = s.harvest_time_mae_h {
+            l.push(Line::raw(format!("  harvest time off by {h:.1} h on average")));
+        }
+    }
+    if s.scrap > 0 && !wide {
+        l.push(Line::raw(format!("{} scrap: error {} pts, fixed {}", s.scrap, pts(s.scrap_mae_pp), pts(s.fixed_scrap_mae_pp))));
+    }
+    if s.scrap > 0 && wide {
+        l.push(Line::raw(format!("{} scrap: error {} points learnt, {} fixed", s.scrap, pts(s.scrap_mae_pp), pts(s.fixed_scrap_mae_pp))));
+    }
+    if s.crops == 0 && s.scrap == 0 {
+        l.push(Line::raw("no weighing of this cell yet"));
+    }
+    for why in &left_out {
+        let text = format!("! {why}");
+        extra += text.chars().count().saturating_sub(1) / width.max(1);
+        l.push(Line::styled(text, fg(app, Color::Red)));
+    }
+    let room = rows.saturating_sub(l.len() + extra);
+    // scrap weighings are fewer: a few lines for them, the rest for the crops
+    let scrap_rows = if bt.scrap.is_empty() { 0 } else { bt.scrap.len().min(3).min(room / 3) };
+    let crop_rows = room.saturating_sub(if scrap_rows > 0 { scrap_rows + 1 } else { 0 }).saturating_sub(1);
+    if !bt.crops.is_empty() && crop_rows > 0 {
+        l.push(Line::styled(
+            if wide {
+                "harvested      weighed predicted  fixed   error  fixed error  η used source".to_string()
+            } else {
+                "harvested      kg  pred  err%  fix%".to_string()
+            },
+            bold(),
+        ));
+        for r in bt.crops.iter().skip(bt.crops.len().saturating_sub(crop_rows)) {
+            let when = short(app, r.harvested_at);
+            l.push(Line::raw(if wide {
+                format!(
+                    "{when} {:>7.0} {:>9.0} {:>6.0} {:>+6.2} % {:>+9.2} % {:>5.1} % {}",
+                    r.weighed_kg,
+                    r.predicted_kg,
+                    r.fixed_kg,
+                    r.error_pct,
+                    r.fixed_error_pct,
+                    r.cathode_efficiency * 100.0,
+                    r.cathode_efficiency_source.name()
+                )
+            } else {
+                format!("{when} {:>5.0} {:>5.0} {:>+5.1} {:>+5.1}", r.weighed_kg, r.predicted_kg, r.error_pct, r.fixed_error_pct)
+            }));
+        }
+    }
+    if scrap_rows > 0 {
+        l.push(Line::styled(
+            if wide {
+                "scrap pulled   weighed predicted  fixed  of the set mass: weighed predicted fixed".to_string()
+            } else {
+                "scrap pulled   kg  % set pred fixed".to_string()
+            },
+            bold(),
+        ));
+        for r in bt.scrap.iter().skip(bt.scrap.len() - scrap_rows) {
+            let when = short(app, r.pulled_at);
+            let (w, p, x) = (r.weighed_fraction * 100.0, r.predicted_fraction * 100.0, r.fixed_fraction * 100.0);
+            l.push(Line::raw(if wide {
+                format!(
+                    "{when} {:>7.0} {:>9.0} {:>6.0}                 {w:>5.1} % {p:>7.1} % {x:>5.1} %",
+                    r.weighed_kg, r.predicted_kg, r.fixed_kg
+                )
+            } else {
+                format!("{when} {:>5.0} {w:>5.1} {p:>4.1} {x:>5.1}", r.weighed_kg)
+            }));
+        }
+    }
+    l
+}
+
 pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let Some(c) = app.selected() else { return };
     let detail = app.cell.detail.as_ref().filter(|d| d.forecast.cell == c.cell);
@@ -123,6 +253,29 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     let [left, right] = Layout::horizontal([Constraint::Length(if wide { 56 } else { 40 }), Constraint::Min(20)]).areas(area);
     let l = summary(app, c, detail, wide, left.height as usize);
     f.render_widget(Paragraph::new(l), left);
+    // the predictions against the weighings: in full on Tab, else below the charts when there is room
+    let right = if app.cell.weighings || wide {
+        let [charts, panel] = if app.cell.weighings {
+            [Rect { height: 0, ..right }, right]
+        } else {
+            Layout::vertical([Constraint::Min(10), Constraint::Length(14)]).areas(right)
+        };
+        let rows = panel.height.saturating_sub(2) as usize;
+        let title = if wide { " predictions against weighings (back-test) " } else { " predicted against weighed " };
+        let block = Block::default().borders(Borders::ALL).title(title);
+        f.render_widget(
+            Paragraph::new(weighings_lines(app, c, wide, rows, panel.width.saturating_sub(2) as usize))
+                .block(block)
+                .wrap(Wrap { trim: false }),
+            panel,
+        );
+        if charts.height == 0 {
+            return;
+        }
+        charts
+    } else {
+        right
+    };
     if let Some(tr) = detail.and_then(|d| d.trajectory.as_ref()) {
         let d = detail.map(|d| &d.params);
         let h = |t: Time| (t - tr.from).num_minutes() as f64 / 60.0;

@@ -9,7 +9,7 @@ use ratatui::widgets::Paragraph;
 
 use super::app::{App, View};
 use super::keys;
-use super::{balance, cell, entries, overlay, plan, rectifier, tankhouse};
+use super::{accuracy, balance, cell, entries, overlay, patrol, plan, rectifier, tankhouse};
 use crate::domain::outlook::CellState;
 
 /// A style with `fg`, or plain when colour is off (`NO_COLOR`).
@@ -48,6 +48,8 @@ pub fn draw(f: &mut Frame, app: &App) {
         View::Entries => entries::draw(f, app, body),
         View::Plan => plan::draw(f, app, body),
         View::Balance => balance::draw(f, app, body),
+        View::Patrol => patrol::draw(f, app, body),
+        View::Accuracy => accuracy::draw(f, app, body),
     }
     draw_status(f, app, status);
     draw_hints(f, app, hints);

@@ -75,6 +75,8 @@ pub const GLOBAL: &[Binding] = &[
     b(&[Char('p')], Action::ShowView(View::Plan), "plan: anode changes and harvests, day by day", Some("plan")),
     b(&[Char('c')], Action::ShowView(View::Balance), "copper balance: the month so far, per circuit and plant", None),
     b(&[Char('R')], Action::ShiftReport, "write the shift report (printable HTML) and say where", None),
+    b(&[Char('s')], Action::ShowView(View::Patrol), "patrol: the cells to check for shorts, most suspect first", None),
+    b(&[Char('f')], Action::ShowView(View::Accuracy), "forecast accuracy: predictions against weighings", None),
     b(&[Char('i')], Action::AskInitials, "change who is logging (initials)", None),
     b(&[Char('w')], Action::RetryUnsaved, "retry saving an entry that did not save", None),
     b(&[F(5)], Action::Reload, "reload from the database", None),
@@ -102,6 +104,7 @@ pub const CELL: &[Binding] = &[
     b(&[Right, Char('l')], Action::Move(1, 0), "next cell", None),
     b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
     b(&[Char('L')], Action::Legend, "legend of the cell symbols", None),
+    b(&[Tab], Action::CellWeighings, "predictions against weighings in full, or the charts", Some("weighings")),
 ];
 
 pub const RECTIFIER: &[Binding] = &[
@@ -132,6 +135,15 @@ pub const PLAN: &[Binding] = &[
 
 pub const BALANCE: &[Binding] = &[b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back"))];
 
+pub const PATROL: &[Binding] = &[
+    b(&[Up, Char('k')], Action::Move(0, -1), "more suspect cell", None),
+    b(&[Down, Char('j')], Action::Move(0, 1), "less suspect cell", None),
+    b(&[Enter], Action::OpenPatrolCell, "open the selected cell", Some("cell")),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+];
+
+pub const ACCURACY: &[Binding] = &[b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back"))];
+
 /// The table of a screen.
 pub fn table(view: View) -> &'static [Binding] {
     match view {
@@ -141,6 +153,8 @@ pub fn table(view: View) -> &'static [Binding] {
         View::Entries => ENTRIES,
         View::Plan => PLAN,
         View::Balance => BALANCE,
+        View::Patrol => PATROL,
+        View::Accuracy => ACCURACY,
     }
 }
 
@@ -166,12 +180,24 @@ mod tests {
 
     #[test]
     fn no_key_is_bound_twice_on_a_screen() {
-        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries, View::Plan, View::Balance] {
+        for view in [View::Tankhouse, View::Cell, View::Rectifier, View::Entries, View::Plan, View::Balance, View::Patrol, View::Accuracy] {
             let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
             for (i, k) in all.iter().enumerate() {
                 assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");
             }
         }
+    }
+
+    #[test]
+    fn no_key_is_bound_twice_on_the_learning_screens() {
+        for view in [View::Patrol, View::Accuracy, View::Cell] {
+            let all: Vec<Key> = table(view).iter().chain(GLOBAL).flat_map(|b| b.keys.iter().copied()).collect();
+            for (i, k) in all.iter().enumerate() {
+                assert!(!all[i + 1..].contains(k), "{view:?}: {k:?} is bound twice");
+            }
+        }
+        assert_eq!(resolve(View::Patrol, Key::Enter), Some(Action::OpenPatrolCell));
+        assert_eq!(resolve(View::Tankhouse, Key::Char('s')), Some(Action::ShowView(View::Patrol)));
     }
 
     #[test]

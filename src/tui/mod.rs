@@ -2,6 +2,7 @@
 //! actions into effects; [`Session`] performs the effects against the plant, so
 //! tests drive the same code as the terminal does, without a terminal.
 
+mod accuracy;
 pub mod app;
 mod balance;
 mod cell;
@@ -11,6 +12,7 @@ pub mod form;
 pub mod input;
 pub mod keys;
 pub mod overlay;
+mod patrol;
 mod plan;
 mod rectifier;
 mod tankhouse;
@@ -182,6 +184,8 @@ impl Session {
                     app::View::Entries => return Some(Effect::LoadRecent),
                     app::View::Plan => return Some(Effect::LoadPlan),
                     app::View::Balance => return Some(Effect::LoadBalance),
+                    app::View::Patrol => return Some(Effect::LoadPatrol),
+                    app::View::Accuracy => return Some(Effect::LoadAccuracy),
                     app::View::Tankhouse => {}
                 }
                 None
@@ -190,6 +194,27 @@ impl Session {
                 match plant.cell_detail(&cell, app.as_of) {
                     Ok(d) => app.loaded_detail(d),
                     Err(e) => app.failed(format!("could not read {cell}: {e}")),
+                }
+                Some(Effect::LoadCellBacktest(cell))
+            }
+            Effect::LoadCellBacktest(cell) => {
+                match plant.backtest(None, app.as_of, Some(&cell)) {
+                    Ok(b) => app.loaded_cell_backtest(cell, b),
+                    Err(e) => app.failed(format!("could not back-test {cell}: {e}")),
+                }
+                None
+            }
+            Effect::LoadPatrol => {
+                match plant.patrol(app.as_of) {
+                    Ok(p) => app.loaded_patrol(p),
+                    Err(e) => app.failed(format!("could not read the patrol list: {e}")),
+                }
+                None
+            }
+            Effect::LoadAccuracy => {
+                match plant.backtest(None, app.as_of, None) {
+                    Ok(b) => app.loaded_accuracy(b),
+                    Err(e) => app.failed(format!("could not back-test the plant: {e}")),
                 }
                 None
             }

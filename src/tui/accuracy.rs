@@ -1,0 +1,152 @@
+//! The accuracy screen: the plant's back-test, each weighed crop's predicted
+//! mass against the weighed one, the error by section and the learnt rule against the fixed one.
+
+use ratatui::Frame;
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::Color;
+use ratatui::symbols::Marker;
+use ratatui::text::Line;
+use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph, Wrap};
+
+use super::app::App;
+use super::draw::{bold, fg};
+use crate::domain::backtest::{Backtest, Summary, summarise};
+
+/// The accuracy screen's state: the back-test and its summary per section.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct AccuracyScreen {
+    pub backtest: Option<Backtest>,
+    /// (circuit, section, the summary of its rows), in plant order.
+    pub sections: Vec<(String, String, Summary)>,
+}
+
+impl AccuracyScreen {
+    pub fn loaded(&mut self, b: Backtest) {
+        let mut keys: Vec<(String, String)> = b.crops.iter().map(|r| (r.circuit.clone(), r.section.clone())).collect();
+        keys.extend(b.scrap.iter().map(|r| (r.circuit.clone(), r.section.clone())));
+        keys.sort();
+        keys.dedup();
+        self.sections = keys
+            .into_iter()
+            .map(|(circuit, section)| {
+                let crops: Vec<_> = b.crops.iter().filter(|r| r.circuit == circuit && r.section == section).cloned().collect();
+                let scrap: Vec<_> = b.scrap.iter().filter(|r| r.circuit == circuit && r.section == section).cloned().collect();
+                let s = summarise(&crops, &scrap);
+                (circuit, section, s)
+            })
+            .collect();
+        self.backtest = Some(b);
+    }
+}
+
+fn pct(v: Option<f64>) -> String {
+    v.map_or("-".into(), |v| format!("{v:.2} %"))
+}
+
+fn num(v: Option<f64>, w: usize) -> String {
+    v.map_or(format!("{:>w$}", "-"), |v| format!("{v:>w$.2}"))
+}
+
+/// The learnt rule against the fixed one, then the error by section.
+fn figures(app: &App, s: &Summary, sections: &[(String, String, Summary)], wide: bool) -> Vec<Line<'static>> {
+    let mut l = vec![Line::styled("Learnt rule against the fixed one", bold())];
+    l.push(Line::raw(format!("crops weighed    {}", s.crops)));
+    l.push(Line::raw(format!("mass error       {} learnt", pct(s.mass_mape_pct))));
+    l.push(Line::styled(format!("                 {} fixed η", pct(s.fixed_mass_mape_pct)), fg(app, Color::DarkGray)));
+    l.push(Line::raw(format!("bias             {} (+: heavy)", s.mass_bias_pct.map_or("-".into(), |v| format!("{v:+.2} %")))));
+    l.push(Line::raw(format!("harvest time     {} h off", s.harvest_time_mae_h.map_or("-".into(), |h| format!("{h:.1}")))));
+    l.push(Line::raw(format!("scrap weighed    {}", s.scrap)));
+    l.push(Line::raw(format!("scrap error      {} points learnt", num(s.scrap_mae_pp, 4))));
+    l.push(Line::styled(format!("                 {} points fixed", num(s.fixed_scrap_mae_pp, 4)), fg(app, Color::DarkGray)));
+    l.push(Line::styled("Error by section", bold()));
+    l.push(Line::styled(
+        if wide {
+            "circuit section crops   learnt    fixed     bias    scrap    fixed".to_string()
+        } else {
+            "sect crops learnt  fixed   bias scrap".to_string()
+        },
+        bold(),
+    ));
+    for (circuit, section, x) in sections {
+        l.push(Line::raw(if wide {
+            format!(
+                "{circuit:<7} {section:<7} {:>5} {} {} {} {} {}",
+                x.crops,
+                num(x.mass_mape_pct, 8),
+                num(x.fixed_mass_mape_pct, 8),
+                num(x.mass_bias_pct, 8),
+                num(x.scrap_mae_pp, 8),
+                num(x.fixed_scrap_mae_pp, 8)
+            )
+        } else {
+            format!(
+                "{section:<4} {:>5} {} {} {} {}",
+                x.crops,
+                num(x.mass_mape_pct, 6),
+                num(x.fixed_mass_mape_pct, 6),
+                num(x.mass_bias_pct, 6),
+                num(x.scrap_mae_pp, 5)
+            )
+        }));
+    }
+    l.push(Line::styled(
+        if wide { "mass error and bias in %, scrap error (learnt, fixed) in points" } else { "mass %, bias %, scrap points" },
+        fg(app, Color::DarkGray),
+    ));
+    l
+}
+
+pub fn draw(f: &mut Frame, app: &App, area: Rect) {
+    let Some(bt) = &app.accuracy.backtest else {
+        f.render_widget(Paragraph::new("back-testing the weighings…"), area);
+        return;
+    };
+    let wide = area.width >= 120;
+    let [about, rest] = Layout::vertical([Constraint::Length(2), Constraint::Min(6)]).areas(area);
+    f.render_widget(
+        Paragraph::new(
+            "Each dot: a crop's weighed kg (→) against the kg predicted before it began (↑); on the diagonal = exact. \
+             Errors: mean |predicted − weighed|, lower is better.",
+        )
+        .wrap(Wrap { trim: true }),
+        about,
+    );
+    let [chart, text] = Layout::horizontal([Constraint::Min(30), Constraint::Length(if wide { 72 } else { 38 })]).areas(rest);
+    f.render_widget(Paragraph::new(figures(app, &bt.summary, &app.accuracy.sections, wide)), text);
+    if bt.crops.is_empty() {
+        f.render_widget(Paragraph::new("no weighed crop to chart yet").block(Block::default().borders(Borders::ALL)), chart);
+        return;
+    }
+    let learnt: Vec<(f64, f64)> = bt.crops.iter().map(|r| (r.weighed_kg, r.predicted_kg)).collect();
+    let fixed: Vec<(f64, f64)> = bt.crops.iter().map(|r| (r.weighed_kg, r.fixed_kg)).collect();
+    let all = learnt.iter().chain(&fixed).flat_map(|p| [p.0, p.1]);
+    let (lo, hi) = all.fold((f64::MAX, f64::MIN), |(a, b), v| (a.min(v), b.max(v)));
+    let pad = ((hi - lo) * 0.03).max(1.0);
+    let (lo, hi) = ((lo - pad).floor(), (hi + pad).ceil());
+    let diagonal = vec![(lo, lo), (hi, hi)];
+    let ds = vec![
+        Dataset::default()
+            .name("exact")
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(fg(app, Color::DarkGray))
+            .data(&diagonal),
+        Dataset::default().name("fixed η").marker(Marker::Braille).graph_type(GraphType::Scatter).style(fg(app, Color::Gray)).data(&fixed),
+        Dataset::default().name("learnt").marker(Marker::Dot).graph_type(GraphType::Scatter).style(fg(app, Color::Green)).data(&learnt),
+    ];
+    let axis = |title: &str| {
+        Axis::default().title(title.to_string()).bounds([lo, hi]).labels(vec![Line::raw(format!("{lo:.0}")), Line::raw(format!("{hi:.0}"))])
+    };
+    f.render_widget(
+        Chart::new(ds)
+            .legend_position(None)
+            .block(Block::default().borders(Borders::ALL).title(if wide {
+                format!(" predicted against weighed, kg per cell · {} crops · • learnt  ⠂ fixed η ", bt.crops.len())
+            } else {
+                " kg per cell · • learnt  ⠂ fixed η ".to_string()
+            }))
+            .x_axis(axis("weighed"))
+            .y_axis(axis("predicted")),
+        chart,
+    );
+}
