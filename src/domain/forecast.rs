@@ -93,8 +93,11 @@ pub struct CathodeForecast {
     pub mass_kg: f64,
     pub inner_mass_kg: f64,
     pub charge_ah: f64,
+    /// When the crop is due: the plan's crop time ([`crop_target`]), or the
+    /// anodes' `pull_due` when it would be due only after they are pulled.
     pub harvest_due: Option<Time>,
-    /// 90 % interval of `harvest_due`.
+    /// 90 % interval of `harvest_due` (of the learnt cathode efficiency at target
+    /// mass, of the learnt anode factor for a part of the anode life).
     pub harvest_window: Option<DueWindow>,
 }
 

@@ -7,24 +7,26 @@
 //!    times its remaining anode fraction reaches `scrap_upper` (the window
 //!    opens), `scrap_target` (the ideal change) and `scrap_lower` (the window
 //!    closes), found with [`cell_time_reaching`] on the circuit's curve (the
-//!    projection after the last reading is the estimate). Over a horizon longer
-//!    than one anode life, the next load is assumed set at the first change's
-//!    ideal time, with `anodes_per_cell` new anodes of `new_anode_kg` each, and
-//!    its window follows from that: **the second window assumes the first
-//!    change happens on its ideal day**, whatever day the levelling gives it.
-//!    Between changes come the cathode crops: each at its target mass
+//!    projection after the last reading is the estimate). Between changes come
+//!    the cathode crops, each due when [`crop_target`] says, the rule the
+//!    forecast's `harvest_due` uses too (one timeline): at its target mass
 //!    (`cathode_target_kg` mean per cathode), or, where `crops_per_anode_cycle`
 //!    = k is set, at k equal parts of the anode life's charge (set → ideal
-//!    change); the last crop is pulled with the anodes. Each crop is assumed
-//!    pulled at its due time (an overdue one at the start of the plan) and the
-//!    next starts then. Inert-anode cells have no anode changes, only crops at
-//!    their target mass. Work whose due time has already passed is overdue and
-//!    is planned from the first day.
-//! 2. **Levelling** ([`plan`]): anode changes go through
-//!    [`levelling::level`] (crew per day, days without anode work, each
+//!    change); a crop due at or after the change goes with the anodes. Each
+//!    crop is assumed pulled at its due time (one due before the plan starts,
+//!    at the start of the plan) and the next starts then. Inert-anode cells
+//!    have no anode changes, only crops at their target mass. A crop is
+//!    overdue when its due time has passed; work due before the plan starts is
+//!    planned from the first day.
+//! 2. **Levelling** ([`plan`]), cycle by cycle: the running loads' changes go
+//!    through [`levelling::level`] (crew per day, days without anode work, each
 //!    circuit's own outage days, anode supply, crane lifts, whole sections as
 //!    groups), then the kept moves (recorded decisions) and the hand moves are
-//!    applied to the levelled plan one by one and each is re-checked. Harvests
+//!    applied to the levelled plan one by one and each is re-checked. Each next
+//!    load is then assumed set on the day its change before it is planned on
+//!    (at the instant of that day nearest the change's ideal time), with
+//!    `anodes_per_cell` new anodes of `new_anode_kg` each; its window and crops
+//!    follow from that, and it is levelled in the capacity left. Harvests
 //!    are levelled next against the stripping machine and the crane lifts
 //!    left, with the last crop of each cycle fixed to its anode-change day,
 //!    then smoothed inside their windows ([`smoothing::smooth`]). Anode
@@ -229,8 +231,9 @@ pub struct ChangeDue {
     pub latest: i64,
     /// The ideal time had already passed when the plan begins.
     pub overdue: bool,
-    /// Where the change is assumed done for what follows it: the ideal time,
-    /// or the start of the plan when overdue.
+    /// Where the change is assumed done before it is levelled: the ideal
+    /// time, or the start of the plan when overdue ([`outlook`], and the
+    /// cycles after a change the plan could not place).
     pub assumed_at: Time,
 }
 
@@ -457,7 +460,7 @@ pub struct AnodeChange {
     pub upper_at: Option<Time>,
     pub target_at: Time,
     pub lower_at: Option<Time>,
-    /// 0 for the running load, 1 for the next one (which assumes this one on its ideal day), …
+    /// 0 for the running load, 1 for the next one (set on the day this one is planned on), …
     pub cycle: usize,
     /// Placed by a hand move.
     pub moved: bool,
@@ -762,8 +765,11 @@ fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
 /// planned, and those later changes are listed as
 /// [`Reason::EarlierChangeUnplaced`]).
 ///
-/// Anode changes are exact whenever [`levelling::level`] reports `exact`
-/// (see its documentation). A hand move is applied to the levelled plan: it
+/// Anode changes are levelled cycle by cycle, and each next load's window is
+/// counted from the day its change before it ends up on (levelled, kept or
+/// moved). They are exact whenever [`levelling::level`] reports `exact` for
+/// every cycle (see its documentation), each cycle in the capacity its
+/// earlier cycles and their moves leave. A hand move is applied to the levelled plan: it
 /// takes the cell (out of its section's common day, with `whole_sections`)
 /// to a day inside its window that has a free crew place and is refused
 /// otherwise, or when the anodes would then run short; other cells stay where
