@@ -93,8 +93,11 @@ pub struct CathodeForecast {
     pub mass_kg: f64,
     pub inner_mass_kg: f64,
     pub charge_ah: f64,
+    /// When the crop is due: the plan's crop time ([`crop_target`]), or the
+    /// anodes' `pull_due` when it would be due only after they are pulled.
     pub harvest_due: Option<Time>,
-    /// 90 % interval of `harvest_due`.
+    /// 90 % interval of `harvest_due` (of the learnt cathode efficiency at target
+    /// mass, of the learnt anode factor for a part of the anode life).
     pub harvest_window: Option<DueWindow>,
 }
 
@@ -203,16 +206,35 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         if p.anode_kind == AnodeKind::Inert || charge.is_none() {
             charge = Some(q);
         }
-        // copper cannot plate above 100 %; a higher efficiency reaches the target first
-        let (lo, hi) = learnt.cathode.interval90();
-        let to_target = |eff: f64| Some(Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }.charge_to_mean_ah(p.cathode_target_kg));
-        let [due, early, late] = times_reaching(
-            curve,
-            &input.cutouts,
-            started_at,
-            [Some(cathodes.charge_to_mean_ah(p.cathode_target_kg)), to_target(hi), to_target(lo)],
-        )?;
-        let harvest_window = due.and(window(early, late));
+        // the plan's crop time (one rule for both), its window's ends at the
+        // ends of the learnt value it depends on: a higher efficiency (or a
+        // faster-dissolving anode) reaches the target first
+        let soluble = input.load.filter(|_| p.anode_kind == AnodeKind::Soluble).map(|(set_at, n, kg)| (set_at, input.anode_load(n, kg)));
+        let target = crop_target(curve, input, soluble.as_ref().map(|(t, l)| (*t, l)), started_at, None)?;
+        let ends = match target.due {
+            CropDue::TargetMass { .. } => {
+                let (lo, hi) = learnt.cathode.interval90();
+                let at = |eff: f64| target.due.at(p, &Cathodes { efficiency: eff.clamp(0.05, 1.0), ..cathodes }, None);
+                [at(hi), at(lo)]
+            }
+            CropDue::LifePart { .. } => {
+                let (lo, hi) = learnt.anode.interval90();
+                let at = |eff: f64| {
+                    soluble.as_ref().and_then(|(_, l)| target.due.at(p, &cathodes, Some(&AnodeLoad { efficiency: eff.max(0.05), ..*l })))
+                };
+                [at(hi), at(lo)]
+            }
+        };
+        let [mut due, early, late] = times_reaching(curve, &input.cutouts, target.from, [Some(target.due.ah()), ends[0], ends[1]])?;
+        let mut harvest_window = due.and(window(early, late));
+        // a crop due only after the anodes are pulled goes with them (as the plan pulls it)
+        if let Some(a) = anode.as_ref()
+            && let Some(pull) = a.pull_due
+            && due.is_none_or(|t| t >= pull)
+        {
+            due = Some(pull);
+            harvest_window = a.pull_window;
+        }
         cathode = Some(CathodeForecast {
             started_at,
             mass_kg: cathodes.mean_kg(q.total()),
@@ -298,6 +320,81 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
         shorts: input.shorts.map(|(n, _)| n),
         warnings,
     })
+}
+
+/// When a crop is due, as a charge on the cell's curve: the one rule the
+/// forecast's `harvest_due` and the plan's crops share (see [`crop_target`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum CropDue {
+    /// The mean cathode mass reaches `cathode_target_kg`: `ah` after the crop began.
+    TargetMass { ah: f64 },
+    /// The `i`-th of `k` equal parts of the anode life's charge (set to
+    /// `scrap_target`), `ah` after the anode set; the `k`-th is the anode change itself.
+    LifePart { i: u32, k: u32, ah: f64 },
+}
+
+impl CropDue {
+    /// The charge, from [`CropTarget::from`], at which the crop is due.
+    pub fn ah(&self) -> f64 {
+        match *self {
+            CropDue::TargetMass { ah } | CropDue::LifePart { ah, .. } => ah,
+        }
+    }
+
+    /// The same crop's due charge with other cathodes or another anode load
+    /// (the ends of its window: the same part of the life, at another anode factor).
+    pub fn at(&self, p: &CellParams, cathodes: &Cathodes, load: Option<&AnodeLoad>) -> Option<f64> {
+        match *self {
+            CropDue::TargetMass { .. } => Some(cathodes.charge_to_mean_ah(p.cathode_target_kg)),
+            CropDue::LifePart { i, k, .. } => load.and_then(|l| l.charge_to_fraction_ah(p.scrap_target)).map(|life| life_part(life, i, k)),
+        }
+    }
+}
+
+/// `i` of `k` equal parts of the life's charge (the `k`-th exactly the life's, so it
+/// falls on the anode change's own crossing).
+fn life_part(life: f64, i: u32, k: u32) -> f64 {
+    if i >= k { life } else { life / f64::from(k) * f64::from(i) }
+}
+
+/// A crop's due charge and the instant it is counted from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CropTarget {
+    pub due: CropDue,
+    /// The crop's start (target mass) or the anode set (parts of the anode life).
+    pub from: Time,
+}
+
+/// When the crop begun at `crop_from` is due, for the forecast and the plan
+/// alike: with `crops_per_anode_cycle` = k set (and a soluble `load` set at its
+/// time), at the first of the k equal parts of the anode life's charge at
+/// least half a crop after the crop began (the k-th is the anode change);
+/// otherwise when the mean cathode mass reaches `cathode_target_kg`.
+/// `since_set`: the charge from the set to `crop_from`, when the caller knows it.
+pub fn crop_target<C: Curve>(
+    curve: &C,
+    cell: &CellInput,
+    load: Option<(Time, &AnodeLoad)>,
+    crop_from: Time,
+    since_set: Option<f64>,
+) -> Result<CropTarget, C::Error> {
+    let p = &cell.params;
+    let split = match (p.crops_per_anode_cycle, load) {
+        (Some(k), Some((set_at, l))) if k > 0 => l.charge_to_fraction_ah(p.scrap_target).map(|life| (k, life, set_at)),
+        _ => None,
+    };
+    let Some((k, life, set_at)) = split else {
+        let ah = cell.cathodes().charge_to_mean_ah(p.cathode_target_kg);
+        return Ok(CropTarget { due: CropDue::TargetMass { ah }, from: crop_from });
+    };
+    let q0 = match since_set {
+        Some(q) => q,
+        None if crop_from >= set_at => cell_charge(curve, &cell.cutouts, set_at, crop_from)?.total(),
+        None => -cell_charge(curve, &cell.cutouts, crop_from, set_at)?.total(),
+    };
+    let part = life / f64::from(k);
+    let i = ((q0 / part + 0.5).ceil().max(1.0).min(f64::from(k))) as u32;
+    Ok(CropTarget { due: CropDue::LifePart { i, k, ah: life_part(life, i, k) }, from: set_at })
 }
 
 /// A curve that remembers the instants it was asked about (one cell's forecast

@@ -7,24 +7,26 @@
 //!    times its remaining anode fraction reaches `scrap_upper` (the window
 //!    opens), `scrap_target` (the ideal change) and `scrap_lower` (the window
 //!    closes), found with [`cell_time_reaching`] on the circuit's curve (the
-//!    projection after the last reading is the estimate). Over a horizon longer
-//!    than one anode life, the next load is assumed set at the first change's
-//!    ideal time, with `anodes_per_cell` new anodes of `new_anode_kg` each, and
-//!    its window follows from that: **the second window assumes the first
-//!    change happens on its ideal day**, whatever day the levelling gives it.
-//!    Between changes come the cathode crops: each at its target mass
+//!    projection after the last reading is the estimate). Between changes come
+//!    the cathode crops, each due when [`crop_target`] says, the rule the
+//!    forecast's `harvest_due` uses too (one timeline): at its target mass
 //!    (`cathode_target_kg` mean per cathode), or, where `crops_per_anode_cycle`
 //!    = k is set, at k equal parts of the anode life's charge (set → ideal
-//!    change); the last crop is pulled with the anodes. Each crop is assumed
-//!    pulled at its due time (an overdue one at the start of the plan) and the
-//!    next starts then. Inert-anode cells have no anode changes, only crops at
-//!    their target mass. Work whose due time has already passed is overdue and
-//!    is planned from the first day.
-//! 2. **Levelling** ([`plan`]): anode changes go through
-//!    [`levelling::level`] (crew per day, days without anode work, each
+//!    change); a crop due at or after the change goes with the anodes. Each
+//!    crop is assumed pulled at its due time (one due before the plan starts,
+//!    at the start of the plan) and the next starts then. Inert-anode cells
+//!    have no anode changes, only crops at their target mass. A crop is
+//!    overdue when its due time has passed; work due before the plan starts is
+//!    planned from the first day.
+//! 2. **Levelling** ([`plan`]), cycle by cycle: the running loads' changes go
+//!    through [`levelling::level`] (crew per day, days without anode work, each
 //!    circuit's own outage days, anode supply, crane lifts, whole sections as
 //!    groups), then the kept moves (recorded decisions) and the hand moves are
-//!    applied to the levelled plan one by one and each is re-checked. Harvests
+//!    applied to the levelled plan one by one and each is re-checked. Each next
+//!    load is then assumed set on the day its change before it is planned on
+//!    (at the instant of that day nearest the change's ideal time), with
+//!    `anodes_per_cell` new anodes of `new_anode_kg` each; its window and crops
+//!    follow from that, and it is levelled in the capacity left. Harvests
 //!    are levelled next against the stripping machine and the crane lifts
 //!    left, with the last crop of each cycle fixed to its anode-change day,
 //!    then smoothed inside their windows ([`smoothing::smooth`]). Anode
@@ -40,7 +42,7 @@ use std::collections::{BTreeMap, HashMap};
 
 use super::anode::AnodeLoad;
 use super::charge::{Curve, OpenSpan, Span, Time, cell_charge, cell_time_reaching};
-use super::forecast::CellInput;
+use super::forecast::{CellInput, CropDue, crop_target};
 use super::layout::{AnodeKind, OutageWork};
 use super::levelling::{self, Capacity, LevelError, Task, Unplaced, Weights};
 use super::plan_diff::PlanDiff;
@@ -229,8 +231,9 @@ pub struct ChangeDue {
     pub latest: i64,
     /// The ideal time had already passed when the plan begins.
     pub overdue: bool,
-    /// Where the change is assumed done for what follows it: the ideal time,
-    /// or the start of the plan when overdue.
+    /// Where the change is assumed done before it is levelled: the ideal
+    /// time, or the start of the plan when overdue ([`outlook`], and the
+    /// cycles after a change the plan could not place).
     pub assumed_at: Time,
 }
 
@@ -238,10 +241,14 @@ pub struct ChangeDue {
 #[derive(Debug, Clone, PartialEq)]
 pub struct HarvestDue {
     pub crop_from: Time,
+    /// The forecast's `harvest_due` for the crop (the same crossing).
     pub due_at: Time,
-    /// Day index of the due time (0 when overdue).
+    /// Day index of the due time (0 when due before the plan starts).
     pub day: i64,
+    /// The due time has passed (as the forecast says).
     pub overdue: bool,
+    /// Due before the plan starts (overdue, or the plan starts on a later day): planned from the first day.
+    pub before_start: bool,
     /// Where the crop is assumed pulled (the next one starts then).
     pub assumed_at: Time,
 }
@@ -305,14 +312,10 @@ fn change_due<C: Curve>(
     }))
 }
 
-/// Signed charge through the cell from `a` to `b` (negative when `b` is earlier).
-fn signed_charge<C: Curve>(curve: &C, cutouts: &[OpenSpan], a: Time, b: Time) -> Result<f64, C::Error> {
-    Ok(if b >= a { cell_charge(curve, cutouts, a, b)?.total() } else { -cell_charge(curve, cutouts, b, a)?.total() })
-}
-
-/// The crops due from `crop_from` until the cycle's change (before the change's
-/// ideal day) or the end of the horizon; returns them and when the crop that
-/// the change pulls begins.
+/// The crops due from `crop_from` until the cycle's change (a crop due at or
+/// after the change's ideal time goes with it) or the end of the horizon, each
+/// at the time [`crop_target`] gives the forecast too; returns them and when the
+/// crop that the change pulls begins.
 #[allow(clippy::too_many_arguments)]
 fn crops<C: Curve>(
     curve: &C,
@@ -324,89 +327,90 @@ fn crops<C: Curve>(
     cal: &Calendar,
     now: Time,
 ) -> Result<(Vec<HarvestDue>, Time), C::Error> {
-    let p = &cell.params;
     let n = cal.len() as i64;
     let start = cal.start(0).max(now);
-    let stop = change.map_or(n, |c| c.ideal.min(n));
     let mut out = Vec::new();
     let mut from = crop_from;
-    let mut push = |due_at: Time, from: &mut Time| -> bool {
-        let day = cal.index(due_at);
-        if day >= stop {
-            return false;
+    // the charge from the set to `from`, known when the crop before was pulled on its part of the life
+    let mut since_set = None;
+    // at most one crop a day: a bound on the loop whatever the current
+    for _ in 0..=cal.len() {
+        let target = crop_target(curve, cell, load.map(|l| (set_at, l)), from, since_set)?;
+        if matches!(target.due, CropDue::LifePart { i, k, .. } if i >= k) {
+            break; // the last part of the life is the anode change's own crop
         }
-        let overdue = due_at < start;
-        let assumed_at = if overdue { start } else { due_at };
-        out.push(HarvestDue { crop_from: *from, due_at, day: day.max(0), overdue, assumed_at });
-        *from = assumed_at;
-        true
-    };
-    let life = match (p.crops_per_anode_cycle, load) {
-        (Some(k), Some(l)) if k > 0 => l.charge_to_fraction_ah(p.scrap_target).map(|q| (k, q)),
-        _ => None,
-    };
-    if let Some((k, q_life)) = life {
-        // Crop boundaries at i/k of the life's charge; the running crop is
-        // harvested at the first boundary at least half a crop after it began.
-        let part = q_life / f64::from(k);
-        let q0 = signed_charge(curve, &cell.cutouts, set_at, crop_from)?;
-        let first = ((q0 / part) + 0.5).ceil().max(1.0) as u32;
-        for i in first..k {
-            let Some(due) = cell_time_reaching(curve, &cell.cutouts, set_at, part * f64::from(i))? else { break };
-            if !push(due, &mut from) {
-                break;
-            }
+        let Some(due_at) = cell_time_reaching(curve, &cell.cutouts, target.from, target.due.ah())? else { break };
+        if change.is_some_and(|c| due_at >= c.target_at) || cal.index(due_at) >= n {
+            break;
         }
-    } else {
-        let cathodes = cell.cathodes();
-        let q = cathodes.charge_to_mean_ah(p.cathode_target_kg);
-        // at most one crop a day: a bound on the loop whatever the current
-        for _ in 0..=cal.len() {
-            let Some(due) = cell_time_reaching(curve, &cell.cutouts, from, q)? else { break };
-            if !push(due, &mut from) {
-                break;
-            }
-        }
+        let before_start = due_at < start;
+        let assumed_at = if before_start { start } else { due_at };
+        out.push(HarvestDue { crop_from: from, due_at, day: cal.index(due_at).max(0), overdue: due_at <= now, before_start, assumed_at });
+        since_set = match target.due {
+            CropDue::LifePart { ah, .. } if !before_start => Some(ah),
+            _ => None,
+        };
+        from = assumed_at;
     }
     Ok((out, from))
 }
 
-/// A cell's anode cycles and crops over the calendar, on its circuit's curve as of `now`.
-pub fn outlook<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
+/// One anode load's cycle from `set_at`: its change window and the crops before it.
+fn cycle<C: Curve>(
+    curve: &C,
+    cell: &CellInput,
+    set_at: Time,
+    load: AnodeLoad,
+    crop: Option<Time>,
+    cal: &Calendar,
+    now: Time,
+) -> Result<Cycle, C::Error> {
+    let change = change_due(curve, cell, set_at, &load, cal, now)?;
+    let (harvests, last_crop_from) = match crop {
+        Some(c0) => {
+            let (h, last) = crops(curve, cell, c0, set_at, Some(&load), change.as_ref(), cal, now)?;
+            (h, Some(last))
+        }
+        None => (Vec::new(), None),
+    };
+    Ok(Cycle { set_at, load: Some(load), change, harvests, last_crop_from })
+}
+
+/// The cycle of the load that a change made at `at` sets: `anodes_per_cell`
+/// new anodes of `new_anode_kg` each, its first crop starting then too.
+fn next_cycle<C: Curve>(curve: &C, cell: &CellInput, at: Time, cal: &Calendar, now: Time) -> Result<Cycle, C::Error> {
     let p = &cell.params;
+    cycle(curve, cell, at, cell.anode_load(p.anodes_per_cell, p.new_anode_kg), Some(at), cal, now)
+}
+
+/// A cell's running cycle only (an inert cell's crops, with no change; nothing without anodes).
+fn first_cycle<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
     let out_of_circuit = cell.cutouts.iter().any(|c| c.from <= now && c.to.is_none());
     let mut cycles = Vec::new();
-    if p.anode_kind == AnodeKind::Inert {
+    if cell.params.anode_kind == AnodeKind::Inert {
         if let Some(c0) = cell.crop_started {
             let (harvests, _) = crops(curve, cell, c0, c0, None, None, cal, now)?;
             cycles.push(Cycle { set_at: cell.load.map_or(c0, |l| l.0), load: None, change: None, harvests, last_crop_from: None });
         }
-        return Ok(Outlook { cycles, out_of_circuit });
+    } else if let Some((set_at, count, kg)) = cell.load {
+        cycles.push(cycle(curve, cell, set_at, cell.anode_load(count, kg), cell.crop_started, cal, now)?);
     }
-    let Some((mut set_at, count, kg)) = cell.load else {
-        return Ok(Outlook { cycles, out_of_circuit });
-    };
-    let mut load = cell.anode_load(count, kg);
-    let mut crop = cell.crop_started;
+    Ok(Outlook { cycles, out_of_circuit })
+}
+
+/// A cell's anode cycles and crops over the calendar, on its circuit's curve
+/// as of `now`, each change assumed made at [`ChangeDue::assumed_at`] (its
+/// ideal time): the cell on its own, before levelling. [`plan`] starts each
+/// next cycle from the day its change is planned on instead.
+pub fn outlook<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
+    let mut o = first_cycle(cell, curve, cal, now)?;
     let end = cal.start(cal.len());
     // at most one change a day: a bound on the loop whatever the current
     for _ in 0..=cal.len() {
-        let change = change_due(curve, cell, set_at, &load, cal, now)?;
-        let (harvests, last_crop_from) = match crop {
-            Some(c0) => {
-                let (h, last) = crops(curve, cell, c0, set_at, Some(&load), change.as_ref(), cal, now)?;
-                (h, Some(last))
-            }
-            None => (Vec::new(), None),
-        };
-        let next = change.as_ref().map(|c| c.assumed_at).filter(|t| *t < end);
-        cycles.push(Cycle { set_at, load: Some(load), change, harvests, last_crop_from });
-        let Some(next) = next else { break };
-        set_at = next;
-        load = cell.anode_load(p.anodes_per_cell, p.new_anode_kg);
-        crop = Some(next);
+        let Some(next) = o.cycles.last().and_then(|c| c.change.as_ref()).map(|c| c.assumed_at).filter(|t| *t < end) else { break };
+        o.cycles.push(next_cycle(curve, cell, next, cal, now)?);
     }
-    Ok(Outlook { cycles, out_of_circuit })
+    Ok(o)
 }
 
 /// Why a job is not in the plan.
@@ -456,7 +460,7 @@ pub struct AnodeChange {
     pub upper_at: Option<Time>,
     pub target_at: Time,
     pub lower_at: Option<Time>,
-    /// 0 for the running load, 1 for the next one (which assumes this one on its ideal day), …
+    /// 0 for the running load, 1 for the next one (set on the day this one is planned on), …
     pub cycle: usize,
     /// Placed by a hand move.
     pub moved: bool,
@@ -761,8 +765,11 @@ fn fill_harvests(shifts: &mut [ShiftLoad], k: u32, crane: Option<Crane>) {
 /// planned, and those later changes are listed as
 /// [`Reason::EarlierChangeUnplaced`]).
 ///
-/// Anode changes are exact whenever [`levelling::level`] reports `exact`
-/// (see its documentation). A hand move is applied to the levelled plan: it
+/// Anode changes are levelled cycle by cycle, and each next load's window is
+/// counted from the day its change before it ends up on (levelled, kept or
+/// moved). They are exact whenever [`levelling::level`] reports `exact` for
+/// every cycle (see its documentation), each cycle in the capacity its
+/// earlier cycles and their moves leave. A hand move is applied to the levelled plan: it
 /// takes the cell (out of its section's common day, with `whole_sections`)
 /// to a day inside its window that has a free crew place and is refused
 /// otherwise, or when the anodes would then run short; other cells stay where
@@ -814,10 +821,10 @@ where
         }
     }
     let cells = &input.cells;
-    let mut outlooks = Vec::with_capacity(cells.len());
+    let mut outlooks: Vec<Outlook> = Vec::with_capacity(cells.len());
     for c in cells {
         let o = match curves.get(&c.circuit) {
-            Some(curve) => outlook(c, curve, cal, now).map_err(PlanError::Curve)?,
+            Some(curve) => first_cycle(c, curve, cal, now).map_err(PlanError::Curve)?,
             None => Outlook { cycles: Vec::new(), out_of_circuit: false },
         };
         outlooks.push(o);
@@ -848,10 +855,70 @@ where
         }
     }
 
+    // Days without anode work anywhere: the layout's dates, and days on which
+    // every circuit with cells is down with anode work forbidden.
+    let horizon = span_days;
+    let mut circuits: Vec<&str> = cells.iter().map(|c| c.circuit.as_str()).collect();
+    circuits.sort_unstable();
+    circuits.dedup();
+    let mut blocked: Vec<Option<String>> = vec![None; horizon];
+    for (d, b) in blocked.iter_mut().enumerate() {
+        if rules.no_anode_work.contains(&cal.date(d as i64)) {
+            *b = Some("no anode work (layout no_anode_work)".to_string());
+            continue;
+        }
+        let forbidden: Vec<&DayOutage> = day_outages[d].iter().filter(|o| o.anode_work == OutageWork::Forbidden).collect();
+        if !circuits.is_empty() && circuits.iter().all(|c| forbidden.iter().any(|o| o.circuit == *c)) {
+            let why: Vec<String> = forbidden
+                .iter()
+                .map(|o| {
+                    // on the plant's clock, as the foreman typed the outage
+                    format!("outage on {} from {} to {}", o.circuit, cal.days.zone.show(o.from), cal.days.zone.show(o.to))
+                })
+                .collect();
+            *b = Some(why.join("; "));
+        }
+    }
+    // The running loads' changes (a later cycle is of a cell with one of these).
+    let has_change = |ci: usize| outlooks[ci].cycles.first().and_then(|c| c.change.as_ref()).is_some_and(|ch| ch.earliest < n as i64);
+    let max_cathodes = (0..cells.len()).filter(|&ci| has_change(ci)).map(|ci| cells[ci].params.cathodes_per_cell).max().unwrap_or(1).max(1);
+    let strip_cells = rules.harvest_cathodes_per_day / max_cathodes;
+    let shifts = rules.shifts_per_day.max(1);
+    let crane_cells = rules.crane.map_or(u32::MAX, |c| shifts.saturating_mul(c.lifts_per_shift / (c.per_anode_change + c.per_harvest)));
+    let day_cap = rules.crew_cells_per_day.min(strip_cells).min(crane_cells);
+    // which limit sets the day's change capacity (the crew's own first)
+    let change_bound = if day_cap == rules.crew_cells_per_day {
+        Bound::Crew
+    } else if day_cap == strip_cells {
+        Bound::Stripping
+    } else {
+        Bound::Crane
+    };
+    let crew: Vec<u32> = blocked.iter().map(|b| if b.is_some() { 0 } else { day_cap }).collect();
+    let (stock, per_day) = rules.supply(horizon);
+    // Cycle by cycle: the running loads first, then each next load in the crew
+    // and anodes left. A later cycle rests on the change before it: its load is
+    // set on the day that change is planned on (levelled, kept or moved), so
+    // each cycle's recorded decisions and hand moves are applied before the
+    // next cycle's windows are found.
     let mut jobs: Vec<ChangeJob> = Vec::new();
     let mut groups: BTreeMap<(&str, &str, usize), u32> = BTreeMap::new();
-    for (ci, o) in outlooks.iter().enumerate() {
-        for (k, cy) in o.cycles.iter().enumerate() {
+    let mut by_cell: HashMap<(usize, usize), usize> = HashMap::new();
+    let mut slot: Vec<Slot> = Vec::new();
+    let mut crew_left = crew.clone();
+    let (mut stock_left, mut per_day_left) = (stock, per_day.clone());
+    let mut exact = true;
+    let mut seen: Vec<usize> = Vec::new();
+    let (mut kept_moves, mut dropped_moves) = (Vec::new(), Vec::new());
+    let mut moves_left: Vec<usize> = (0..input.moves.len()).collect();
+    let end = cal.start(n);
+    // at most one change a day: a bound on the loop whatever the current
+    for k in 0..=horizon {
+        let mut these = Vec::new();
+        let mut any = false;
+        for (ci, o) in outlooks.iter().enumerate() {
+            let Some(cy) = o.cycles.get(k) else { continue };
+            any = true;
             let Some(ch) = &cy.change else { continue };
             if ch.earliest >= n as i64 {
                 continue;
@@ -875,6 +942,7 @@ where
                     Vec::new()
                 }
             };
+            let i = jobs.len();
             jobs.push(ChangeJob {
                 cell: ci,
                 cycle: k,
@@ -888,119 +956,120 @@ where
                     days_off,
                 },
             });
-        }
-    }
-    // Days without anode work anywhere: the layout's dates, and days on which
-    // every circuit with cells is down with anode work forbidden.
-    let horizon = jobs.iter().map(|j| j.task.latest.saturating_add(1)).max().unwrap_or(n).clamp(n, span_days);
-    let mut circuits: Vec<&str> = cells.iter().map(|c| c.circuit.as_str()).collect();
-    circuits.sort_unstable();
-    circuits.dedup();
-    let mut blocked: Vec<Option<String>> = vec![None; horizon];
-    for (d, b) in blocked.iter_mut().enumerate() {
-        if rules.no_anode_work.contains(&cal.date(d as i64)) {
-            *b = Some("no anode work (layout no_anode_work)".to_string());
-            continue;
-        }
-        let forbidden: Vec<&DayOutage> = day_outages[d].iter().filter(|o| o.anode_work == OutageWork::Forbidden).collect();
-        if !circuits.is_empty() && circuits.iter().all(|c| forbidden.iter().any(|o| o.circuit == *c)) {
-            let why: Vec<String> = forbidden
-                .iter()
-                .map(|o| {
-                    // on the plant's clock, as the foreman typed the outage
-                    format!("outage on {} from {} to {}", o.circuit, cal.days.zone.show(o.from), cal.days.zone.show(o.to))
-                })
-                .collect();
-            *b = Some(why.join("; "));
-        }
-    }
-    let max_cathodes = jobs.iter().map(|j| cells[j.cell].params.cathodes_per_cell).max().unwrap_or(1).max(1);
-    let strip_cells = rules.harvest_cathodes_per_day / max_cathodes;
-    let shifts = rules.shifts_per_day.max(1);
-    let crane_cells = rules.crane.map_or(u32::MAX, |c| shifts.saturating_mul(c.lifts_per_shift / (c.per_anode_change + c.per_harvest)));
-    let day_cap = rules.crew_cells_per_day.min(strip_cells).min(crane_cells);
-    // which limit sets the day's change capacity (the crew's own first)
-    let change_bound = if day_cap == rules.crew_cells_per_day {
-        Bound::Crew
-    } else if day_cap == strip_cells {
-        Bound::Stripping
-    } else {
-        Bound::Crane
-    };
-    let crew: Vec<u32> = blocked.iter().map(|b| if b.is_some() { 0 } else { day_cap }).collect();
-    let (stock, per_day) = rules.supply(horizon);
-    let mut by_cell: HashMap<(usize, usize), usize> = HashMap::new();
-    for (i, j) in jobs.iter().enumerate() {
-        by_cell.insert((j.cell, j.cycle), i);
-    }
-    // Cycle by cycle: the running loads first, then each next load in the
-    // crew and anodes left, since a later cycle rests on the change before it.
-    let mut slot: Vec<Slot> = vec![Slot::Out(Reason::NoCrewCapacity); jobs.len()];
-    let mut crew_left = crew.clone();
-    let (mut stock_left, mut per_day_left) = (stock, per_day.clone());
-    let mut exact = true;
-    let cycles = jobs.iter().map(|j| j.cycle + 1).max().unwrap_or(0);
-    for k in 0..cycles {
-        let mut these = Vec::new();
-        for (i, j) in jobs.iter().enumerate().filter(|(_, j)| j.cycle == k) {
-            let prev_placed = k == 0 || by_cell.get(&(j.cell, k - 1)).is_some_and(|&p| matches!(slot[p], Slot::Day(..)));
+            by_cell.insert((ci, k), i);
+            let prev_placed = k == 0 || by_cell.get(&(ci, k - 1)).is_some_and(|&p| matches!(slot[p], Slot::Day(..)));
             if prev_placed {
+                slot.push(Slot::Out(Reason::NoCrewCapacity));
                 these.push(i);
             } else {
-                slot[i] = Slot::Out(Reason::EarlierChangeUnplaced);
+                slot.push(Slot::Out(Reason::EarlierChangeUnplaced));
             }
         }
-        if these.is_empty() {
-            continue;
+        if !any {
+            break;
         }
-        let tasks: Vec<Task> = these.iter().map(|&i| jobs[i].task.clone()).collect();
-        let cap = Capacity { crew: crew_left.clone(), anode_stock: stock_left, anodes_per_day: per_day_left.clone() };
-        let out = levelling::level(&tasks, &cap, rules.weights).map_err(PlanError::Level)?;
-        exact &= out.exact;
+        if !these.is_empty() {
+            let tasks: Vec<Task> = these.iter().map(|&i| jobs[i].task.clone()).collect();
+            let cap = Capacity { crew: crew_left.clone(), anode_stock: stock_left, anodes_per_day: per_day_left.clone() };
+            let out = levelling::level(&tasks, &cap, rules.weights).map_err(PlanError::Level)?;
+            exact &= out.exact;
+            for (t, d) in out.day.iter().enumerate() {
+                if let Some(d) = *d {
+                    slot[these[t]] = Slot::Day(d, false);
+                }
+            }
+            for (t, u) in &out.unplaced {
+                let task = &tasks[*t];
+                // a day the earlier cycles filled is a full day, not a day without anode work
+                let worked = (task.earliest..=task.latest.min(horizon - 1)).any(|d| crew[d] > 0 && !task.days_off.contains(&d));
+                let u = if *u == Unplaced::NoWorkingDayInWindow && worked { Unplaced::NoCrewCapacity } else { *u };
+                slot[these[*t]] = Slot::Out(reason_of(u, false));
+            }
+        }
+        let mv = Moves { input, jobs: &jobs, crew: &crew, stock, per_day: &per_day, by_cell: &by_cell };
+        // Recorded decisions first (oldest first): each is for the cell's first change, of the running load.
+        if k == 0 {
+            for kept in &input.kept {
+                let drop = |reason: String| DroppedMove {
+                    cell: kept.cell.clone(),
+                    date: kept.date,
+                    by: kept.by.clone(),
+                    entry: kept.entry,
+                    reason,
+                };
+                if input.moves.iter().any(|(c, _)| *c == kept.cell) {
+                    dropped_moves.push(drop("overridden by a --move of the same cell in this command".to_string()));
+                    continue;
+                }
+                if (kept.date - cal.from).num_days() >= n as i64 {
+                    kept_moves.push(KeptMove { applied: false, ..kept.clone() });
+                    continue;
+                }
+                match mv.apply(&mut slot, &mut seen, &kept.cell, kept.date, true) {
+                    Ok(()) => kept_moves.push(KeptMove { applied: true, ..kept.clone() }),
+                    Err(reason) => dropped_moves.push(drop(reason)),
+                }
+            }
+        }
+        // Then this command's hand moves whose date lies in a window of this cycle.
+        let mut still = Vec::with_capacity(moves_left.len());
+        for m in moves_left {
+            let (cell, date) = &input.moves[m];
+            let idx = (*date - cal.from).num_days();
+            let here = input.cells.iter().position(|c| c.cell == *cell).and_then(|ci| by_cell.get(&(ci, k))).is_some_and(|&i| {
+                let t = &jobs[i].task;
+                t.earliest as i64 <= idx && idx <= t.latest.min(n - 1) as i64
+            });
+            if !here {
+                still.push(m);
+                continue;
+            }
+            mv.apply(&mut slot, &mut seen, cell, *date, false).map_err(|message| PlanError::Move {
+                cell: cell.clone(),
+                date: *date,
+                message,
+            })?;
+        }
+        moves_left = still;
+        // What this cycle's changes leave for the next ones.
         let mut used = vec![0u64; horizon];
-        for (t, d) in out.day.iter().enumerate() {
-            if let Some(d) = *d {
-                slot[these[t]] = Slot::Day(d, false);
+        crew_left.clone_from(&crew);
+        for (i, s) in slot.iter().enumerate() {
+            if let Slot::Day(d, _) = *s
+                && d < horizon
+            {
                 crew_left[d] = crew_left[d].saturating_sub(1);
-                used[d] += u64::from(tasks[t].anodes);
+                used[d] += u64::from(jobs[i].task.anodes);
             }
         }
-        for (t, u) in &out.unplaced {
-            let task = &tasks[*t];
-            // a day the earlier cycles filled is a full day, not a day without anode work
-            let worked = (task.earliest..=task.latest.min(horizon - 1)).any(|d| crew[d] > 0 && !task.days_off.contains(&d));
-            let u = if *u == Unplaced::NoWorkingDayInWindow && worked { Unplaced::NoCrewCapacity } else { *u };
-            slot[these[*t]] = Slot::Out(reason_of(u, false));
-        }
-        (stock_left, per_day_left) = remaining_supply(stock_left, &per_day_left, &used);
-    }
-    // Recorded decisions first (oldest first), then this command's hand moves.
-    let mv = Moves { input, jobs: &jobs, crew: &crew, stock, per_day: &per_day, by_cell: &by_cell };
-    let mut seen: Vec<usize> = Vec::new();
-    let (mut kept_moves, mut dropped_moves) = (Vec::new(), Vec::new());
-    for k in &input.kept {
-        let drop = |reason: String| DroppedMove { cell: k.cell.clone(), date: k.date, by: k.by.clone(), entry: k.entry, reason };
-        if input.moves.iter().any(|(c, _)| *c == k.cell) {
-            dropped_moves.push(drop("overridden by a --move of the same cell in this command".to_string()));
-            continue;
-        }
-        if (k.date - cal.from).num_days() >= n as i64 {
-            kept_moves.push(KeptMove { applied: false, ..k.clone() });
-            continue;
-        }
-        match mv.apply(&mut slot, &mut seen, &k.cell, k.date, true) {
-            Ok(()) => kept_moves.push(KeptMove { applied: true, ..k.clone() }),
-            Err(reason) => dropped_moves.push(drop(reason)),
+        (stock_left, per_day_left) = remaining_supply(stock, &per_day, &used);
+        // The next loads, set when this cycle's changes are planned (one not
+        // placed is assumed on its ideal day, so the changes after it are listed as resting on it).
+        for ci in 0..cells.len() {
+            let Some(ch) = outlooks[ci].cycles.get(k).and_then(|cy| cy.change.as_ref()) else { continue };
+            let at = match by_cell.get(&(ci, k)).map(|&i| slot[i]) {
+                Some(Slot::Day(d, _)) if d < n => cal.instant(d, ch.target_at, now),
+                Some(Slot::Day(..)) => continue,
+                Some(Slot::Out(_)) | None => ch.assumed_at,
+            };
+            if at >= end {
+                continue;
+            }
+            let Some(curve) = curves.get(&cells[ci].circuit) else { continue };
+            let next = next_cycle(curve, &cells[ci], at, cal, now).map_err(PlanError::Curve)?;
+            outlooks[ci].cycles.push(next);
         }
     }
-    for (cell, date) in &input.moves {
+    // A hand move that fits no window: the reason, as the move check gives it.
+    for m in moves_left {
+        let (cell, date) = &input.moves[m];
+        let mv = Moves { input, jobs: &jobs, crew: &crew, stock, per_day: &per_day, by_cell: &by_cell };
         mv.apply(&mut slot, &mut seen, cell, *date, false).map_err(|message| PlanError::Move {
             cell: cell.clone(),
             date: *date,
             message,
         })?;
     }
-
     // The day's changes in shifts, and the crane lifts they leave for harvests.
     let pulls_crop = |i: usize| outlooks[jobs[i].cell].cycles[jobs[i].cycle].last_crop_from.is_some();
     let mut with_crop: Vec<Vec<(String, bool)>> = vec![Vec::new(); n];
@@ -1046,21 +1115,21 @@ where
             };
             // A crop that cannot be pulled in its own window (due on or after
             // its change's day, as levelled) stays in and joins the next one.
-            let mut carry: Option<Time> = None;
+            let mut carry: Option<(Time, bool)> = None;
             for (h, hv) in cy.harvests.iter().enumerate() {
-                let (earliest, ideal, latest) = if hv.overdue {
+                let (earliest, ideal, latest) = if hv.before_start {
                     (0, 0, HARVEST_SLACK_DAYS.min(hi))
                 } else {
                     ((hv.day - HARVEST_SLACK_DAYS).max(lo).max(0), hv.day.max(lo), (hv.day + HARVEST_SLACK_DAYS).min(hi))
                 };
                 if earliest > latest || ideal > hi {
-                    carry = carry.or(Some(hv.crop_from));
+                    carry = carry.or(Some((hv.crop_from, hv.overdue)));
                     continue;
                 }
                 let crop = PlannedCrop {
                     cell: ci,
                     day: to_day(ideal),
-                    from: carry.take().unwrap_or(hv.crop_from),
+                    from: carry.take().map_or(hv.crop_from, |c| c.0),
                     due: hv.due_at,
                     overdue: hv.overdue,
                     window: Window { earliest: cal.date(earliest), ideal: cal.date(ideal), latest: Some(cal.date(latest)) },
@@ -1083,9 +1152,10 @@ where
                 fixed.push(PlannedCrop {
                     cell: ci,
                     day: d,
-                    from: carry.unwrap_or(last),
+                    from: carry.map_or(last, |c| c.0),
                     due: ch.target_at,
-                    overdue: ch.overdue,
+                    // overdue when its forecast time (the change's, or a crop's it carries) has passed
+                    overdue: ch.target_at <= now || carry.is_some_and(|c| c.1),
                     window: Window { earliest: cal.date(d as i64), ideal: cal.date(d as i64), latest: Some(cal.date(d as i64)) },
                     with_change: true,
                 });
@@ -1686,6 +1756,67 @@ mod tests {
         let p = plan(&inp, &curves).unwrap();
         let cs = changes(&p);
         assert_eq!(cs.iter().map(|(d, c)| (*d, c.cycle)).collect::<Vec<_>>(), vec![(8, 0), (27, 1)]);
+    }
+
+    #[test]
+    fn the_next_load_starts_on_the_day_its_change_is_levelled_or_moved_to() {
+        // Two plant-check cells set together, one crew place a day: both are ideal on 03-18
+        // (index 8, days from 20:00), one goes a day early (cheaper than late), to the end of
+        // 03-17's production day (03-18T19:59:59Z, 427.9997 h). Its next load is set then, so its
+        // next change is ideal 451.83 h later (879.83 h = 04-06 15:50Z → day 04-05, index 26), not
+        // at 2 × 451.83 = 903.66 h as the outlook on its own assumes (index 27).
+        let inp = input(240, "20:00", 30, rules(1), vec![cell("A01", 0.0), cell("A02", 0.0)]);
+        let curves = flat(240);
+        let p = plan(&inp, &curves).unwrap();
+        let cs = changes(&p);
+        let of = |cell: &str, k: usize| cs.iter().find(|(_, c)| c.cell == cell && c.cycle == k).map(|(d, c)| (*d, *c)).unwrap();
+        let early = if of("A01", 0).0 == 7 { "A01" } else { "A02" };
+        assert_eq!(of(early, 0).0, 7);
+        assert!((hours_after_t0(of(early, 0).1.at) - 427.9997).abs() < 0.001);
+        for id in ["A01", "A02"] {
+            let (first, next) = (of(id, 0).1, of(id, 1).1);
+            assert!((hours_after_t0(next.target_at) - hours_after_t0(first.at) - TARGET_H).abs() < 0.01, "{id}: {:?}", next.target_at);
+        }
+        assert_eq!(of(early, 1).1.window.ideal, date(2026, 4, 5));
+        assert!((hours_after_t0(of(early, 1).1.target_at) - 879.83).abs() < 0.01);
+        // a hand move of a cell's first change to 03-16 (index 6): its next load is set at the end
+        // of that day (03-17T19:59:59Z, 403.9997 h), its next ideal 451.83 h later (855.83 h)
+        let mut m = input(240, "20:00", 30, rules(8), vec![cell("A01", 0.0)]);
+        m.moves = vec![("A01".into(), date(2026, 3, 16))];
+        let p = plan(&m, &curves).unwrap();
+        let cs = changes(&p);
+        let first = cs.iter().find(|(_, c)| c.cycle == 0).unwrap().1;
+        let next = cs.iter().find(|(_, c)| c.cycle == 1).unwrap().1;
+        assert!(first.moved && (hours_after_t0(first.at) - 403.9997).abs() < 0.001);
+        assert!((hours_after_t0(next.target_at) - 855.83).abs() < 0.01, "{:?}", next.target_at);
+        // the first crop of the next load starts at the moved change too: 120 kg after 179.25 h (03-25 07:15Z → day 03-24)
+        let h = harvests(&p).into_iter().find(|(_, h)| (hours_after_t0(h.at) - (403.9997 + 179.25)).abs() < 0.01);
+        assert!(h.is_some_and(|(_, h)| (h.mass_kg - 120.0).abs() < 1e-3), "{:?}", harvests(&p));
+    }
+
+    #[test]
+    fn the_plans_crops_are_the_forecasts_harvest_times() {
+        // One rule for both (crop_target): the forecast's harvest_due of the running crop is
+        // the plan's first crop time, with and without crops_per_anode_cycle. A crop begun
+        // 100 h after the set: with 3 crops the next part of the life is the second (301.22 h,
+        // at least half a crop of 150.61 h after 100 h); at target mass, 100 + 179.25 = 279.25 h.
+        use crate::domain::forecast::forecast_cell;
+        let curves = flat(120);
+        for (k, want_h) in [(Some(3), 2.0 * TARGET_H / 3.0), (None, 100.0 + 179.25)] {
+            let mut c = cell("A01", 0.0);
+            c.crop_started = Some(at(100.0));
+            c.params.crops_per_anode_cycle = k;
+            let inp = input(120, "20:00", 20, rules(8), vec![c]);
+            let f = forecast_cell(&inp.cells[0], &curves["C1"], inp.now).unwrap();
+            let k_due = f.cathode.as_ref().unwrap().harvest_due.unwrap();
+            assert!((hours_after_t0(k_due) - want_h).abs() < 0.01, "{k:?}: {k_due}");
+            let w = f.cathode.as_ref().unwrap().harvest_window.unwrap();
+            assert!(w.early <= k_due && k_due <= w.late, "{k:?}: {w:?}");
+            let p = plan(&inp, &curves).unwrap();
+            let (_, h) = harvests(&p).into_iter().min_by_key(|(_, h)| h.at).unwrap();
+            assert_eq!(h.at, k_due, "{k:?}");
+            assert!(!h.overdue);
+        }
     }
 
     #[test]
