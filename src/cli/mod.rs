@@ -370,29 +370,6 @@ fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
     })
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn a_panic_is_said_in_one_line() {
-        let at = std::panic::Location::caller();
-        let line = panic_line(&String::from("index out of bounds:\nthe len is 3"), Some(at));
-        assert!(line.starts_with("tankbook: internal error at src/cli/mod.rs:"), "{line}");
-        assert!(line.contains("index out of bounds: the len is 3") && !line.contains('\n'), "{line}");
-        assert!(panic_line(&42u8, None).contains("no message"));
-    }
-
-    #[test]
-    fn a_rejection_names_the_option_the_user_typed() {
-        let e = anyhow::Error::from(PlantError::Rejected { field: Field::TotalKg, entry: Some(1), message: "too heavy".into() });
-        assert_eq!(message(&e.context("logging")), "logging: entry 2 of the batch, --total-kg: too heavy");
-        for f in [Field::Cell, Field::At, Field::MeanKg, Field::Volts, Field::By] {
-            assert!(option(f).starts_with("--"), "{f:?}");
-        }
-    }
-}
-
 /// Imports a current file with a progress bar on stderr, shown only when
 /// stderr is a terminal and the import has run for over a second; stdout is untouched.
 fn import_with_progress(plant: &mut Plant, file: &std::path::Path, now: Time) -> Result<crate::plant::ImportSummary> {
@@ -414,4 +391,27 @@ fn import_with_progress(plant: &mut Plant, file: &std::path::Path, now: Time) ->
     })?;
     bar.finish_and_clear();
     Ok(s)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_panic_is_said_in_one_line() {
+        let at = std::panic::Location::caller();
+        let line = panic_line(&String::from("index out of bounds:\nthe len is 3"), Some(at));
+        assert!(line.starts_with("tankbook: internal error at src/cli/mod.rs:"), "{line}");
+        assert!(line.contains("index out of bounds: the len is 3") && !line.contains('\n'), "{line}");
+        assert!(panic_line(&42u8, None).contains("no message"));
+    }
+
+    #[test]
+    fn a_rejection_names_the_option_the_user_typed() {
+        let e = anyhow::Error::from(PlantError::Rejected { field: Field::TotalKg, entry: Some(1), message: "too heavy".into() });
+        assert_eq!(message(&e.context("logging")), "logging: entry 2 of the batch, --total-kg: too heavy");
+        for f in [Field::Cell, Field::At, Field::MeanKg, Field::Volts, Field::By] {
+            assert!(option(f).starts_with("--"), "{f:?}");
+        }
+    }
 }
