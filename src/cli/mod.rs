@@ -313,7 +313,7 @@ fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
         }
     }
     let mut plant = Plant::open(&path).with_context(|| format!("creating {}", path.display()))?;
-    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed };
+    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed, reading_minutes: a.reading_minutes };
     let s = crate::demo::build(&mut plant, &spec, now)?;
     eprintln!(
         "wrote the demo plant to {}: {} circuits, {} cells, {} readings and {} entries from {} to {}",
