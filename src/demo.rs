@@ -330,6 +330,8 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
 
     // Entries are kept compact (a cell's number, not its name) until their batch is recorded.
     let mut names: Vec<String> = Vec::new();
+    // every entry lies between the start and now, at most 1 100 days apart (the --days limit)
+    let since = |t: Time| u32::try_from((t - start).num_seconds()).unwrap_or(u32::MAX);
     let mut entries: Vec<Pending> = Vec::new();
     let mut last_inert = None;
     plan_cells(&designs, spec, start, now, &mut |mut p: CellPlan| {
@@ -340,7 +342,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
         }
         let mut push = |at: Time, rank: u8, done: Done| {
             let seq = entries.len() as u32;
-            entries.push(Pending { at, rank, seq, cell, done });
+            entries.push(Pending { at: since(at), rank, seq, cell, done });
         };
         let mut rng = Rng::new(spec.seed, 1000 + i as u64);
         let inert = p.inert;
@@ -383,7 +385,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                 }
                 Work::Cutout { hours } => {
                     let to = t + Duration::minutes((hours * 60.0) as i64);
-                    Done::Cutout((to <= now).then_some(to))
+                    Done::Cutout((to <= now).then_some(since(to)))
                 }
                 Work::Shorts(n) => Done::Shorts(if shorted { n + 2 } else { n }),
                 Work::Voltage(v) => {
@@ -412,21 +414,23 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     // One liberator cell's last voltage reads too low for an inert-anode cell: a short or a bad reading.
     if let Some(cell) = last_inert {
         let seq = entries.len() as u32;
-        entries.push(Pending { at: now, rank: 6, seq, cell, done: Done::ForcedVoltage(0.62) });
+        entries.push(Pending { at: since(now), rank: 6, seq, cell, done: Done::ForcedVoltage(0.62) });
     }
     // time order; ties in the order generated
     entries.sort_unstable_by_key(|p| (p.at, p.rank, p.seq));
     let n = entries.len() + circuit_entries.len();
     for chunk in entries.chunks(ENTRIES_PER_BATCH) {
-        let batch: Vec<(Entry, Opts)> = chunk.iter().map(|p| p.entry(&names[p.cell as usize], opts)).collect();
+        let batch: Vec<(Entry, Opts)> = chunk.iter().map(|p| p.entry(&names[p.cell as usize], start, opts)).collect();
         plant.record_batch(&batch)?;
     }
     Ok(DemoSummary { circuits: designs.len(), cells: names.len(), readings: imported.added, entries: n, from: start, to: now })
 }
 
-/// An entry waiting for its batch: what the demo generated, without the cell's name.
+/// An entry waiting for its batch: what the demo generated, without the cell's
+/// name, its times in seconds after the demo's start (32 bytes an entry: a
+/// plant-scale demo holds over a million).
 struct Pending {
-    at: Time,
+    at: u32,
     rank: u8,
     /// The order generated, which breaks ties of time and rank.
     seq: u32,
@@ -443,7 +447,7 @@ enum Done {
     Harvest(f64),
     Scrap(f64),
     /// A cut-out from the entry's time to this end (none: still out).
-    Cutout(Option<Time>),
+    Cutout(Option<u32>),
     Shorts(u32),
     Voltage(f64),
     /// A voltage recorded although its check questions it.
@@ -451,13 +455,14 @@ enum Done {
 }
 
 impl Pending {
-    fn entry(&self, cell: &str, opts: impl Fn(Time, bool) -> Opts) -> (Entry, Opts) {
-        let (cell, at) = (cell.to_string(), self.at);
+    fn entry(&self, cell: &str, start: Time, opts: impl Fn(Time, bool) -> Opts) -> (Entry, Opts) {
+        let time = |s: u32| start + Duration::seconds(i64::from(s));
+        let (cell, at) = (cell.to_string(), time(self.at));
         let entry = match self.done {
             Done::Anodes { count, mean_kg } => Entry::Anodes { cell, at, count, mean_kg },
             Done::Harvest(total_kg) => Entry::Harvest { cell, at, total_kg },
             Done::Scrap(total_kg) => Entry::Scrap { cell, at, total_kg },
-            Done::Cutout(to) => Entry::Cutout { cell, from: at, to },
+            Done::Cutout(to) => Entry::Cutout { cell, from: at, to: to.map(time) },
             Done::Shorts(count) => Entry::Shorts { cell, at, count },
             Done::Voltage(volts) | Done::ForcedVoltage(volts) => Entry::Voltage { cell, at, volts },
         };
