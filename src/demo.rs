@@ -23,13 +23,25 @@ pub struct DemoSpec {
     pub cells: usize,
     pub days: u32,
     pub seed: u64,
+    /// Minutes between rectifier readings.
+    pub reading_minutes: u32,
 }
 
 impl Default for DemoSpec {
     fn default() -> Self {
-        DemoSpec { cells: 102, days: 60, seed: 7 }
+        DemoSpec { cells: 102, days: 60, seed: 7, reading_minutes: 15 }
     }
 }
+
+/// Entries recorded per write: the default demo's 8 617 go in as one batch;
+/// a plant-scale demo goes in batch after batch, each its own transaction,
+/// so the pending entries are never all built as `Entry` values at once.
+const ENTRIES_PER_BATCH: usize = 50_000;
+
+/// The readings the demo's own weighings are computed from: every reading on a
+/// 15-minute mark (at the default, every reading), so a year of minute readings
+/// is not kept in memory.
+const CURVE_MINUTES: i64 = 15;
 
 /// What the demo wrote.
 #[derive(Debug, Clone, PartialEq)]
@@ -195,12 +207,79 @@ fn foreman(t: Time) -> &'static str {
     FOREMEN[(t.ordinal() as usize * 3 + shift) % FOREMEN.len()]
 }
 
+/// The demo's current log as CSV, generated line by line as the import reads
+/// it (a year of minute readings is never one string), keeping the readings on
+/// the curve's marks for the weighings.
+struct CurrentLog<'a> {
+    designs: &'a [CircuitDesign],
+    outages: &'a [Vec<Span>],
+    /// The unexplained gap in the first circuit's readings (ends excluded).
+    gap: Span,
+    start: Time,
+    now: Time,
+    step: Duration,
+    rng: Rng,
+    circuit: usize,
+    t: Time,
+    header: bool,
+    buf: Vec<u8>,
+    pos: usize,
+    curve: Vec<Vec<RawReading>>,
+}
+
+impl CurrentLog<'_> {
+    /// Writes the next lines into the buffer; false at the end of the log.
+    fn fill(&mut self) -> bool {
+        use std::io::Write as _;
+        self.buf.clear();
+        self.pos = 0;
+        if std::mem::take(&mut self.header) {
+            self.buf.extend_from_slice(b"time,circuit,amps\n");
+        }
+        while self.buf.len() < 1 << 15 {
+            let Some(d) = self.designs.get(self.circuit) else { break };
+            if self.t > self.now {
+                self.circuit += 1;
+                self.t = self.start;
+                continue;
+            }
+            let t = self.t;
+            self.t += self.step;
+            let in_outage = self.outages[self.circuit].iter().any(|o| o.from <= t && t < o.to);
+            let in_gap = self.circuit == 0 && t > self.gap.from && t < self.gap.to;
+            if in_gap {
+                continue;
+            }
+            let minutes = (t - self.start).num_minutes();
+            let h = minutes as f64 / 60.0;
+            let ripple = 0.005 * (std::f64::consts::TAU * h / 24.0).sin() + 0.003 * self.rng.normal();
+            let amps = if in_outage { 0.0 } else { (d.amps * (1.0 + ripple)).round() };
+            let _ = writeln!(self.buf, "{},{},{amps}", t.format("%Y-%m-%dT%H:%M:%SZ"), d.name);
+            if minutes % CURVE_MINUTES == 0 || self.step > Duration::minutes(CURVE_MINUTES) {
+                self.curve[self.circuit].push(RawReading { t, amps });
+            }
+        }
+        !self.buf.is_empty()
+    }
+}
+
+impl std::io::Read for CurrentLog<'_> {
+    fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+        if self.pos == self.buf.len() && !self.fill() {
+            return Ok(0);
+        }
+        let n = out.len().min(self.buf.len() - self.pos);
+        out[..n].copy_from_slice(&self.buf[self.pos..self.pos + n]);
+        self.pos += n;
+        Ok(n)
+    }
+}
+
 /// Writes the demo plant into `plant` (which should be empty), ending at `now`.
 pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummary> {
     let designs = designs(spec);
     let start = to_slot(now - Duration::days(i64::from(spec.days))) - Duration::hours(8);
     plant.load_layout(&layout_text(spec), "demo layout", start)?;
-    let step = Duration::minutes(15);
 
     // The current log: 15-minute readings with ripple, two outages and one unexplained gap.
     let mut outages: Vec<Vec<Span>> = vec![Vec::new(); designs.len()];
@@ -211,26 +290,24 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     if designs.len() > 1 {
         outages[1].push(Span { from: o2, to: o2 + Duration::minutes(135) });
     }
-    let gap = (to_slot(day(0.55)) + Duration::hours(2), to_slot(day(0.55)) + Duration::hours(6));
-    let mut csv = String::from("time,circuit,amps\n");
-    let mut readings: Vec<Vec<RawReading>> = vec![Vec::new(); designs.len()];
-    let mut rng = Rng::new(spec.seed, 1);
-    for (ci, d) in designs.iter().enumerate() {
-        let mut t = start;
-        while t <= now {
-            let in_outage = outages[ci].iter().any(|o| o.from <= t && t < o.to);
-            let in_gap = ci == 0 && t > gap.0 && t < gap.1;
-            if !in_gap {
-                let h = (t - start).num_minutes() as f64 / 60.0;
-                let ripple = 0.005 * (std::f64::consts::TAU * h / 24.0).sin() + 0.003 * rng.normal();
-                let amps = if in_outage { 0.0 } else { (d.amps * (1.0 + ripple)).round() };
-                let _ = writeln!(csv, "{},{},{amps}", t.format("%Y-%m-%dT%H:%M:%SZ"), d.name);
-                readings[ci].push(RawReading { t, amps });
-            }
-            t += step;
-        }
-    }
-    let imported = plant.import_current(csv.as_bytes(), "demo current log", start)?;
+    let gap = Span { from: to_slot(day(0.55)) + Duration::hours(2), to: to_slot(day(0.55)) + Duration::hours(6) };
+    let mut log = CurrentLog {
+        designs: &designs,
+        outages: &outages,
+        gap,
+        start,
+        now,
+        step: Duration::minutes(i64::from(spec.reading_minutes.max(1))),
+        rng: Rng::new(spec.seed, 1),
+        circuit: 0,
+        t: start,
+        header: true,
+        buf: Vec::new(),
+        pos: 0,
+        curve: vec![Vec::new(); designs.len()],
+    };
+    let imported = plant.import_current(&mut log, "demo current log", start)?;
+    let readings = std::mem::take(&mut log.curve);
     let opts = |t: Time, force: bool| Opts { by: foreman(t).to_string(), force, now: t.max(start) };
     let mut circuit_entries = Vec::new();
     for (ci, d) in designs.iter().enumerate() {
@@ -251,9 +328,22 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     plant.record_batch(&circuit_entries)?;
     let curves: Vec<MemoryCurve> = readings.iter().zip(&outages).map(|(r, o)| MemoryCurve::build(r, o, &[], now)).collect();
 
-    let mut plans = plan_cells(&designs, spec, start, now);
-    let mut entries: Vec<(Time, u8, Entry, Opts)> = Vec::new();
-    for (i, p) in plans.iter_mut().enumerate() {
+    // Entries are kept compact (a cell's number, not its name) until their batch is recorded.
+    let mut names: Vec<String> = Vec::new();
+    // every entry lies between the start and now, at most 1 100 days apart (the --days limit)
+    let since = |t: Time| u32::try_from((t - start).num_seconds()).unwrap_or(u32::MAX);
+    let mut entries: Vec<Pending> = Vec::new();
+    let mut last_inert = None;
+    plan_cells(&designs, spec, start, now, &mut |mut p: CellPlan| {
+        let i = names.len();
+        let cell = i as u32;
+        if p.inert {
+            last_inert = Some(cell);
+        }
+        let mut push = |at: Time, rank: u8, done: Done| {
+            let seq = entries.len() as u32;
+            entries.push(Pending { at: since(at), rank, seq, cell, done });
+        };
         let mut rng = Rng::new(spec.seed, 1000 + i as u64);
         let inert = p.inert;
         let shorted = !inert && rng.unit() < 0.05;
@@ -268,15 +358,14 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
         let mut crop_start: Option<Time> = None;
         let mut load: Option<(Time, u32, f64)> = None;
         p.events.sort_by_key(|(t, w)| (*t, rank(w)));
-        for (t, w) in p.events.clone() {
-            let when = t;
-            let entry = match w {
+        for &(t, w) in &p.events {
+            let done = match w {
                 Work::Anodes { count, mean_kg } => {
                     load = Some((t, count, mean_kg));
                     if crop_start.is_none() {
                         crop_start = Some(t);
                     }
-                    Entry::Anodes { cell: p.cell.clone(), at: t, count, mean_kg }
+                    Done::Anodes { count, mean_kg }
                 }
                 Work::Harvest => {
                     let Some(s) = crop_start else { continue };
@@ -285,24 +374,20 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     let kg = (ECE_KG_PER_AH * q * (eta * (1.0 + 0.012 * rng.normal())).min(0.985)).round();
                     // the next crop starts while anodes are in; an anode change's scrap came just before
                     crop_start = load.map(|_| t);
-                    Entry::Harvest { cell: p.cell.clone(), at: t, total_kg: kg }
+                    Done::Harvest(kg)
                 }
                 Work::Scrap => {
                     let Some((set, count, mean)) = load.take() else { continue };
                     let q = cell_charge(curve, &p.cutouts, set, t).unwrap_or_else(|e| match e {}).total();
                     let a =
                         AnodeLoad { initial_kg: mean, count, efficiency: (eta / 0.962).min(1.01), copper_fraction: 0.995, lug_kg: 20.0 };
-                    let kg = (a.remaining_kg(q) * f64::from(count) * (1.0 + 0.015 * rng.normal())).round();
-                    Entry::Scrap { cell: p.cell.clone(), at: t, total_kg: kg }
+                    Done::Scrap((a.remaining_kg(q) * f64::from(count) * (1.0 + 0.015 * rng.normal())).round())
                 }
                 Work::Cutout { hours } => {
                     let to = t + Duration::minutes((hours * 60.0) as i64);
-                    Entry::Cutout { cell: p.cell.clone(), from: t, to: (to <= now).then_some(to) }
+                    Done::Cutout((to <= now).then_some(since(to)))
                 }
-                Work::Shorts(n) => {
-                    let n = if shorted { n + 2 } else { n };
-                    Entry::Shorts { cell: p.cell.clone(), at: t, count: n }
-                }
+                Work::Shorts(n) => Done::Shorts(if shorted { n + 2 } else { n }),
                 Work::Voltage(v) => {
                     let v = if inert {
                         2.05 + 0.04 * rng.normal()
@@ -311,35 +396,78 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     } else {
                         v + 0.008 * rng.normal()
                     };
-                    Entry::Voltage { cell: p.cell.clone(), at: t, volts: (v * 1000.0).round() / 1000.0 }
+                    Done::Voltage((v * 1000.0).round() / 1000.0)
                 }
             };
-            entries.push((when, rank(&w), entry, opts(when, false)));
+            push(t, rank(&w), done);
         }
         if shorted {
             // shorts found and cleared every few days in the cells that have them
             let mut t = start + Duration::hours(30 + (rng.unit() * 40.0) as i64);
             while t < now {
-                entries.push((
-                    to_slot(t),
-                    5,
-                    Entry::Shorts { cell: p.cell.clone(), at: to_slot(t), count: 2 + (rng.unit() * 4.0) as u32 },
-                    opts(to_slot(t), false),
-                ));
+                push(to_slot(t), 5, Done::Shorts(2 + (rng.unit() * 4.0) as u32));
                 t += Duration::hours(50 + (rng.unit() * 30.0) as i64);
             }
         }
-    }
+        names.push(std::mem::take(&mut p.cell));
+    });
     // One liberator cell's last voltage reads too low for an inert-anode cell: a short or a bad reading.
-    if let Some(lib) = plans.iter().rev().find(|p| p.inert) {
-        let t = now;
-        entries.push((t, 6, Entry::Voltage { cell: lib.cell.clone(), at: t, volts: 0.62 }, opts(t, true)));
+    if let Some(cell) = last_inert {
+        let seq = entries.len() as u32;
+        entries.push(Pending { at: since(now), rank: 6, seq, cell, done: Done::ForcedVoltage(0.62) });
     }
-    entries.sort_by_key(|a| (a.0, a.1));
-    let batch: Vec<(Entry, Opts)> = entries.into_iter().map(|(_, _, e, o)| (e, o)).collect();
-    let n = batch.len() + circuit_entries.len();
-    plant.record_batch(&batch)?;
-    Ok(DemoSummary { circuits: designs.len(), cells: plans.len(), readings: imported.added, entries: n, from: start, to: now })
+    // time order; ties in the order generated
+    entries.sort_unstable_by_key(|p| (p.at, p.rank, p.seq));
+    let n = entries.len() + circuit_entries.len();
+    for chunk in entries.chunks(ENTRIES_PER_BATCH) {
+        let batch: Vec<(Entry, Opts)> = chunk.iter().map(|p| p.entry(&names[p.cell as usize], start, opts)).collect();
+        plant.record_batch(&batch)?;
+    }
+    Ok(DemoSummary { circuits: designs.len(), cells: names.len(), readings: imported.added, entries: n, from: start, to: now })
+}
+
+/// An entry waiting for its batch: what the demo generated, without the cell's
+/// name, its times in seconds after the demo's start (32 bytes an entry: a
+/// plant-scale demo holds over a million).
+struct Pending {
+    at: u32,
+    rank: u8,
+    /// The order generated, which breaks ties of time and rank.
+    seq: u32,
+    cell: u32,
+    done: Done,
+}
+
+#[derive(Clone, Copy)]
+enum Done {
+    Anodes {
+        count: u32,
+        mean_kg: f64,
+    },
+    Harvest(f64),
+    Scrap(f64),
+    /// A cut-out from the entry's time to this end (none: still out).
+    Cutout(Option<u32>),
+    Shorts(u32),
+    Voltage(f64),
+    /// A voltage recorded although its check questions it.
+    ForcedVoltage(f64),
+}
+
+impl Pending {
+    fn entry(&self, cell: &str, start: Time, opts: impl Fn(Time, bool) -> Opts) -> (Entry, Opts) {
+        let time = |s: u32| start + Duration::seconds(i64::from(s));
+        let (cell, at) = (cell.to_string(), time(self.at));
+        let entry = match self.done {
+            Done::Anodes { count, mean_kg } => Entry::Anodes { cell, at, count, mean_kg },
+            Done::Harvest(total_kg) => Entry::Harvest { cell, at, total_kg },
+            Done::Scrap(total_kg) => Entry::Scrap { cell, at, total_kg },
+            Done::Cutout(to) => Entry::Cutout { cell, from: at, to: to.map(time) },
+            Done::Shorts(count) => Entry::Shorts { cell, at, count },
+            Done::Voltage(volts) | Done::ForcedVoltage(volts) => Entry::Voltage { cell, at, volts },
+        };
+        (entry, opts(at, matches!(self.done, Done::ForcedVoltage(_))))
+    }
 }
 
 fn rank(w: &Work) -> u8 {
@@ -354,8 +482,8 @@ fn rank(w: &Work) -> u8 {
 }
 
 /// Each cell's anode changes (in crew-sized waves), harvests, cut-outs and readings.
-fn plan_cells(designs: &[CircuitDesign], spec: &DemoSpec, start: Time, now: Time) -> Vec<CellPlan> {
-    let mut out = Vec::new();
+fn plan_cells(designs: &[CircuitDesign], spec: &DemoSpec, start: Time, now: Time, each: &mut dyn FnMut(CellPlan)) {
+    let mut made = 0;
     for (ci, d) in designs.iter().enumerate() {
         let life = life_hours(d);
         let refining: usize = d.sections.iter().filter(|s| !s.2).map(|s| s.1).sum();
@@ -417,24 +545,28 @@ fn plan_cells(designs: &[CircuitDesign], spec: &DemoSpec, start: Time, now: Time
                     }
                     t += Duration::days(1);
                 }
-                out.push(p);
+                if made == 5 {
+                    out_for_repair(&mut p, now);
+                }
+                made += 1;
+                each(p);
             }
         }
     }
-    // One cell is out for a bus-bar repair right now (open cut-out).
-    if let Some(p) = out.get_mut(5) {
-        let t = to_slot(now - Duration::hours(20));
-        // the cell is out: no harvest or anode work after the cut-out begins
-        let busy = |w: &Work| !matches!(w, Work::Voltage(_) | Work::Shorts(_));
-        let clear = |c: &OpenSpan| c.to.is_some_and(|to| to < t);
-        if p.cutouts.iter().all(|c| c.from >= t - Duration::hours(1) || clear(c)) {
-            p.events.retain(|(at, w)| *at < t - Duration::hours(1) || !busy(w));
-            p.cutouts.retain(|c| c.from < t - Duration::hours(1));
-            p.events.push((t, Work::Cutout { hours: 1e6 }));
-            p.cutouts.push(OpenSpan { from: t, to: None });
-        }
+}
+
+/// One cell is out for a bus-bar repair right now (open cut-out).
+fn out_for_repair(p: &mut CellPlan, now: Time) {
+    let t = to_slot(now - Duration::hours(20));
+    // the cell is out: no harvest or anode work after the cut-out begins
+    let busy = |w: &Work| !matches!(w, Work::Voltage(_) | Work::Shorts(_));
+    let clear = |c: &OpenSpan| c.to.is_some_and(|to| to < t);
+    if p.cutouts.iter().all(|c| c.from >= t - Duration::hours(1) || clear(c)) {
+        p.events.retain(|(at, w)| *at < t - Duration::hours(1) || !busy(w));
+        p.cutouts.retain(|c| c.from < t - Duration::hours(1));
+        p.events.push((t, Work::Cutout { hours: 1e6 }));
+        p.cutouts.push(OpenSpan { from: t, to: None });
     }
-    out
 }
 
 /// Refuses to write over a database that holds a real plant.

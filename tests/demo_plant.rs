@@ -137,3 +137,34 @@ fn a_reader_that_stops_early_is_not_an_error() {
         assert!(!err.contains("panicked"), "{args:?}: {err}");
     }
 }
+
+/// `--reading-minutes` thins or thickens only the current log: the same cells,
+/// three times the readings at 5 minutes, and the same plant to within the ripple.
+#[test]
+fn reading_minutes_change_the_log_not_the_plant() {
+    let readings = |out: &str| -> f64 {
+        let words: Vec<&str> = out.split_whitespace().collect();
+        let i = words.iter().position(|w| *w == "readings").unwrap();
+        words[i - 1].parse().unwrap()
+    };
+    // the summary goes to stderr
+    let written = |tk: &Tk, args: &[&str]| {
+        let out = tk.cmd().args(args).output().unwrap();
+        assert!(out.status.success());
+        String::from_utf8_lossy(&out.stderr).into_owned()
+    };
+    let a = Tk::new(NOW);
+    let out15 = written(&a, &["demo", "--no-tui", "--cells", "30", "--days", "25"]);
+    let b = Tk::new(NOW);
+    let out5 = written(&b, &["demo", "--no-tui", "--cells", "30", "--days", "25", "--reading-minutes", "5"]);
+    let ratio = readings(&out5) / readings(&out15);
+    assert!((2.95..=3.01).contains(&ratio), "{out15} / {out5}");
+    let (fa, fb) = (a.json(&["forecast", "--json"]), b.json(&["forecast", "--json"]));
+    let cells = |f: &serde_json::Value| f["cells"].as_array().unwrap().iter().map(|c| c["cell"].to_string()).collect::<Vec<_>>();
+    assert_eq!(cells(&fa), cells(&fb));
+    let eff = |f: &serde_json::Value| {
+        let e: Vec<f64> = f["cells"].as_array().unwrap().iter().filter_map(|c| c["last_crop_efficiency"].as_f64()).collect();
+        e.iter().sum::<f64>() / e.len() as f64
+    };
+    assert!((eff(&fa) - eff(&fb)).abs() < 0.01, "{} vs {}", eff(&fa), eff(&fb));
+}

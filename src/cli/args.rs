@@ -69,6 +69,9 @@ pub struct DemoArgs {
     /// Seed of the generator: the same seed and clock give the same plant
     #[arg(long, default_value_t = 7)]
     pub seed: u64,
+    /// Minutes between the demo's rectifier readings (1 for a plant-scale benchmark)
+    #[arg(long, default_value_t = 15, value_parser = clap::value_parser!(u32).range(1..=240))]
+    pub reading_minutes: u32,
 }
 
 #[derive(Debug, Subcommand)]

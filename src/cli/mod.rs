@@ -164,7 +164,7 @@ pub fn run(cli: Cli) -> Result<()> {
             );
         }
         Command::Import(ImportCmd::Current { file }) => {
-            let s = plant.import_current_file(&file, now)?;
+            let s = import_with_progress(&mut plant, &file, now)?;
             let span = match (s.first, s.last) {
                 (Some(a), Some(b)) => format!(" from {} to {}", plant.show_time(a), plant.show_time(b)),
                 _ => String::new(),
@@ -313,7 +313,7 @@ fn demo(db: &Option<PathBuf>, a: &args::DemoArgs, now: Time) -> Result<()> {
         }
     }
     let mut plant = Plant::open(&path).with_context(|| format!("creating {}", path.display()))?;
-    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed };
+    let spec = crate::demo::DemoSpec { cells: a.cells as usize, days: a.days, seed: a.seed, reading_minutes: a.reading_minutes };
     let s = crate::demo::build(&mut plant, &spec, now)?;
     eprintln!(
         "wrote the demo plant to {}: {} circuits, {} cells, {} readings and {} entries from {} to {}",
@@ -368,6 +368,29 @@ fn entry(plant: &Plant, cmd: LogCmd) -> Result<(Entry, Who)> {
         LogCmd::Setpoint { circuit, from, amps, who } => (Entry::Setpoint { circuit, from: t(Field::From, &from)?, amps }, who),
         LogCmd::Voltage { cell, at, volts, who } => (Entry::Voltage { cell, at: t(Field::At, &at)?, volts }, who),
     })
+}
+
+/// Imports a current file with a progress bar on stderr, shown only when
+/// stderr is a terminal and the import has run for over a second; stdout is untouched.
+fn import_with_progress(plant: &mut Plant, file: &std::path::Path, now: Time) -> Result<crate::plant::ImportSummary> {
+    let started = std::time::Instant::now();
+    let terminal = std::io::stderr().is_terminal();
+    let bar = indicatif::ProgressBar::hidden();
+    let mut shown = false;
+    let s = plant.import_current_file_with_progress(file, now, &mut |done, total| {
+        if !shown && terminal && started.elapsed() > std::time::Duration::from_secs(1) {
+            shown = true;
+            bar.set_length(total);
+            bar.set_style(
+                indicatif::ProgressStyle::with_template("importing {bar:40} {bytes}/{total_bytes} {elapsed}")
+                    .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+            );
+            bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+        }
+        bar.set_position(done);
+    })?;
+    bar.finish_and_clear();
+    Ok(s)
 }
 
 #[cfg(test)]

@@ -35,6 +35,35 @@ impl Db<'_> {
         self.recompute_charge(circuit_id, first)
     }
 
+    /// The time of the circuit's latest stored reading (valid or not), if any.
+    pub fn last_reading_time(&self, circuit_id: i64) -> Result<Option<Time>> {
+        let mut st = self.c.prepare_cached("SELECT max(t) FROM reading WHERE circuit_id = ?1")?;
+        let s: Option<i64> = st.query_row(params![circuit_id], |r| r.get(0))?;
+        Ok(super::opt_time(s)?)
+    }
+
+    /// The circuit's last valid reading before `t` (where an appended run of readings continues the charge from).
+    pub fn valid_reading_before(&self, circuit_id: i64, t: Time) -> Result<Option<Point>> {
+        self.valid_before(circuit_id, t)
+    }
+
+    /// Appends readings that all lie after every stored reading of the circuit,
+    /// in time order, continuing the cumulative charge from `prev` (the last
+    /// valid reading before them): one prepared statement, no second pass.
+    /// Returns the last valid point, where the next run continues from.
+    pub fn append_readings(&self, circuit_id: i64, prev: Option<Point>, rows: &[RawReading], outages: &[Span]) -> Result<Option<Point>> {
+        let mut st =
+            self.c.prepare_cached("INSERT INTO reading(circuit_id, t, amps, cum_ah, valid, gap_before) VALUES (?1, ?2, ?3, ?4, ?5, ?6)")?;
+        let mut last = prev;
+        for a in accumulate(prev, rows, outages) {
+            st.execute(params![circuit_id, super::storable(a.t)?, a.amps, a.cum_ah, a.valid, a.gap_before])?;
+            if a.valid {
+                last = Some(Point { t: a.t, amps: a.amps, cum_ah: a.cum_ah });
+            }
+        }
+        Ok(last)
+    }
+
     /// Recomputes the stored cumulative charge of every reading at or after `from`
     /// (after a back-fill or a newly logged outage), continuing from the last valid reading before it.
     pub fn recompute_charge(&self, circuit_id: i64, from: Time) -> Result<()> {
