@@ -42,12 +42,17 @@ impl HeldCopper {
     }
 }
 
+/// The copper in anode metal of `total_kg` (set or scrap): its copper mass fraction of it.
+pub fn anode_copper_kg(total_kg: f64, copper_fraction: f64) -> f64 {
+    total_kg * copper_fraction
+}
+
 /// The copper a cell holds according to its forecast: each anode's remaining
 /// mass × count × `anode_copper_fraction` (inert anodes hold none), and the crop's
 /// mean cathode mass × cathodes plus a starter sheet per cathode.
 pub fn held_copper(f: &CellForecast, p: &CellParams) -> HeldCopper {
     let anode_kg = match (&f.anode, f.anode_kind) {
-        (Some(a), AnodeKind::Soluble) => a.remaining_kg * f64::from(a.count) * p.anode_copper_fraction,
+        (Some(a), AnodeKind::Soluble) => anode_copper_kg(a.remaining_kg * f64::from(a.count), p.anode_copper_fraction),
         _ => 0.0,
     };
     let n = f64::from(p.cathodes_per_cell);

@@ -5,7 +5,7 @@
 use std::collections::HashMap;
 
 use super::{Plant, PlantError, Result};
-use crate::domain::balance::{Balance, CellCopper, HeldCopper, balance, held_copper};
+use crate::domain::balance::{Balance, CellCopper, HeldCopper, anode_copper_kg, balance, held_copper};
 use crate::domain::charge::{Time, cell_charge};
 use crate::domain::entry::Field;
 use crate::domain::forecast::{CellForecast, Forecast};
@@ -86,7 +86,8 @@ impl Plant {
                 start: held(start.get(c.id.as_str()), &p0),
                 end: held(f_end, p),
                 anode_ah,
-                eta_a: p.anode_efficiency,
+                // the anode factor learnt by `to`, as the held copper uses it
+                eta_a: f_end.map_or(p.anode_efficiency, |f| f.anode_factor),
                 cathode_ah,
                 eta_c: f_end.map_or(p.cathode_efficiency, |f| f.cathode_efficiency),
             });
@@ -101,9 +102,9 @@ impl Plant {
             let soluble = cell.anode_kind == AnodeKind::Soluble;
             match e.kind {
                 EventKind::Anodes if soluble => {
-                    cell.anode_in_kg += f64::from(e.count.unwrap_or(0)) * e.kg.unwrap_or(0.0) * p.anode_copper_fraction;
+                    cell.anode_in_kg += anode_copper_kg(f64::from(e.count.unwrap_or(0)) * e.kg.unwrap_or(0.0), p.anode_copper_fraction);
                 }
-                EventKind::Scrap if soluble => cell.scrap_out_kg += e.kg.unwrap_or(0.0) * p.anode_copper_fraction,
+                EventKind::Scrap if soluble => cell.scrap_out_kg += anode_copper_kg(e.kg.unwrap_or(0.0), p.anode_copper_fraction),
                 EventKind::Harvest => cell.cathode_out_kg += e.kg.unwrap_or(0.0),
                 _ => {}
             }
