@@ -506,6 +506,8 @@ fn the_report_key_writes_the_shift_report_and_says_where() {
     let folder = f.s.plant.path().parent().unwrap().join("reports");
     assert!(!folder.exists());
     f.s.press(Key::Char('R'));
+    // written on a thread of its own: the keys do not wait for it
+    assert!(f.s.finish_report(std::time::Duration::from_secs(30)), "the report is written");
     let status = f.s.app.status.clone().unwrap();
     assert!(!status.bad, "{status:?}");
     let path = PathBuf::from(status.text.strip_prefix("shift report written to ").expect("the status line names the file"));

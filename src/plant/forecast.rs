@@ -26,9 +26,14 @@ impl Plant {
     /// weighings up to `learnt_at` instead: the copper balance holds both ends
     /// of its period at the efficiencies learnt by its end.
     pub(crate) fn forecast_learnt_at(&self, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Forecast> {
+        self.forecast_of(as_of, only_cell.as_ref().map(std::slice::from_ref), learnt_at)
+    }
+
+    /// The forecast of the cells in `only` (all if `None`): the screens' refresh after an entry (plant/refresh.rs).
+    pub(crate) fn forecast_of(&self, as_of: Time, only: Option<&[&str]>, learnt_at: Time) -> Result<Forecast> {
         self.refuse_damage()?;
         let db = self.store.db();
-        let cells = snapshots_learnt_at(db, as_of, only_cell, learnt_at)?;
+        let cells = snapshots_learnt_at(db, as_of, only, learnt_at)?;
         let mut curves: HashMap<i64, StoreCurve<'_>> = HashMap::new();
         let mut warnings = Vec::new();
         for c in db.circuits()? {
@@ -70,17 +75,17 @@ impl Plant {
 /// Every cell (or one) as of `as_of`, with its circuit's id: the one place the
 /// forecast, the plan and the patrol get a cell's data from, learnt values included.
 pub(crate) fn snapshots(db: Db<'_>, as_of: Time, only_cell: Option<&str>) -> Result<Vec<(i64, CellInput)>> {
-    snapshots_learnt_at(db, as_of, only_cell, as_of)
+    snapshots_learnt_at(db, as_of, only_cell.as_ref().map(std::slice::from_ref), as_of)
 }
 
 /// [`snapshots`] with the values learnt from the weighings up to `learnt_at`.
-fn snapshots_learnt_at(db: Db<'_>, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Vec<(i64, CellInput)>> {
+fn snapshots_learnt_at(db: Db<'_>, as_of: Time, only: Option<&[&str]>, learnt_at: Time) -> Result<Vec<(i64, CellInput)>> {
     db.plant_info()?.ok_or(PlantError::NoLayout)?;
     let mut cells = db.cells()?;
-    if let Some(id) = only_cell {
-        cells.retain(|c| c.id == id);
+    if let Some(ids) = only {
+        cells.retain(|c| ids.contains(&c.id.as_str()));
         if cells.is_empty() {
-            return Err(PlantError::rejected(Field::Cell, format!("unknown cell {id}: it is not in the layout")));
+            return Err(PlantError::rejected(Field::Cell, format!("unknown cell {}: it is not in the layout", ids.join(", "))));
         }
     }
     let params = db.params_at_all(as_of)?;

@@ -15,6 +15,7 @@ mod learn;
 mod patrol;
 mod plan;
 mod record;
+mod refresh;
 mod report;
 
 use chrono::{DateTime, Utc};
@@ -26,6 +27,7 @@ pub use drafts::Draft;
 pub use import::{CurrentRows, ImportSummary, parse_current_csv};
 pub use plan::{MAX_PLAN_DAYS, PlanOptions};
 pub use record::Recorded;
+pub use refresh::Touched;
 pub use report::{ReportPeriod, WrittenReport};
 
 use crate::domain::charge::{OpenSpan, Time, cell_charge};

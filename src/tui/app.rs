@@ -98,10 +98,24 @@ pub enum Action {
     Resize(u16, u16),
 }
 
+/// What a committed write changed, so the runner refreshes only the cells it touches.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Changed {
+    /// Entries recorded.
+    Entries(Vec<Entry>),
+    /// An entry undone.
+    Undone(Event),
+    /// A current reading typed on a circuit.
+    Reading(String),
+}
+
 /// Work for the runner: each needs the plant.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Effect {
+    /// The whole plant's forecast afresh (at the start, on `g`, and now and then on a screen left open).
     Reload,
+    /// The forecast of what a committed write touched, then the screen in view.
+    Refresh(Changed),
     LoadDetail(String),
     LoadTrends,
     LoadRecent,
@@ -164,6 +178,8 @@ pub struct App {
     pub who_shift: Option<(chrono::NaiveDate, u32)>,
     pub shifts_per_day: u32,
     pub view: View,
+    /// The screen the cell screen was opened from: Esc goes back to it.
+    pub cell_from: View,
     pub overlay: Option<Overlay>,
     /// Every cell's forecast as of `as_of`, in plant order: all screens read it.
     pub cells: Vec<CellForecast>,
@@ -190,6 +206,8 @@ pub struct App {
     pub height: u16,
     pub color: bool,
     pub quit: bool,
+    /// A slower panel (plan, patrol, back-test, balance) is being read after the frame was drawn.
+    pub updating: bool,
 }
 
 impl App {
@@ -203,6 +221,7 @@ impl App {
             who_shift: None,
             shifts_per_day: 1,
             view: View::Tankhouse,
+            cell_from: View::Tankhouse,
             overlay: Some(Overlay::Initials(String::new())),
             cells: Vec::new(),
             plant_warnings: Vec::new(),
@@ -224,6 +243,7 @@ impl App {
             height: 24,
             color,
             quit: false,
+            updating: false,
         }
     }
 
@@ -370,6 +390,7 @@ impl App {
             },
             Action::ShowView(v) => {
                 self.view = v;
+                self.cell_from = View::Tankhouse;
                 match v {
                     View::Rectifier => Some(Effect::LoadTrends),
                     View::Entries => Some(Effect::LoadRecent),
@@ -381,6 +402,12 @@ impl App {
                     View::Tankhouse => None,
                 }
             }
+            Action::Back if self.view == View::Cell && self.cell_from == View::Patrol => {
+                // back to the list the cell was picked from, read again after whatever was logged
+                self.view = View::Patrol;
+                self.cell_from = View::Tankhouse;
+                Some(Effect::LoadPatrol)
+            }
             Action::Back => {
                 self.view = View::Tankhouse;
                 self.follow_cursor();
@@ -388,6 +415,7 @@ impl App {
             }
             Action::OpenCell => {
                 self.view = View::Cell;
+                self.cell_from = View::Tankhouse;
                 self.selected().map(|c| Effect::LoadDetail(c.cell.clone()))
             }
             Action::NextDue => {
@@ -478,6 +506,7 @@ impl App {
                 let i = self.cells.iter().position(|c| c.cell == cell)?;
                 self.tankhouse.cursor = i;
                 self.view = View::Cell;
+                self.cell_from = View::Patrol;
                 Some(Effect::LoadDetail(cell))
             }
             Action::CellWeighings => {
@@ -612,6 +641,34 @@ impl App {
         {
             self.tankhouse.cursor = i;
         }
+        self.forecast_taken();
+    }
+
+    /// The forecast of the cells a write touched (`f`, from [`crate::plant::Plant::forecast_touched`])
+    /// put in place of theirs, and the touched circuits' warnings in place of
+    /// theirs, in circuit order: what a whole new forecast would hold.
+    pub fn refreshed(&mut self, f: Forecast, touched: &crate::plant::Touched) {
+        let at: std::collections::HashMap<String, usize> = self.cells.iter().enumerate().map(|(i, c)| (c.cell.clone(), i)).collect();
+        for c in f.cells {
+            if let Some(&i) = at.get(&c.cell) {
+                self.cells[i] = c;
+            }
+        }
+        let of = |w: &Warning, name: &str| w.circuit.as_deref() == Some(name);
+        let mut warnings = Vec::with_capacity(self.plant_warnings.len());
+        for name in &self.circuits {
+            let from = if touched.circuits.contains(name) { &f.warnings } else { &self.plant_warnings };
+            warnings.extend(from.iter().filter(|w| of(w, name)).cloned());
+        }
+        // a warning on no known circuit (none today) stays where it was
+        warnings.extend(self.plant_warnings.iter().filter(|w| !self.circuits.iter().any(|n| of(w, n))).cloned());
+        self.plant_warnings = warnings;
+        self.as_of = f.as_of;
+        self.forecast_taken();
+    }
+
+    /// After a forecast came in: the cursor kept on screen, the initials asked again in a new shift.
+    fn forecast_taken(&mut self) {
         self.tankhouse.cursor = self.tankhouse.cursor.min(self.cells.len().saturating_sub(1));
         self.follow_cursor();
         if self.who.is_some() && self.who_shift.is_some_and(|s| s != self.shift()) && self.overlay.is_none() {
@@ -693,7 +750,7 @@ impl App {
                     [a, .., b] => format!(" for {a}–{b}"),
                 };
                 self.say(format!("recorded {what}{place} (entry {})", ids.join(", ")));
-                Some(Effect::Reload)
+                Some(Effect::Refresh(Changed::Entries(entries.into_iter().map(|(e, _)| e).collect())))
             }
             Err(e) => {
                 self.unsaved = Some(entries);
@@ -826,12 +883,39 @@ impl App {
                     e.kind.name(),
                     e.cell.clone().or(e.circuit.clone()).unwrap_or_default()
                 ));
-                Some(Effect::Reload)
+                Some(Effect::Refresh(Changed::Undone(e)))
             }
             Err(msg) => {
                 self.warn(msg);
                 None
             }
+        }
+    }
+
+    /// What the screen in view reads again after the forecast changed.
+    pub fn view_load(&self) -> Option<Effect> {
+        match self.view {
+            View::Cell => self.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
+            View::Rectifier => Some(Effect::LoadTrends),
+            View::Entries => Some(Effect::LoadRecent),
+            View::Plan => Some(Effect::LoadPlan),
+            View::Balance => Some(Effect::LoadBalance),
+            View::Patrol => Some(Effect::LoadPatrol),
+            View::Accuracy => Some(Effect::LoadAccuracy),
+            View::Tankhouse => None,
+        }
+    }
+
+    /// Whether a slower panel's load, put off until the frame was drawn, is still
+    /// wanted: not once its screen was left (it is read again when it opens).
+    pub fn wants(&self, e: &Effect) -> bool {
+        match e {
+            Effect::LoadPlan => self.view == View::Plan,
+            Effect::LoadPatrol => self.view == View::Patrol,
+            Effect::LoadAccuracy => self.view == View::Accuracy,
+            Effect::LoadBalance => self.view == View::Balance,
+            Effect::LoadCellBacktest(cell) => self.view == View::Cell && self.selected().is_some_and(|c| &c.cell == cell),
+            _ => true,
         }
     }
 

@@ -146,6 +146,8 @@ fn draw_status(f: &mut Frame, app: &App, area: Rect) {
     // the one place the zone is named: every time on screen is on this clock
     let zone = app.days.zone;
     let right = format!(" {} │ by {who} │ as of {} {zone} ", shorten(&file, 20), zone.local(app.as_of).format("%m-%d %H:%M"));
+    // a slower panel is still being read: what is on screen is about to change
+    let right = if app.updating { format!(" updating… │{right}") } else { right };
     let room = (area.width as usize).saturating_sub(right.chars().count());
     let mut left = Vec::new();
     let mut used = 0;

@@ -102,7 +102,7 @@ pub const TANKHOUSE: &[Binding] = &[
 pub const CELL: &[Binding] = &[
     b(&[Left, Char('h')], Action::Move(-1, 0), "previous cell", None),
     b(&[Right, Char('l')], Action::Move(1, 0), "next cell", None),
-    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse", Some("back")),
+    b(&[Esc, Char('b')], Action::Back, "back to the tankhouse, or to the patrol list it was opened from", Some("back")),
     b(&[Char('L')], Action::Legend, "legend of the cell symbols", None),
     b(&[Tab], Action::CellWeighings, "predictions against weighings in full, or the charts", Some("weighings")),
 ];

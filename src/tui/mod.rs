@@ -27,7 +27,7 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::{Arc, mpsc};
 use std::time::{Duration as StdDuration, Instant};
 
-use app::{Action, App, CheckVerdict, Effect};
+use app::{Action, App, Changed, CheckVerdict, Effect};
 use keys::Key;
 
 pub use draw::draw;
@@ -41,6 +41,38 @@ pub struct Session {
     pub app: App,
     clock: fn() -> Time,
     backups: Backups,
+    reports: Reports,
+    /// Put the slower panels' loads off until the frame is drawn (the terminal
+    /// does; tests drive every load at once unless they ask for this).
+    pub defer: bool,
+    /// Slower panels' loads waiting for the frame to be drawn, oldest first.
+    pending: Vec<Effect>,
+    /// When the whole plant was last forecast, and whether entries refreshed
+    /// some of its cells since (then the rest is brought up to the clock soon).
+    full_at: Instant,
+    refreshed_since: bool,
+}
+
+/// How long after a whole-plant forecast a screen left open forecasts it all again.
+const FULL_RELOAD: StdDuration = StdDuration::from_secs(300);
+/// How long after a whole-plant forecast, once entries refreshed part of it, the
+/// rest is brought up to the clock (the part an entry touched is forecast at once).
+const FULL_AFTER_REFRESH: StdDuration = StdDuration::from_secs(60);
+
+/// The slower panels: read after the frame is drawn, never before it.
+fn is_slow(e: &Effect) -> bool {
+    matches!(e, Effect::LoadPlan | Effect::LoadPatrol | Effect::LoadAccuracy | Effect::LoadBalance | Effect::LoadCellBacktest(_))
+}
+
+/// What a shift report written in the background reports: its file, or why not.
+type ReportResult = std::result::Result<std::path::PathBuf, String>;
+
+/// The shift report, written on a thread of its own (with its own connection
+/// to the database) so the keys never wait for it; one at a time.
+struct Reports {
+    tx: mpsc::Sender<ReportResult>,
+    rx: mpsc::Receiver<ReportResult>,
+    running: bool,
 }
 
 /// What a background backup reports: its file (`None`: none was due), or why it failed.
@@ -70,7 +102,19 @@ impl Session {
         let mut app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
         app.shifts_per_day = info.plan.shifts_per_day.max(1);
         app.drafts = plant.drafts()?;
-        let mut s = Session { plant, app, clock, backups: Backups::new() };
+        let (tx, rx) = mpsc::channel();
+        let reports = Reports { tx, rx, running: false };
+        let mut s = Session {
+            plant,
+            app,
+            clock,
+            backups: Backups::new(),
+            reports,
+            defer: false,
+            pending: Vec::new(),
+            full_at: Instant::now(),
+            refreshed_since: false,
+        };
         s.perform(Effect::Reload);
         Ok(s)
     }
@@ -96,12 +140,92 @@ impl Session {
         }
     }
 
-    /// Performs an effect and whatever follows from it.
+    /// Performs an effect and whatever follows from it; with [`Session::defer`],
+    /// a slower panel's load waits for [`Session::run_pending`].
     pub fn perform(&mut self, first: Effect) {
         let mut next = Some(first);
         while let Some(effect) = next.take() {
+            if self.defer && is_slow(&effect) {
+                if !self.pending.contains(&effect) {
+                    self.pending.push(effect);
+                }
+                self.app.updating = true;
+                continue;
+            }
             next = self.perform_one(effect);
         }
+    }
+
+    /// Whether a slower panel's load is waiting.
+    pub fn has_pending(&self) -> bool {
+        !self.pending.is_empty()
+    }
+
+    /// Performs the oldest load put off (if its screen is still in view) and what follows from it.
+    pub fn run_pending(&mut self) {
+        if !self.pending.is_empty() {
+            let e = self.pending.remove(0);
+            if self.app.wants(&e) {
+                let next = self.perform_one(e);
+                if let Some(n) = next {
+                    self.perform(n);
+                }
+            }
+        }
+        self.app.updating = !self.pending.is_empty();
+    }
+
+    /// Whether the whole plant is due to be forecast again: a while after the
+    /// last time, sooner once entries refreshed part of it (only on a screen
+    /// with no form open, see the event loop).
+    fn full_reload_due(&self) -> bool {
+        let since = self.full_at.elapsed();
+        since > FULL_RELOAD || (self.refreshed_since && since > FULL_AFTER_REFRESH)
+    }
+
+    /// Starts writing the shift report in the background, with its own
+    /// connection to the database; the result comes back through [`Session::poll_background`].
+    fn start_report(&mut self) {
+        if self.reports.running {
+            self.app.say("the shift report is still being written…");
+            return;
+        }
+        let (path, now, tx) = (self.plant.path().to_path_buf(), (self.clock)(), self.reports.tx.clone());
+        let spawned = std::thread::Builder::new().name("shift report".into()).spawn(move || {
+            let r = Plant::open(&path).and_then(|p| p.save_shift_report(now)).map(|w| w.path).map_err(|e| e.to_string());
+            let _ = tx.send(r);
+        });
+        match spawned {
+            Ok(_) => self.reports.running = true,
+            Err(e) => self.app.report_saved(Err(format!("cannot start writing it: {e}"))),
+        }
+    }
+
+    /// Takes in a finished background job (a backup, a shift report), if one has finished: whether the screen changed.
+    pub fn poll_background(&mut self) -> bool {
+        let backup = self.poll_backups();
+        match self.reports.rx.try_recv() {
+            Ok(r) => {
+                self.reports.running = false;
+                self.app.report_saved(r);
+                true
+            }
+            Err(_) => backup,
+        }
+    }
+
+    /// Waits up to `limit` for the shift report being written (if any); whether none is left running.
+    pub fn finish_report(&mut self, limit: StdDuration) -> bool {
+        if self.reports.running {
+            match self.reports.rx.recv_timeout(limit) {
+                Ok(r) => {
+                    self.reports.running = false;
+                    self.app.report_saved(r);
+                }
+                Err(_) => return false,
+            }
+        }
+        true
     }
 
     /// Starts the day's backup in the background after a write committed (an
@@ -175,20 +299,29 @@ impl Session {
                     Ok(f) => {
                         let circuits = plant.circuit_names().unwrap_or_default();
                         app.loaded_forecast(f, circuits);
+                        self.full_at = Instant::now();
+                        self.refreshed_since = false;
                     }
                     Err(e) => app.failed(format!("could not read the forecast: {e}")),
                 }
-                match app.view {
-                    app::View::Cell => return app.selected().map(|c| Effect::LoadDetail(c.cell.clone())),
-                    app::View::Rectifier => return Some(Effect::LoadTrends),
-                    app::View::Entries => return Some(Effect::LoadRecent),
-                    app::View::Plan => return Some(Effect::LoadPlan),
-                    app::View::Balance => return Some(Effect::LoadBalance),
-                    app::View::Patrol => return Some(Effect::LoadPatrol),
-                    app::View::Accuracy => return Some(Effect::LoadAccuracy),
-                    app::View::Tankhouse => {}
+                app.view_load()
+            }
+            Effect::Refresh(changed) => {
+                let touched = match &changed {
+                    Changed::Entries(entries) => plant.touched_by_entries(entries).map(Some),
+                    Changed::Undone(e) => plant.touched_by_event(e),
+                    Changed::Reading(circuit) => plant.touched_by_circuit(circuit).map(Some),
+                };
+                // an entry on neither a cell nor a circuit, or one the plant cannot place: all of it
+                let Ok(Some(touched)) = touched else { return Some(Effect::Reload) };
+                match plant.forecast_touched((self.clock)(), &touched) {
+                    Ok(f) => {
+                        app.refreshed(f, &touched);
+                        self.refreshed_since = true;
+                    }
+                    Err(e) => app.failed(format!("could not read the forecast: {e}")),
                 }
-                None
+                app.view_load()
             }
             Effect::LoadDetail(cell) => {
                 match plant.cell_detail(&cell, app.as_of) {
@@ -265,7 +398,7 @@ impl Session {
                     Ok(s) if s.added == 1 => {
                         *wrote = true;
                         app.status = Some(app::Status { text: format!("recorded {amps} A on {circuit}"), bad: false });
-                        Some(Effect::Reload)
+                        Some(Effect::Refresh(Changed::Reading(circuit)))
                     }
                     Ok(_) => {
                         app.failed("that reading is already stored".into());
@@ -304,7 +437,7 @@ impl Session {
                 None
             }
             Effect::SaveReport => {
-                app.report_saved(plant.save_shift_report((self.clock)()).map(|w| w.path).map_err(|e| e.to_string()));
+                self.start_report();
                 None
             }
             Effect::KeepMove(cell, date) => {
@@ -368,6 +501,7 @@ fn signal_name(sig: usize) -> &'static str {
 pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
     let color = std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
     let mut session = Session::open(plant, clock, color)?;
+    session.defer = true;
     // the first signal asks the loop to end; a second one ends the process at once
     let signalled = Arc::new(AtomicBool::new(false));
     let which = Arc::new(AtomicUsize::new(0));
@@ -448,7 +582,8 @@ fn quiet_restore_on_panic() {
 
 /// Draws and reads keys until the screens end. It waits on the keyboard
 /// reader's channel with a timeout, so signals and a vanished terminal are
-/// noticed within a tenth of a second.
+/// noticed within a tenth of a second. A slower panel's load runs only once the
+/// frame is drawn and no key is waiting, one at a time, each followed by a frame.
 fn event_loop(
     terminal: &mut ratatui::DefaultTerminal,
     session: &mut Session,
@@ -459,7 +594,6 @@ fn event_loop(
     let mut size = (0, 0);
     let mut size_asked = Instant::now();
     let mut dirty = true;
-    let mut last_reload = Instant::now();
     loop {
         let sig = which.load(Ordering::Relaxed);
         if sig != 0 {
@@ -481,7 +615,7 @@ fn event_loop(
                 Err(e) => return Ok(Ended::Gone(format!("the terminal's size cannot be read: {e}"))),
             }
         }
-        if session.poll_backups() {
+        if session.poll_background() {
             dirty = true;
         }
         if dirty {
@@ -490,24 +624,39 @@ fn event_loop(
             }
             dirty = false;
         }
-        match keys.recv_timeout(StdDuration::from_millis(100)) {
-            Ok(input::Input::Key(Key::CtrlC)) => {
+        let input = if session.has_pending() {
+            match keys.try_recv() {
+                Ok(i) => Some(i),
+                Err(mpsc::TryRecvError::Empty) => {
+                    session.run_pending();
+                    dirty = true;
+                    continue;
+                }
+                Err(mpsc::TryRecvError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
+            }
+        } else {
+            match keys.recv_timeout(StdDuration::from_millis(100)) {
+                Ok(i) => Some(i),
+                Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
+                Err(mpsc::RecvTimeoutError::Timeout) => None,
+            }
+        };
+        match input {
+            Some(input::Input::Key(Key::CtrlC)) => {
                 if session.app.interrupt() {
                     return Ok(Ended::Signal("Ctrl-C"));
                 }
                 dirty = true;
             }
-            Ok(input::Input::Key(k)) => {
+            Some(input::Input::Key(k)) => {
                 session.press(k);
                 dirty = true;
             }
-            Ok(input::Input::Gone(why)) => return Ok(Ended::Gone(why)),
-            Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
-            Err(mpsc::RecvTimeoutError::Timeout) => {
-                if last_reload.elapsed() > StdDuration::from_secs(300) && session.app.overlay.is_none() {
+            Some(input::Input::Gone(why)) => return Ok(Ended::Gone(why)),
+            None => {
+                if session.full_reload_due() && session.app.overlay.is_none() {
                     // keep "as of" and the due times current on a screen left open
                     session.perform(Effect::Reload);
-                    last_reload = Instant::now();
                     dirty = true;
                 }
             }
