@@ -890,3 +890,158 @@ fn the_accuracy_view_sets_the_learnt_rule_against_the_fixed_one_and_follows_new_
     f.s.press(Key::F(5));
     assert_eq!(f.s.app.accuracy.backtest.as_ref().unwrap().summary.crops, s.crops + 1);
 }
+
+// ---- the incremental refresh after an entry ----
+
+/// A small deterministic generator (xorshift64*, Vigna 2016): the same "random" entries every run.
+struct Rng(u64);
+
+impl Rng {
+    fn next(&mut self) -> u64 {
+        self.0 ^= self.0 >> 12;
+        self.0 ^= self.0 << 25;
+        self.0 ^= self.0 >> 27;
+        self.0.wrapping_mul(0x2545_F491_4F6C_DD1D)
+    }
+    fn below(&mut self, n: usize) -> usize {
+        (self.next() % n as u64) as usize
+    }
+    fn unit(&mut self) -> f64 {
+        (self.next() >> 11) as f64 / (1u64 << 53) as f64
+    }
+}
+
+/// One random write through the screens' effects: an entry of any kind (forced
+/// past questions; a refused one changes nothing), a typed reading, or an undo.
+fn random_write(s: &mut Session, rng: &mut Rng) -> String {
+    use tankbook::domain::entry::Entry;
+    use tankbook::tui::app::Effect;
+    let cells = s.app.cells.clone();
+    let c = &cells[rng.below(cells.len())];
+    let circuit = s.app.circuits[rng.below(s.app.circuits.len())].clone();
+    let ago = |rng: &mut Rng, max_min: usize| fixed() - chrono::Duration::minutes(1 + rng.below(max_min) as i64);
+    let cell = c.cell.clone();
+    let entry = match rng.below(11) {
+        0 => Entry::Voltage { cell, at: ago(rng, 600), volts: 0.20 + 0.15 * rng.unit() },
+        1 => Entry::Shorts { cell, at: ago(rng, 600), count: 1 + rng.below(3) as u32 },
+        2 => {
+            let kg = c.cathode.as_ref().map_or(4000.0, |k| k.mass_kg) * (0.9 + 0.15 * rng.unit());
+            Entry::Harvest { cell, at: ago(rng, 120), total_kg: kg.round() }
+        }
+        3 => {
+            let kg = c.anode.as_ref().map_or(3000.0, |a| a.remaining_kg) * (0.9 + 0.2 * rng.unit());
+            Entry::Scrap { cell, at: ago(rng, 120), total_kg: kg.round() }
+        }
+        4 => Entry::Cutout { cell, from: ago(rng, 300), to: if rng.below(2) == 0 { None } else { Some(fixed()) } },
+        5 => {
+            let from = ago(rng, 900);
+            Entry::Outage { circuit, from, to: from + chrono::Duration::minutes(5 + rng.below(60) as i64) }
+        }
+        6 => Entry::Setpoint { circuit, from: ago(rng, 600), amps: (28_000 + rng.below(6000)) as f64 },
+        7 => {
+            let at = ago(rng, 600);
+            let amps = (28_000 + rng.below(6000)) as f64;
+            s.perform(Effect::ImportReading { circuit: circuit.clone(), at, amps, by: "AK".into() });
+            return format!("reading {amps} A on {circuit} at {at}");
+        }
+        8 => Entry::Anodes {
+            cell,
+            at: ago(rng, 120),
+            count: c.anode.as_ref().map_or(40, |a| a.count),
+            mean_kg: (330 + rng.below(60)) as f64,
+        },
+        _ => {
+            let newest = s
+                .plant
+                .recent_events(None, 50)
+                .unwrap()
+                .into_iter()
+                .find(|e| e.kind != tankbook::domain::history::EventKind::Void && !e.voided);
+            let Some(e) = newest else { return "nothing to undo".into() };
+            s.perform(Effect::Undo(e.id));
+            return format!("undo of entry {} ({})", e.id, e.kind.name());
+        }
+    };
+    let what = format!("{entry:?}");
+    let opts = tankbook::plant::Opts { by: "AK".into(), force: true, now: fixed() };
+    s.perform(Effect::Commit(vec![(entry, opts)]));
+    what
+}
+
+#[test]
+fn an_incremental_refresh_equals_a_full_forecast() {
+    let mut f = session();
+    start(&mut f);
+    let mut rng = Rng(0x5eed_1234_abcd_0011);
+    let mut kinds = std::collections::BTreeMap::new();
+    for step in 0..40 {
+        f.s.app.status = None;
+        let what = random_write(&mut f.s, &mut rng);
+        let said = f.s.app.status.clone().map(|s| s.text).unwrap_or_default();
+        eprintln!("step {step}: {what} → {said}");
+        if !f.s.app.status.as_ref().is_some_and(|s| s.bad) {
+            *kinds.entry(what.split([' ', '{']).next().unwrap_or("").to_string()).or_insert(0) += 1;
+        }
+        let full = f.s.plant.forecast(fixed(), None).unwrap();
+        assert_eq!(f.s.app.as_of, full.as_of, "step {step}: {what}");
+        assert_eq!(f.s.app.cells.len(), full.cells.len(), "step {step}: {what}");
+        for (mine, fresh) in f.s.app.cells.iter().zip(&full.cells) {
+            assert_eq!(mine, fresh, "step {step}, after {what}: {} differs from a full forecast", fresh.cell);
+        }
+        assert_eq!(f.s.app.plant_warnings, full.warnings, "step {step}, after {what}: the circuits' warnings");
+    }
+    eprintln!("{kinds:?}");
+    assert!(kinds.len() >= 8 && kinds.get("undo").is_some_and(|n| *n >= 3), "most kinds were recorded, and undone: {kinds:?}");
+}
+
+#[test]
+fn in_the_terminal_a_slower_panel_is_read_after_the_frame() {
+    let mut f = session();
+    f.s.defer = true;
+    start(&mut f);
+    f.s.press(Key::Char('s'));
+    assert!(f.s.app.patrol.patrol.is_none() && f.s.has_pending(), "the patrol waits for the frame");
+    assert!(screen(&f.s, 80, 24).contains("updating…"), "and the status line says the screen is about to change");
+    f.s.run_pending();
+    assert_eq!(f.s.app.patrol.patrol, Some(f.s.plant.patrol(fixed()).unwrap()));
+    assert!(!f.s.has_pending() && !f.s.app.updating);
+    // a load put off for a screen left before it ran is dropped (it is read again when the screen opens)
+    f.s.press(Key::Char('p'));
+    f.s.press(Key::Char('t'));
+    f.s.run_pending();
+    assert!(f.s.app.plan.plan.is_none() && !f.s.has_pending());
+}
+
+#[test]
+fn esc_from_a_cell_opened_from_the_patrol_goes_back_to_the_patrol() {
+    let mut f = session();
+    start(&mut f);
+    f.s.press(Key::Char('s'));
+    f.s.press(Key::Enter);
+    assert_eq!(f.s.app.view, View::Cell);
+    f.s.press(Key::Esc);
+    assert_eq!(f.s.app.view, View::Patrol);
+    f.s.press(Key::Esc);
+    assert_eq!(f.s.app.view, View::Tankhouse);
+    // opened from the tankhouse, it goes back there
+    f.s.press(Key::Enter);
+    f.s.press(Key::Esc);
+    assert_eq!(f.s.app.view, View::Tankhouse);
+}
+
+#[test]
+fn what_an_entry_touches_is_its_section_or_its_circuit() {
+    let f = session();
+    let p = &f.s.plant;
+    let t = p.touched_by_entries(&[tankbook::domain::entry::Entry::Shorts { cell: "A03".into(), at: fixed(), count: 1 }]).unwrap();
+    let section_a: Vec<String> = f.s.app.cells.iter().filter(|c| c.section == "A").map(|c| c.cell.clone()).collect();
+    assert_eq!(t.cells.iter().cloned().collect::<Vec<_>>(), section_a, "a cell entry: its section (learnt and ranked together)");
+    assert_eq!(t.circuits.iter().cloned().collect::<Vec<_>>(), vec!["R1".to_string()]);
+    let t = p.touched_by_circuit("R2").unwrap();
+    let r2: Vec<String> = f.s.app.cells.iter().filter(|c| c.circuit == "R2").map(|c| c.cell.clone()).collect();
+    let mut touched: Vec<String> = t.cells.into_iter().collect();
+    touched.sort();
+    let mut want = r2;
+    want.sort();
+    assert_eq!(touched, want, "a circuit entry: every cell on the circuit");
+}
