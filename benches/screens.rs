@@ -101,8 +101,9 @@ impl Term {
     }
 }
 
-/// One run on a fresh copy of `db`: (start → first frame with tiles, confirm → frame with the entry recorded).
-fn run_once(db: &Path, dir: &Path) -> (Duration, Duration) {
+/// One run on a fresh copy of `db`: start → first frame with tiles, start →
+/// the whole plant's counts in the header, confirm → frame with the entry recorded.
+fn run_once(db: &Path, dir: &Path) -> [Duration; 3] {
     let copy = dir.join("plant.db");
     for ext in ["", "-wal", "-shm"] {
         let _ = std::fs::remove_file(format!("{}{ext}", copy.display()));
@@ -116,6 +117,8 @@ fn run_once(db: &Path, dir: &Path) -> (Duration, Duration) {
     let mut t = Term::open(&copy);
     // the tiles under the initials box
     let first = t.wait_for("━━ circuit").duration_since(t0);
+    // the header's "due by …" counts need every cell's forecast
+    let whole = t.wait_for("due by").duration_since(t0);
     t.wait_for("Who is logging");
     t.send("bn\r");
     t.wait_for("logging as BN");
@@ -131,7 +134,7 @@ fn run_once(db: &Path, dir: &Path) -> (Duration, Duration) {
     t.send("y");
     let shown = t.wait_for("recorded voltage").duration_since(t1);
     t.quit();
-    (first, shown)
+    [first, whole, shown]
 }
 
 fn median(mut v: Vec<Duration>) -> Duration {
@@ -176,23 +179,21 @@ fn main() {
     let mut rows = Vec::new();
     for (name, db) in [("102-cell demo", &base), ("big plant", &big)] {
         let work = tempfile::tempdir().unwrap();
-        let (mut first, mut shown) = (Vec::new(), Vec::new());
+        let mut got: [Vec<Duration>; 3] = Default::default();
         for _ in 0..runs {
-            let (f, s) = run_once(db, work.path());
-            first.push(f);
-            shown.push(s);
+            for (all, d) in got.iter_mut().zip(run_once(db, work.path())) {
+                all.push(d);
+            }
         }
-        eprintln!(
-            "{name}: first frame {:?}, confirm → frame {:?}",
-            first.iter().map(|d| ms(*d)).collect::<Vec<_>>(),
-            shown.iter().map(|d| ms(*d)).collect::<Vec<_>>()
-        );
-        rows.push((median(first), median(shown)));
+        let shown = |v: &[Duration]| v.iter().map(|d| ms(*d)).collect::<Vec<_>>().join(" ");
+        eprintln!("{name}: first frame {}; whole plant {}; confirm → frame {}", shown(&got[0]), shown(&got[1]), shown(&got[2]));
+        rows.push(got.map(median));
     }
-    let (b, g) = (rows[0], rows[1]);
+    let (b, g) = (&rows[0], &rows[1]);
     println!("screens at {COLS}×{ROWS}, medians of {runs} (big plant: {})", std::env::var("BIG_DB").unwrap_or_else(|_| big_args.join(" ")));
     println!("| what | 102 cells | big plant | ratio | goal |");
     println!("|---|---|---|---|---|");
-    println!("| first frame with the tiles | {} | {} | {} | ≤ 250 ms |", ms(b.0), ms(g.0), ratio(b.0, g.0));
-    println!("| confirm of a voltage entry → frame | {} | {} | {} | ≤ 50 ms |", ms(b.1), ms(g.1), ratio(b.1, g.1));
+    println!("| first frame with the tiles | {} | {} | {} | ≤ 250 ms |", ms(b[0]), ms(g[0]), ratio(b[0], g[0]));
+    println!("| whole plant on screen (header counts) | {} | {} | {} | |", ms(b[1]), ms(g[1]), ratio(b[1], g[1]));
+    println!("| confirm of a voltage entry → frame | {} | {} | {} | ≤ 50 ms |", ms(b[2]), ms(g[2]), ratio(b[2], g[2]));
 }

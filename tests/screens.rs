@@ -1045,3 +1045,27 @@ fn what_an_entry_touches_is_its_section_or_its_circuit() {
     want.sort();
     assert_eq!(touched, want, "a circuit entry: every cell on the circuit");
 }
+
+#[test]
+fn the_first_frame_holds_a_screenful_of_whole_sections_and_the_whole_plant_follows() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plant.db");
+    Plant::open(demo_db()).unwrap().backup(&path).unwrap();
+    let mut s = Session::open_first(Plant::open(&path).unwrap(), fixed, false, 30).unwrap();
+    s.act(Action::Resize(80, 24));
+    let full = s.plant.forecast(fixed(), None).unwrap();
+    // the demo's sections hold 24 cells: two of them cover 30 tiles
+    assert!(s.app.partial && s.has_pending());
+    assert_eq!(s.app.cells, full.cells[..48].to_vec(), "whole sections, as the whole plant's forecast has them");
+    let first = screen(&s, 80, 24);
+    assert!(first.contains("A01") && first.contains("reading the whole plant…"), "{first}");
+    assert!(!first.contains("due by"), "no plant-wide count from part of the plant");
+    // the first key waits for the whole plant
+    s.type_str("ak");
+    assert!(!s.app.partial && !s.has_pending());
+    assert_eq!(s.app.cells, full.cells);
+    assert_eq!(s.app.plant_warnings, full.warnings);
+    s.press(Key::Enter);
+    assert_eq!(s.app.who.as_deref(), Some("AK"));
+    assert!(screen(&s, 80, 24).contains("due by"));
+}

@@ -79,6 +79,25 @@ impl Plant {
         self.forecast_of(as_of, Some(&ids), as_of)
     }
 
+    /// The first whole sections in plant order holding at least `n` cells (the
+    /// whole plant if it is smaller): what the screens' first frame can show.
+    pub fn first_cells(&self, n: usize) -> Result<Touched> {
+        let mut t = Touched::default();
+        let mut last: Option<(String, String)> = None;
+        for c in self.store.db().cells()? {
+            let group = (c.circuit.clone(), c.section.clone());
+            if last.as_ref() != Some(&group) {
+                if t.cells.len() >= n {
+                    break;
+                }
+                last = Some(group);
+            }
+            t.circuits.insert(c.circuit);
+            t.cells.insert(c.id);
+        }
+        Ok(t)
+    }
+
     fn touch_cell(&self, t: &mut Touched, cell: &str) -> Result<()> {
         let db = self.store.db();
         let row = db.cell(cell)?.ok_or_else(|| super::PlantError::rejected(Field::Cell, format!("unknown cell {cell}")))?;

@@ -208,6 +208,9 @@ pub struct App {
     pub quit: bool,
     /// A slower panel (plan, patrol, back-test, balance) is being read after the frame was drawn.
     pub updating: bool,
+    /// `cells` holds only the first screen's sections, forecast for the first
+    /// frame; the whole plant's forecast follows (no plant-wide counts till then).
+    pub partial: bool,
 }
 
 impl App {
@@ -244,6 +247,7 @@ impl App {
             color,
             quit: false,
             updating: false,
+            partial: false,
         }
     }
 
@@ -267,6 +271,9 @@ impl App {
     /// day): the work due in the next production day's first shift, so the night
     /// shift sees what the morning brings before the day turns.
     pub fn coming_shift(&self) -> Option<ComingShift> {
+        if self.partial {
+            return None;
+        }
         let now = self.shift_now();
         let soon = if now.of == 1 { self.day_end() - Duration::hours(8) <= self.as_of } else { now.is_last() };
         if !soon {
@@ -636,6 +643,7 @@ impl App {
         self.cells = f.cells;
         self.plant_warnings = f.warnings;
         self.circuits = circuits;
+        self.partial = false;
         if let Some(id) = keep
             && let Some(i) = self.cells.iter().position(|c| c.cell == id)
         {

@@ -82,9 +82,14 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     let day = shift.day.format("%m-%d");
     let day_long = format!("│ day {day} ({}→{}){name} ", hm(app.days.start_of(shift.day)), hm(end));
     let day_short = format!("│ day {day}{name} ");
-    let due =
+    let mut due =
         format!("due by {}: {}, {}", hm(end), plural(counts[0], "harvest", "harvests"), plural(counts[1], "anode change", "anode changes"));
-    let due_short = format!("by {}: {} H, {} A", hm(end), counts[0], counts[1]);
+    let mut due_short = format!("by {}: {} H, {} A", hm(end), counts[0], counts[1]);
+    if app.partial {
+        // the first frame holds the first screen's cells only: no plant-wide count yet
+        due = "reading the whole plant…".into();
+        due_short = "reading…".into();
+    }
     let rest = format!(" · {} low η · {} out", counts[2], counts[3]);
     let plant = format!("│ {} ", shorten(&app.plant_name, 24));
     let view = format!("│ {} ", app.view.title());
@@ -104,7 +109,7 @@ fn draw_title(f: &mut Frame, app: &App, area: Rect) {
     let parts = forms.iter().find(|p| len(p) <= w).unwrap_or(&forms[7]);
     let mut spans = vec![Span::styled(" tankbook ", bold().patch(fg(app, Color::Yellow)))];
     for p in parts.iter() {
-        if p.starts_with("due by") || p.starts_with("by ") {
+        if p.starts_with("due by") || p.starts_with("by ") || p.starts_with("reading") {
             spans.push(Span::styled(p.to_string(), fg(app, Color::Yellow)));
         } else {
             spans.push(Span::raw(p.to_string()));

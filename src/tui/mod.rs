@@ -98,13 +98,39 @@ impl Backups {
 impl Session {
     /// Opens the screens on a plant with a layout, as of `clock()`.
     pub fn open(plant: Plant, clock: fn() -> Time, color: bool) -> Result<Session> {
+        let mut s = Session::new(plant, clock, color)?;
+        s.perform(Effect::Reload);
+        Ok(s)
+    }
+
+    /// Opens the screens as the terminal does: only the first whole sections
+    /// holding `first` cells (a screenful) are forecast before the first frame,
+    /// the whole plant right after it ([`Session::run_pending`]; a key waits for
+    /// it); slower panels are put off likewise ([`Session::defer`]).
+    pub fn open_first(plant: Plant, clock: fn() -> Time, color: bool, first: usize) -> Result<Session> {
+        let mut s = Session::new(plant, clock, color)?;
+        s.defer = true;
+        let part = s.plant.first_cells(first).and_then(|t| s.plant.forecast_touched(clock(), &t));
+        match (part, s.plant.circuit_names()) {
+            (Ok(f), Ok(circuits)) => {
+                s.app.loaded_forecast(f, circuits);
+                s.app.partial = true;
+                s.app.updating = true;
+                s.pending.push(Effect::Reload);
+            }
+            _ => s.perform(Effect::Reload),
+        }
+        Ok(s)
+    }
+
+    fn new(plant: Plant, clock: fn() -> Time, color: bool) -> Result<Session> {
         let info = plant.info()?;
         let mut app = App::new(info.name.clone(), plant.path().display().to_string(), info.days, clock(), color);
         app.shifts_per_day = info.plan.shifts_per_day.max(1);
         app.drafts = plant.drafts()?;
         let (tx, rx) = mpsc::channel();
         let reports = Reports { tx, rx, running: false };
-        let mut s = Session {
+        Ok(Session {
             plant,
             app,
             clock,
@@ -114,13 +140,15 @@ impl Session {
             pending: Vec::new(),
             full_at: Instant::now(),
             refreshed_since: false,
-        };
-        s.perform(Effect::Reload);
-        Ok(s)
+        })
     }
 
-    /// One key, as the terminal would deliver it.
+    /// One key, as the terminal would deliver it. A key after the first frame
+    /// first waits for the whole plant's forecast: forms and moves need every cell.
     pub fn press(&mut self, key: Key) {
+        while self.app.partial && self.has_pending() {
+            self.run_pending();
+        }
         let action = if self.app.overlay.is_some() { Some(Action::Input(key)) } else { keys::resolve(self.app.view, key) };
         if let Some(a) = action {
             self.act(a);
@@ -294,6 +322,7 @@ impl Session {
         let plant = &mut self.plant;
         match effect {
             Effect::Reload => {
+                app.partial = false;
                 let now = (self.clock)();
                 match plant.forecast(now, None) {
                     Ok(f) => {
@@ -500,8 +529,10 @@ fn signal_name(sig: usize) -> &'static str {
 /// panic included, and a form being typed is kept as a draft.
 pub fn run(plant: Plant, clock: fn() -> Time) -> Result<()> {
     let color = std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
-    let mut session = Session::open(plant, clock, color)?;
-    session.defer = true;
+    // a screenful of tiles, at most, for the first frame
+    let (cols, rows) = ratatui::crossterm::terminal::size().unwrap_or((80, 24));
+    let first = usize::from(cols.saturating_sub(1) / tankhouse::TILE_W).max(1) * usize::from(rows);
+    let mut session = Session::open_first(plant, clock, color, first)?;
     // the first signal asks the loop to end; a second one ends the process at once
     let signalled = Arc::new(AtomicBool::new(false));
     let which = Arc::new(AtomicUsize::new(0));
