@@ -72,14 +72,19 @@ impl Term {
 
     /// Waits until the screen shows `what` (polled every millisecond, 60 s at most): when it did.
     fn wait_for(&self, what: &str) -> Instant {
+        self.wait_until(what, |s| s.contains(what))
+    }
+
+    /// Waits until the screen's text passes `ok`: when it did (`what` names it if it never does).
+    fn wait_until(&self, what: &str, ok: impl Fn(&str) -> bool) -> Instant {
         let end = Instant::now() + Duration::from_secs(60);
         while Instant::now() < end {
-            if self.text().contains(what) {
+            if ok(&self.text()) {
                 return Instant::now();
             }
             std::thread::sleep(Duration::from_millis(1));
         }
-        panic!("the screen never showed {what:?}:\n{}", self.text());
+        panic!("the screen never showed {what}:\n{}", self.text());
     }
 
     fn send(&mut self, keys: &str) {
@@ -117,8 +122,10 @@ fn run_once(db: &Path, dir: &Path) -> [Duration; 3] {
     let mut t = Term::open(&copy);
     // the tiles under the initials box
     let first = t.wait_for("━━ circuit").duration_since(t0);
-    // the header's "due by …" counts need every cell's forecast
-    let whole = t.wait_for("due by").duration_since(t0);
+    // the header's counts due by the day's end ("due by 06:00: …" or "by 06:00: … H") need every cell's
+    // forecast: the first frame of a big plant says "reading the whole plant…" there instead
+    let header = |s: &str| s.lines().next().is_some_and(|top| top.contains("by ") && !top.contains("reading"));
+    let whole = t.wait_until("the header's counts", header).duration_since(t0);
     t.wait_for("Who is logging");
     t.send("bn\r");
     t.wait_for("logging as BN");
