@@ -12,6 +12,7 @@ pub mod form;
 pub mod input;
 pub mod keys;
 pub mod overlay;
+mod panels;
 mod patrol;
 mod plan;
 mod rectifier;
@@ -45,8 +46,14 @@ pub struct Session {
     /// Put the slower panels' loads off until the frame is drawn (the terminal
     /// does; tests drive every load at once unless they ask for this).
     pub defer: bool,
-    /// Slower panels' loads waiting for the frame to be drawn, oldest first.
+    /// Loads waiting for the frame to be drawn, oldest first (the whole plant's forecast after the first frame).
     pending: Vec<Effect>,
+    /// The thread that loads the slower panels in the terminal (started at the first).
+    worker: Option<panels::Worker>,
+    /// The slower panels' loads asked of it, each with whether it was asked again meanwhile.
+    in_flight: Vec<(Effect, bool)>,
+    /// Writes committed so far: a load asked before the latest write is asked afresh.
+    writes: u64,
     /// When the whole plant was last forecast, and whether entries refreshed
     /// some of its cells since (then the rest is brought up to the clock soon).
     full_at: Instant,
@@ -138,6 +145,9 @@ impl Session {
             reports,
             defer: false,
             pending: Vec::new(),
+            worker: None,
+            in_flight: Vec::new(),
+            writes: 0,
             full_at: Instant::now(),
             refreshed_since: false,
         })
@@ -169,22 +179,83 @@ impl Session {
     }
 
     /// Performs an effect and whatever follows from it; with [`Session::defer`],
-    /// a slower panel's load waits for [`Session::run_pending`].
+    /// a slower panel's load goes to the worker thread (see [`Session::settle`]).
     pub fn perform(&mut self, first: Effect) {
         let mut next = Some(first);
         while let Some(effect) = next.take() {
             if self.defer && is_slow(&effect) {
-                if !self.pending.contains(&effect) {
-                    self.pending.push(effect);
-                }
-                self.app.updating = true;
+                self.ask(effect);
                 continue;
             }
             next = self.perform_one(effect);
         }
     }
 
-    /// Whether a slower panel's load is waiting.
+    /// Asks the worker for a slower panel's load (here and now if it cannot be started).
+    fn ask(&mut self, effect: Effect) {
+        if let Some(asked) = self.in_flight.iter_mut().find(|(e, _)| *e == effect) {
+            // its inputs (the hand moves, the selected cell's data) may have changed: ask afresh when it ends
+            asked.1 = true;
+            return;
+        }
+        let Some(job) = panels::job_for(&effect, &self.app, (self.clock)()) else { return };
+        if self.worker.is_none() {
+            self.worker = panels::Worker::start(self.plant.path().to_path_buf()).ok();
+        }
+        match &self.worker {
+            Some(w) if w.ask(self.writes, effect.clone(), job.clone()) => {
+                self.in_flight.push((effect, false));
+                self.app.updating = true;
+            }
+            _ => {
+                self.worker = None;
+                if let Some(n) = panels::apply(&mut self.app, panels::run(&self.plant, job)) {
+                    self.perform(n);
+                }
+            }
+        }
+    }
+
+    /// A load the worker finished: handed to the screens if still wanted and
+    /// current, asked afresh if a write or a new ask came meanwhile.
+    fn take_done(&mut self, (writes, effect, found): panels::Done) {
+        let again = match self.in_flight.iter().position(|(e, _)| *e == effect) {
+            Some(i) => self.in_flight.remove(i).1,
+            None => false,
+        };
+        if !self.app.wants(&effect) {
+            // its screen was left: it is read again when it opens
+        } else if again || writes != self.writes {
+            self.ask(effect);
+        } else if let Some(n) = panels::apply(&mut self.app, found) {
+            self.perform(n);
+        }
+        self.app.updating = self.busy();
+    }
+
+    /// Whether a load is waiting or being made.
+    pub fn busy(&self) -> bool {
+        !self.pending.is_empty() || !self.in_flight.is_empty()
+    }
+
+    /// Waits up to `limit` for every load put off to be made and handed to the
+    /// screens (the tests' view of what the terminal does over time); whether none is left.
+    pub fn settle(&mut self, limit: StdDuration) -> bool {
+        let end = Instant::now() + limit;
+        while self.has_pending() {
+            self.run_pending();
+        }
+        while !self.in_flight.is_empty() {
+            let Some(w) = &self.worker else { return false };
+            match w.rx.recv_timeout(end.saturating_duration_since(Instant::now())) {
+                Ok(d) => self.take_done(d),
+                Err(_) => return false,
+            }
+        }
+        true
+    }
+
+    /// Whether a load waits for the frame to be drawn.
     pub fn has_pending(&self) -> bool {
         !self.pending.is_empty()
     }
@@ -200,7 +271,7 @@ impl Session {
                 }
             }
         }
-        self.app.updating = !self.pending.is_empty();
+        self.app.updating = self.busy();
     }
 
     /// Whether the whole plant is due to be forecast again: a while after the
@@ -229,9 +300,13 @@ impl Session {
         }
     }
 
-    /// Takes in a finished background job (a backup, a shift report), if one has finished: whether the screen changed.
+    /// Takes in finished background work (a slower panel, a backup, a shift report): whether the screen changed.
     pub fn poll_background(&mut self) -> bool {
-        let backup = self.poll_backups();
+        let mut backup = self.poll_backups();
+        while let Some(d) = self.worker.as_ref().and_then(|w| w.rx.try_recv().ok()) {
+            self.take_done(d);
+            backup = true;
+        }
         match self.reports.rx.try_recv() {
             Ok(r) => {
                 self.reports.running = false;
@@ -311,6 +386,7 @@ impl Session {
         let mut wrote = false;
         let next = self.perform_effect(effect, &mut wrote);
         if wrote {
+            self.writes += 1;
             self.start_backup();
         }
         next
@@ -359,26 +435,9 @@ impl Session {
                 }
                 Some(Effect::LoadCellBacktest(cell))
             }
-            Effect::LoadCellBacktest(cell) => {
-                match plant.backtest(None, app.as_of, Some(&cell)) {
-                    Ok(b) => app.loaded_cell_backtest(cell, b),
-                    Err(e) => app.failed(format!("could not back-test {cell}: {e}")),
-                }
-                None
-            }
-            Effect::LoadPatrol => {
-                match plant.patrol(app.as_of) {
-                    Ok(p) => app.loaded_patrol(p),
-                    Err(e) => app.failed(format!("could not read the patrol list: {e}")),
-                }
-                None
-            }
-            Effect::LoadAccuracy => {
-                match plant.backtest(None, app.as_of, None) {
-                    Ok(b) => app.loaded_accuracy(b),
-                    Err(e) => app.failed(format!("could not back-test the plant: {e}")),
-                }
-                None
+            e @ (Effect::LoadPlan | Effect::LoadPatrol | Effect::LoadAccuracy | Effect::LoadBalance | Effect::LoadCellBacktest(_)) => {
+                let job = panels::job_for(&e, app, (self.clock)())?;
+                panels::apply(app, panels::run(plant, job))
             }
             Effect::LoadTrends => {
                 match plant.rectifiers(app.as_of, app.rectifiers.span_days) {
@@ -393,16 +452,6 @@ impl Session {
                     Err(e) => app.failed(format!("could not read the entries: {e}")),
                 }
                 None
-            }
-            Effect::LoadPlan => {
-                let opts = crate::plant::PlanOptions { days: app.plan.days, moves: app.plan.moves.clone(), ..Default::default() };
-                match plant.plan(&opts, app.as_of) {
-                    Ok(p) => {
-                        app.loaded_plan(p);
-                        None
-                    }
-                    Err(e) => app.plan_refused(e.to_string()),
-                }
             }
             Effect::Check(batch) => {
                 let verdict = match plant.check_batch(&batch) {
@@ -457,13 +506,6 @@ impl Session {
                 let r = plant.undo(Some(id), &opts).map_err(|e| e.to_string());
                 *wrote = r.is_ok();
                 app.undone(r)
-            }
-            Effect::LoadBalance => {
-                match plant.month_so_far((self.clock)()).and_then(|(from, to)| plant.balance(from, to)) {
-                    Ok(b) => app.loaded_balance(b),
-                    Err(e) => app.balance_refused(e.to_string()),
-                }
-                None
             }
             Effect::SaveReport => {
                 self.start_report();
@@ -655,6 +697,8 @@ fn event_loop(
             }
             dirty = false;
         }
+        // a panel being made elsewhere is shown within 10 ms of being ready
+        let wait = StdDuration::from_millis(if session.busy() { 10 } else { 100 });
         let input = if session.has_pending() {
             match keys.try_recv() {
                 Ok(i) => Some(i),
@@ -666,7 +710,7 @@ fn event_loop(
                 Err(mpsc::TryRecvError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
             }
         } else {
-            match keys.recv_timeout(StdDuration::from_millis(100)) {
+            match keys.recv_timeout(wait) {
                 Ok(i) => Some(i),
                 Err(mpsc::RecvTimeoutError::Disconnected) => return Ok(Ended::Gone("the keyboard reader stopped".into())),
                 Err(mpsc::RecvTimeoutError::Timeout) => None,
