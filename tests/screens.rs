@@ -1075,4 +1075,9 @@ fn the_first_frame_holds_a_screenful_of_whole_sections_and_the_whole_plant_follo
     s.press(Key::Enter);
     assert_eq!(s.app.who.as_deref(), Some("AK"));
     assert!(screen(&s, 80, 24).contains("due by"));
+    // a plant no bigger than a screenful is forecast once, whole
+    let s = Session::open_first(Plant::open(&path).unwrap(), fixed, false, 200).unwrap();
+    assert!(!s.app.partial && !s.busy());
+    assert_eq!(s.app.cells, s.plant.forecast(fixed(), None).unwrap().cells);
+    assert_eq!(s.app.plant_warnings, s.plant.forecast(fixed(), None).unwrap().warnings);
 }

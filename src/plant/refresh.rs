@@ -79,23 +79,23 @@ impl Plant {
         self.forecast_of(as_of, Some(&ids), as_of)
     }
 
-    /// The first whole sections in plant order holding at least `n` cells (the
-    /// whole plant if it is smaller): what the screens' first frame can show.
-    pub fn first_cells(&self, n: usize) -> Result<Touched> {
+    /// The first whole sections in plant order holding at least `n` cells,
+    /// and whether they are the whole plant: what the screens' first frame can show.
+    pub fn first_cells(&self, n: usize) -> Result<(Touched, bool)> {
         let mut t = Touched::default();
         let mut last: Option<(String, String)> = None;
         for c in self.store.db().cells()? {
             let group = (c.circuit.clone(), c.section.clone());
             if last.as_ref() != Some(&group) {
                 if t.cells.len() >= n {
-                    break;
+                    return Ok((t, false));
                 }
                 last = Some(group);
             }
             t.circuits.insert(c.circuit);
             t.cells.insert(c.id);
         }
-        Ok(t)
+        Ok((t, true))
     }
 
     fn touch_cell(&self, t: &mut Touched, cell: &str) -> Result<()> {

@@ -117,9 +117,11 @@ impl Session {
     pub fn open_first(plant: Plant, clock: fn() -> Time, color: bool, first: usize) -> Result<Session> {
         let mut s = Session::new(plant, clock, color)?;
         s.defer = true;
-        let part = s.plant.first_cells(first).and_then(|t| s.plant.forecast_touched(clock(), &t));
+        let part = s.plant.first_cells(first).and_then(|(t, whole)| Ok((s.plant.forecast_touched(clock(), &t)?, whole)));
         match (part, s.plant.circuit_names()) {
-            (Ok(f), Ok(circuits)) => {
+            // a plant no bigger than a screenful: that was its whole forecast
+            (Ok((f, true)), Ok(circuits)) => s.app.loaded_forecast(f, circuits),
+            (Ok((f, false)), Ok(circuits)) => {
                 s.app.loaded_forecast(f, circuits);
                 s.app.partial = true;
                 s.app.updating = true;
