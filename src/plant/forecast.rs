@@ -26,11 +26,11 @@ impl Plant {
     /// weighings up to `learnt_at` instead: the copper balance holds both ends
     /// of its period at the efficiencies learnt by its end.
     pub(crate) fn forecast_learnt_at(&self, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Forecast> {
-        self.forecast_of(as_of, only_cell.as_ref().map(std::slice::from_ref), learnt_at)
+        self.forecast_cells(as_of, only_cell.as_ref().map(std::slice::from_ref), learnt_at)
     }
 
     /// The forecast of the cells in `only` (all if `None`): the screens' refresh after an entry (plant/refresh.rs).
-    pub(crate) fn forecast_of(&self, as_of: Time, only: Option<&[&str]>, learnt_at: Time) -> Result<Forecast> {
+    pub(crate) fn forecast_cells(&self, as_of: Time, only: Option<&[&str]>, learnt_at: Time) -> Result<Forecast> {
         self.refuse_damage()?;
         let db = self.store.db();
         let cells = snapshots_learnt_at(db, as_of, only, learnt_at)?;

@@ -76,7 +76,7 @@ impl Plant {
             return Ok(Forecast { schema: 1, as_of, cells: Vec::new(), warnings: Vec::new() });
         }
         let ids: Vec<&str> = t.cells.iter().map(String::as_str).collect();
-        self.forecast_of(as_of, Some(&ids), as_of)
+        self.forecast_cells(as_of, Some(&ids), as_of)
     }
 
     /// The first whole sections in plant order holding at least `n` cells,
