@@ -98,7 +98,7 @@ pub struct Rules {
     pub whole_sections: bool,
     /// The crane-lift budget (`None`: no limit).
     pub crane: Option<Crane>,
-    /// Level the harvests' daily cathodes after the cap-only levelling (see [`plan`]).
+    /// Level the harvests' daily cathodes after the cap-only levelling (see [`plan`](super::plan)).
     pub smooth_harvests: bool,
     /// A crop pulled with the anodes lighter than this fraction of its
     /// `cathode_target_kg` is warned about.
@@ -114,7 +114,7 @@ pub struct Crane {
 }
 
 impl Rules {
-    /// The anode supply as [`levelling::level`] takes it. Both unset: no limit.
+    /// The anode supply as [`levelling::level`](crate::domain::levelling::level) takes it. Both unset: no limit.
     /// Either set: the supply is limited, and the unset part counts as none
     /// (no stock on hand, or no deliveries).
     pub(super) fn supply(&self, days: usize) -> (u64, Vec<u64>) {

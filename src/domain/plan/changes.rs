@@ -61,7 +61,7 @@ pub(super) fn overdrawn(stock: u64, per_day: &[u64], used: &[u64]) -> Option<usi
     None
 }
 
-/// The supply left after `used`, in the form [`levelling::level`] takes: a
+/// The supply left after `used`, in the form [`levelling::level`](crate::domain::levelling::level) takes: a
 /// further use through day j must fit every later day's remainder too, so the
 /// cumulative supply left through j is the least remainder from j on.
 pub(super) fn remaining_supply(stock: u64, per_day: &[u64], used: &[u64]) -> (u64, Vec<u64>) {

@@ -7,12 +7,12 @@
 //!
 //! How a plan is made, in three steps:
 //!
-//! 1. **Outlook** ([`outlook`]): for each cell, from its running anode load, the
+//! 1. **Outlook** ([`outlook()`]): for each cell, from its running anode load, the
 //!    times its remaining anode fraction reaches `scrap_upper` (the window
 //!    opens), `scrap_target` (the ideal change) and `scrap_lower` (the window
-//!    closes), found with [`cell_time_reaching`] on the circuit's curve (the
+//!    closes), found with [`cell_time_reaching`](crate::domain::charge::cell_time_reaching) on the circuit's curve (the
 //!    projection after the last reading is the estimate). Between changes come
-//!    the cathode crops, each due when [`crop_target`] says, the rule the
+//!    the cathode crops, each due when [`crop_target`](crate::domain::forecast::crop_target) says, the rule the
 //!    forecast's `harvest_due` uses too (one timeline): at its target mass
 //!    (`cathode_target_kg` mean per cathode), or, where `crops_per_anode_cycle`
 //!    = k is set, at k equal parts of the anode life's charge (set → ideal
@@ -22,8 +22,8 @@
 //!    have no anode changes, only crops at their target mass. A crop is
 //!    overdue when its due time has passed; work due before the plan starts is
 //!    planned from the first day.
-//! 2. **Levelling** ([`plan`]), cycle by cycle: the running loads' changes go
-//!    through [`levelling::level`] (crew per day, days without anode work, each
+//! 2. **Levelling** ([`plan()`]), cycle by cycle: the running loads' changes go
+//!    through [`levelling::level`](crate::domain::levelling::level) (crew per day, days without anode work, each
 //!    circuit's own outage days, anode supply, crane lifts, whole sections as
 //!    groups), then the kept moves (recorded decisions) and the hand moves are
 //!    applied to the levelled plan one by one and each is re-checked. Each next
@@ -33,9 +33,9 @@
 //!    follow from that, and it is levelled in the capacity left. Harvests
 //!    are levelled next against the stripping machine and the crane lifts
 //!    left, with the last crop of each cycle fixed to its anode-change day,
-//!    then smoothed inside their windows ([`smoothing::smooth`]). Anode
+//!    then smoothed inside their windows ([`smoothing::smooth`](crate::domain::smoothing::smooth)). Anode
 //!    deliveries are levelled under the daily preparation limit
-//!    ([`smoothing::deliveries`]), giving each day's stock line.
+//!    ([`smoothing::deliveries`](crate::domain::smoothing::deliveries)), giving each day's stock line.
 //! 3. **Prediction**: every planned job is given the instant of its day nearest
 //!    its due time (never before now), and the anode fraction, scrap and
 
@@ -144,7 +144,7 @@ pub enum PlanError<E: std::error::Error + 'static> {
 ///
 /// Anode changes are levelled cycle by cycle, and each next load's window is
 /// counted from the day its change before it ends up on (levelled, kept or
-/// moved). They are exact whenever [`levelling::level`] reports `exact` for
+/// moved). They are exact whenever [`levelling::level`](crate::domain::levelling::level) reports `exact` for
 /// every cycle (see its documentation), each cycle in the capacity its
 /// earlier cycles and their moves leave. A hand move is applied to the levelled plan: it
 /// takes the cell (out of its section's common day, with `whole_sections`)

@@ -25,7 +25,7 @@ pub struct ChangeDue {
     /// The ideal time had already passed when the plan begins.
     pub overdue: bool,
     /// Where the change is assumed done before it is levelled: the ideal
-    /// time, or the start of the plan when overdue ([`outlook`], and the
+    /// time, or the start of the plan when overdue ([`outlook()`], and the
     /// cycles after a change the plan could not place).
     pub assumed_at: Time,
 }
@@ -107,7 +107,7 @@ pub(super) fn change_due<C: Curve>(
 
 /// The crops due from `crop_from` until the cycle's change (a crop due at or
 /// after the change's ideal time goes with it) or the end of the horizon, each
-/// at the time [`crop_target`] gives the forecast too; returns them and when the
+/// at the time [`crop_target`](crate::domain::forecast::crop_target) gives the forecast too; returns them and when the
 /// crop that the change pulls begins.
 #[allow(clippy::too_many_arguments)]
 pub(super) fn crops<C: Curve>(
@@ -193,7 +193,7 @@ pub(super) fn first_cycle<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar,
 
 /// A cell's anode cycles and crops over the calendar, on its circuit's curve
 /// as of `now`, each change assumed made at [`ChangeDue::assumed_at`] (its
-/// ideal time): the cell on its own, before levelling. [`plan`] starts each
+/// ideal time): the cell on its own, before levelling. [`plan`](super::plan) starts each
 /// next cycle from the day its change is planned on instead.
 pub fn outlook<C: Curve>(cell: &CellInput, curve: &C, cal: &Calendar, now: Time) -> Result<Outlook, C::Error> {
     let mut o = first_cycle(cell, curve, cal, now)?;

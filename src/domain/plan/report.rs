@@ -216,9 +216,9 @@ pub struct Plan {
     pub unplaced: Vec<UnplacedJob>,
     /// Cells in a cut-out with no end: nothing is planned for them.
     pub out_of_circuit: Vec<String>,
-    /// The anode changes, before hand moves, are proven optimal (see [`levelling::Levelled::exact`]).
+    /// The anode changes, before hand moves, are proven optimal (see [`levelling::Levelled::exact`](crate::domain::levelling::Levelled::exact)).
     pub exact: bool,
-    /// The harvests are proven optimal (see [`plan`]).
+    /// The harvests are proven optimal (see [`plan`](super::plan)).
     pub harvests_exact: bool,
     /// Harvests the smoothing moved to another day of their window.
     pub harvests_smoothed: usize,
