@@ -184,7 +184,7 @@ impl std::error::Error for LevelError {}
 ///   changes from the cumulative anodes through each day. Ties are then
 ///   resolved by moving each task in cell order to its smallest day reachable
 ///   through a zero-reduced-cost cycle, which keeps the optimum. The flow runs
-///   on a graph of days only ([`day_flow`]: a placed task's move to another
+///   on a graph of days only (`levelling::day_flow`: a placed task's move to another
 ///   day is an arc between the two days, kept in an ordered set per pair), so
 ///   a shortest path costs about days × window instead of tasks × days; the
 ///   general graph's flow stays in the tests as the reference it must equal.

@@ -18,7 +18,7 @@ pub struct ChangeDue {
     /// It reaches `scrap_lower` (the window closes); `None`: not in sight.
     pub lower_at: Option<Time>,
     /// Day indices of the window as planned: an overdue change opens on day 0
-    /// and prefers it; `latest` is clipped [`BEYOND_HORIZON_DAYS`] past the horizon.
+    /// and prefers it; `latest` is clipped `BEYOND_HORIZON_DAYS` past the horizon.
     pub earliest: i64,
     pub ideal: i64,
     pub latest: i64,
