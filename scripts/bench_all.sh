@@ -12,6 +12,12 @@
 # Needs only bash, awk, coreutils and what it installs itself (sqlite3 and
 # GNU time, with apt-get, when missing). Honours CARGO_TARGET_DIR.
 #
+# The year-long plant ($YEAR, default 3 000 cells × 365 days of one-minute
+# readings) is written once (its time and peak RSS are the demo-write goal),
+# then the forecast and the plan are timed on it too: against the 30-day big
+# plant they show whether a command grows with the length of the history.
+# YEAR= (empty) skips it.
+#
 #   RUNS=5 BIG="--cells 3000 --days 30" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
 set -euo pipefail
 cd "$(dirname "$0")/.."
@@ -33,6 +39,7 @@ export TANKBOOK_NOW=${TANKBOOK_NOW:-2026-11-20T05:30:00Z}
 runs=${RUNS:-5}
 big=${BIG:---cells 3000 --days 30}
 rows=${IMPORT_ROWS:-1000000}
+year=${YEAR-"--cells 3000 --days 365 --reading-minutes 1"}
 
 now_ns() { date +%s%N; }
 # median of the numbers on stdin
@@ -72,6 +79,20 @@ plan_base=$(timed : "$bin" --db "$dir/base.db" plan --days 28 --json)
 plan_big=$(timed : "$bin" --db "$dir/big.db" plan --days 28 --json)
 rss_plan=$(rss_mb)
 
+# --- the year-long plant: written once, then the same reads
+if [ -n "$year" ]; then
+  rm -f "$dir"/year.db*
+  t0=$(now_ns)
+  # shellcheck disable=SC2086 # $year is a list of arguments
+  /usr/bin/time -f %M -o "$dir/rss" "$bin" --db "$dir/year.db" demo --no-tui $year >/dev/null 2>"$dir/err" || { cat "$dir/err" >&2; exit 1; }
+  demo_year=$(secs "$t0" "$(now_ns)")
+  rss_demo_year=$(rss_mb)
+  fc_year=$(timed : "$bin" --db "$dir/year.db" forecast --json)
+  rss_fc_year=$(rss_mb)
+  plan_year=$(timed : "$bin" --db "$dir/year.db" plan --days 28 --json)
+  rss_plan_year=$(rss_mb)
+fi
+
 # --- import of $rows one-minute readings of circuit C1 (fixtures/plant_check.toml) against sqlite3's .import
 csv=$dir/current.csv
 awk -v n="$rows" 'BEGIN {
@@ -106,4 +127,9 @@ echo "| \`demo\` write | ${demo_base} s (102 cells) | ${demo_big} s | $(ratio "$
 echo "| \`forecast --json\` | ${fc_base} s | ${fc_big} s | $(ratio "$fc_base" "$fc_big")× | ${rss_fc} MB |"
 echo "| \`plan --days 28 --json\` | ${plan_base} s | ${plan_big} s | $(ratio "$plan_base" "$plan_big")× | ${rss_plan} MB |"
 echo "| import $rows readings | ${sq_import} s (sqlite3 \`.import\`, bare table) | ${tk_import} s (\`import current\`) | $(ratio "$sq_import" "$tk_import")× | ${rss_import} MB |"
+if [ -n "$year" ]; then
+  echo "| \`demo\` write, year plant ($year), once | ${demo_base} s (102 cells) | ${demo_year} s | $(ratio "$demo_base" "$demo_year")× | ${rss_demo_year} MB |"
+  echo "| \`forecast --json\`, year plant vs big plant | ${fc_big} s | ${fc_year} s | $(ratio "$fc_big" "$fc_year")× | ${rss_fc_year} MB |"
+  echo "| \`plan --days 28 --json\`, year plant vs big plant | ${plan_big} s | ${plan_year} s | $(ratio "$plan_big" "$plan_year")× | ${rss_plan_year} MB |"
+fi
 echo "| first frame of the screens | not measured: needs a terminal | | | |"

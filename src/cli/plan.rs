@@ -6,7 +6,7 @@ use std::path::Path;
 
 use super::args::PlanArgs;
 use crate::domain::charge::Time;
-use crate::domain::plan::{Bound, Plan, PlanDay, Reason, UnplacedJob};
+use crate::domain::plan::{Bound, JobKind, Plan, PlanDay, Reason, UnplacedJob};
 use crate::domain::plan_diff::PlanDiff;
 use crate::plant::{Opts, PlanOptions, Plant};
 
@@ -118,7 +118,7 @@ fn changes_since(plant: &Plant, x: &PlanDiff) {
     if x.is_empty() {
         println!("  no changes");
     }
-    let kind = |k: &str| if k == "harvest" { "harvest" } else { "anode change" };
+    let kind = |k: JobKind| if k == JobKind::Harvest { "harvest" } else { "anode change" };
     for m in &x.moved {
         println!("  moved    {:<13} {:<8} {} -> {}", kind(m.kind), m.cell, m.from, m.to);
     }
@@ -209,7 +209,7 @@ fn table(plant: &Plant, p: &Plan) -> Result<()> {
     } else {
         println!("not placed ({}):", unplaced.len());
         for u in unplaced {
-            let kind = if u.kind == "harvest" { "harvest" } else { "anode change" };
+            let kind = if u.kind == JobKind::Harvest { "harvest" } else { "anode change" };
             let overdue = if u.overdue { " (overdue)" } else { "" };
             println!("  {kind:<13} {:<8} {}{overdue}", u.cell, u.message);
         }

@@ -6,6 +6,8 @@ use std::collections::{BTreeMap, VecDeque};
 use std::fmt;
 use std::ops::{Add, Neg, Sub};
 
+mod day_flow;
+
 /// Largest number of placement units (a cell on its own, or a whole group
 /// counted once) that [`level`] hands to the exact branch and bound when the
 /// min-cost flow does not apply; bigger instances get the repaired relaxation
@@ -181,7 +183,11 @@ impl std::error::Error for LevelError {}
 ///   lexicographic cost, so no big-M is needed. Supply is counted in whole
 ///   changes from the cumulative anodes through each day. Ties are then
 ///   resolved by moving each task in cell order to its smallest day reachable
-///   through a zero-reduced-cost cycle, which keeps the optimum.
+///   through a zero-reduced-cost cycle, which keeps the optimum. The flow runs
+///   on a graph of days only (`levelling::day_flow`: a placed task's move to another
+///   day is an arc between the two days, kept in an ordered set per pair), so
+///   a shortest path costs about days × window instead of tasks × days; the
+///   general graph's flow stays in the tests as the reference it must equal.
 /// * Otherwise (different anode counts under binding supply, or groups): each
 ///   group becomes one unit (crew use = member count, anodes = sum, cost =
 ///   sum, window = intersection). Up to [`EXACT_SEARCH_MAX_UNITS`] units, a
@@ -291,7 +297,7 @@ fn solve(tasks: &[Task], cap: &Capacity, w: Weights, method: Method) -> Result<L
         let per = if never_binds { 0 } else { first_anodes.unwrap_or(0) };
         let units = cumulative_units(&cum, per, items.len());
         let options: Vec<Vec<(usize, i128)>> = items.iter().map(Item::options).collect();
-        (flow_assign(&options, &cap.crew, units.as_deref(), None, true)?, true)
+        (day_flow::assign(&options, &cap.crew, units.as_deref(), None)?, true)
     } else {
         let seed = repair(&items, &cap.crew, &cum)?;
         if items.len() <= EXACT_SEARCH_MAX_UNITS { branch_and_bound(&items, &cap.crew, &cum, seed, true)? } else { (seed, false) }
@@ -601,18 +607,21 @@ fn count_limits(cells: &[(usize, u128)], cap: &[u128]) -> Vec<u64> {
 // ---------------------------------------------------------------------------
 // Min-cost flow
 
+#[cfg(test)]
 struct Arc {
     to: usize,
     cap: i64,
     cost: Cost,
 }
 
+#[cfg(test)]
 /// Residual graph; arc `e` and its reverse `e ^ 1` are stored together.
 struct Graph {
     arcs: Vec<Arc>,
     adj: Vec<Vec<usize>>,
 }
 
+#[cfg(test)]
 impl Graph {
     fn new(nodes: usize) -> Self {
         Graph { arcs: Vec::new(), adj: vec![Vec::new(); nodes] }
@@ -679,6 +688,7 @@ impl Graph {
     }
 }
 
+#[cfg(test)]
 /// Assigns each task (given in cell-id order) to one of its `(day, cost)`
 /// options or to nothing, minimising (unplaced, cost), with at most
 /// `crew[d]` tasks on day `d`, at most `cum_units[d]` tasks on days `0..=d`
@@ -777,6 +787,7 @@ fn flow_assign(
     Ok(task_arcs.iter().map(|arcs| arcs.iter().find(|&&(_, e)| g.arcs[e].cap == 0).map(|&(d, _)| d)).collect())
 }
 
+#[cfg(test)]
 /// Among all min-cost flows, moves to the one whose task days (in task order,
 /// unplaced last) are lexicographically smallest. With optimal potentials,
 /// the optimal flows are exactly those reachable by cycles of zero reduced
@@ -925,7 +936,7 @@ fn repair(items: &[Item], crew: &[u32], cum: &[u128]) -> Result<Vec<Option<usize
         .flat_map(|(first, it)| it.member_anodes.iter().map(move |&a| (first, a)))
         .collect();
     let units = count_limits(&cells, cum);
-    let relaxed = flow_assign(&options, crew, Some(&units), None, false)?;
+    let relaxed = day_flow::assign(&options, crew, Some(&units), None)?;
 
     // Single cells keep their relaxed day unless their day overdraws the
     // cumulative supply; groups are always re-inserted whole.
@@ -1185,7 +1196,7 @@ impl Search<'_> {
         let units = count_limits(&firsts, suffix_min);
         let crew: Vec<u32> = self.load.crew_left.iter().map(|&c| u32::try_from(c).unwrap_or(u32::MAX)).collect();
         let limit = most_placeable(&cells, &options, items, open, suffix_min);
-        let days = flow_assign(&options, &crew, Some(&units), Some(limit), true)?;
+        let days = day_flow::assign(&options, &crew, Some(&units), Some(limit))?;
 
         let mut value = Cost::ZERO;
         let mut unit_day: Vec<Option<Option<usize>>> = vec![None; open.len()];
@@ -1790,6 +1801,52 @@ mod tests {
         ) {
             let out = level(&tasks, &cap, W13).map_err(|e| TestCaseError::fail(e.to_string()))?;
             check_plan(&tasks, &cap, W13, &out).map_err(TestCaseError::fail)?;
+        }
+    }
+
+    /// Random inputs of the flow itself, larger than the brute force can take:
+    /// options (increasing days, V-shaped costs around an ideal), crew, cumulative units, a limit.
+    type FlowInstance = (Vec<Vec<(usize, i128)>>, Vec<u32>, Option<Vec<u64>>, Option<usize>);
+
+    fn flow_instance() -> impl Strategy<Value = FlowInstance> {
+        (1usize..12).prop_flat_map(|h| {
+            (
+                prop::collection::vec((0..h + 2, 0usize..6, 0..h + 3, 1i128..4, 1i128..6, prop::collection::vec(0..h + 2, 0..3)), 0..40),
+                prop::collection::vec(0u32..5, h),
+                prop::option::of(prop::collection::vec(0u64..30, h)),
+                prop::option::of(0usize..30),
+            )
+                .prop_map(|(raw, crew, units, limit)| {
+                    let options = raw
+                        .into_iter()
+                        .map(|(lo, len, ideal, we, wl, off)| {
+                            (lo..=lo + len)
+                                .filter(|d| !off.contains(d))
+                                .map(|d| {
+                                    let c = if d < ideal { we * (ideal - d) as i128 } else { wl * (d - ideal) as i128 };
+                                    (d, c)
+                                })
+                                .collect()
+                        })
+                        .collect();
+                    let units = units.map(|mut u| {
+                        // cumulative: non-decreasing
+                        for d in 1..u.len() {
+                            u[d] = u[d].max(u[d - 1]);
+                        }
+                        u
+                    });
+                    (options, crew, units, limit)
+                })
+        })
+    }
+
+    proptest! {
+        #[test]
+        fn the_day_graph_flow_equals_the_general_graph_flow((options, crew, units, limit) in flow_instance()) {
+            let general = flow_assign(&options, &crew, units.as_deref(), limit, true).map_err(|e| TestCaseError::fail(e.to_string()))?;
+            let days = day_flow::assign(&options, &crew, units.as_deref(), limit).map_err(|e| TestCaseError::fail(e.to_string()))?;
+            prop_assert_eq!(days, general);
         }
     }
 

@@ -19,7 +19,7 @@ use serde::Serialize;
 use std::collections::BTreeMap;
 
 use super::charge::Time;
-use super::plan::Plan;
+use super::plan::{JobKind, Plan};
 
 /// The price of leaving a job unmatched, in days moved: a job that moved more
 /// than twice this is reported as dropped and added rather than as moved.
@@ -30,7 +30,7 @@ pub const UNMATCHED_DAYS: i64 = 3;
 pub struct PlannedJob {
     pub date: NaiveDate,
     /// `anode_change` or `harvest`.
-    pub kind: &'static str,
+    pub kind: JobKind,
     pub cell: String,
 }
 
@@ -49,7 +49,7 @@ pub struct ApprovedPlan {
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct MovedJob {
     pub cell: String,
-    pub kind: &'static str,
+    pub kind: JobKind,
     pub from: NaiveDate,
     pub to: NaiveDate,
 }
@@ -78,8 +78,8 @@ impl PlanDiff {
 pub fn planned_jobs(plan: &Plan) -> Vec<PlannedJob> {
     let mut out = Vec::new();
     for d in &plan.days {
-        out.extend(d.anode_changes.iter().map(|c| PlannedJob { date: d.date, kind: "anode_change", cell: c.cell.clone() }));
-        out.extend(d.harvests.iter().map(|h| PlannedJob { date: d.date, kind: "harvest", cell: h.cell.clone() }));
+        out.extend(d.anode_changes.iter().map(|c| PlannedJob { date: d.date, kind: JobKind::AnodeChange, cell: c.cell.clone() }));
+        out.extend(d.harvests.iter().map(|h| PlannedJob { date: d.date, kind: JobKind::Harvest, cell: h.cell.clone() }));
     }
     out
 }
@@ -94,7 +94,7 @@ enum Step {
 
 /// Compares the current plan's jobs (over `from..=to`) with the approved plan.
 pub fn diff(approved: &ApprovedPlan, current: &[PlannedJob], from: NaiveDate, to: NaiveDate) -> PlanDiff {
-    type Key = (&'static str, String);
+    type Key = (JobKind, String);
     let mut a: BTreeMap<Key, Vec<NaiveDate>> = BTreeMap::new();
     let mut c: BTreeMap<Key, Vec<NaiveDate>> = BTreeMap::new();
     for j in &approved.jobs {
@@ -188,7 +188,7 @@ mod tests {
         NaiveDate::from_ymd_opt(2026, 3, day).unwrap()
     }
     fn job(day: u32, kind: &'static str, cell: &str) -> PlannedJob {
-        PlannedJob { date: d(day), kind, cell: cell.to_string() }
+        PlannedJob { date: d(day), kind: JobKind::from_name(kind).unwrap(), cell: cell.to_string() }
     }
     fn approved(jobs: Vec<PlannedJob>) -> ApprovedPlan {
         ApprovedPlan {
@@ -216,7 +216,7 @@ mod tests {
             job(4, "anode_change", "A04"), // new
         ];
         let x = diff(&a, &now, d(2), d(15));
-        assert_eq!(x.moved, vec![MovedJob { cell: "A02".into(), kind: "anode_change", from: d(5), to: d(6) }]);
+        assert_eq!(x.moved, vec![MovedJob { cell: "A02".into(), kind: JobKind::AnodeChange, from: d(5), to: d(6) }]);
         assert_eq!(x.added, vec![job(4, "anode_change", "A04")]);
         assert_eq!(x.dropped, vec![job(9, "anode_change", "A03")]);
         assert!(!x.is_empty());

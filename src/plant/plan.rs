@@ -14,7 +14,7 @@ use crate::domain::levelling::Weights;
 use crate::domain::plan::{Calendar, Crane, KeptMove, Plan, PlanError, PlanInput, Rules, plan};
 use crate::domain::plan_diff::{PlanDiff, diff, planned_jobs};
 use crate::domain::plant_time::ProductionDays;
-use crate::store::StoreCurve;
+use crate::store::PlanCurve;
 use crate::store::{Db, NewEvent};
 
 /// The longest plan, in production days: a year is far beyond what the
@@ -110,12 +110,16 @@ impl Plant {
                 ),
             ));
         }
-        let mut curves: HashMap<String, StoreCurve<'_>> = HashMap::new();
+        let mut curves: HashMap<String, PlanCurve<'_>> = HashMap::new();
         let mut outages = Vec::new();
         for c in db.circuits()? {
             outages.extend(db.outages(c.id)?.into_iter().map(|s| (c.name.clone(), s)));
-            if cells.iter().any(|x| x.circuit == c.name) {
-                curves.insert(c.name.clone(), StoreCurve::new(db, c.id, now)?);
+            // the plan looks the curve up from its cells' running loads and crops on:
+            // those readings are held in memory (an earlier look-up asks the store)
+            let mine = cells.iter().filter(|x| x.circuit == c.name);
+            let from = mine.flat_map(|x| [x.load.map(|l| l.0), x.crop_started]).flatten().min();
+            if let Some(from) = from.or(cells.iter().any(|x| x.circuit == c.name).then_some(now)) {
+                curves.insert(c.name.clone(), PlanCurve::new(db, c.id, from, now)?);
             }
         }
         let input = PlanInput {

@@ -10,6 +10,7 @@ mod drafts;
 mod events;
 mod learnt;
 mod migrations;
+mod plan_curve;
 mod plan_record;
 mod readings;
 mod report;
@@ -27,6 +28,7 @@ pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, WeighingKind};
 /// without them is not ours.
 const OUR_TABLES: [&str; 4] = ["plant_meta", "circuit", "reading", "event"];
 pub use migrations::{MIGRATIONS, migrate, schema_version};
+pub use plan_curve::PlanCurve;
 pub use readings::StoreCurve;
 pub use report::CropRow;
 

@@ -7,18 +7,15 @@ use rusqlite::{OptionalExtension, params};
 use super::{Db, Result, StoreError, secs, time};
 use crate::domain::charge::Time;
 use crate::domain::history::{Event, EventKind};
+use crate::domain::plan::JobKind;
 use crate::domain::plan_diff::{ApprovedPlan, PlannedJob};
 
 fn day(s: &str) -> Result<NaiveDate> {
     NaiveDate::parse_from_str(s, "%Y-%m-%d").map_err(|_| StoreError::Corrupt(format!("'{s}' in an approved plan is not a date")))
 }
 
-fn kind(s: &str) -> Result<&'static str> {
-    match s {
-        "anode_change" => Ok("anode_change"),
-        "harvest" => Ok("harvest"),
-        _ => Err(StoreError::Corrupt(format!("'{s}' in an approved plan is not a job kind"))),
-    }
+fn kind(s: &str) -> Result<JobKind> {
+    JobKind::from_name(s).ok_or_else(|| StoreError::Corrupt(format!("'{s}' in an approved plan is not a job kind")))
 }
 
 impl Db<'_> {
@@ -44,7 +41,7 @@ impl Db<'_> {
         let id = self.c.last_insert_rowid();
         let mut st = self.c.prepare_cached("INSERT INTO approved_job(plan_id, day, kind, cell_id) VALUES (?1, ?2, ?3, ?4)")?;
         for j in jobs {
-            st.execute(params![id, j.date.to_string(), j.kind, j.cell])?;
+            st.execute(params![id, j.date.to_string(), j.kind.name(), j.cell])?;
         }
         Ok(id)
     }

@@ -11,7 +11,7 @@ use ratatui::widgets::{Block, Borders, Paragraph, Wrap};
 use super::app::App;
 use super::draw::{bold, fg};
 use super::overlay::Overlay;
-use crate::domain::plan::{AnodeChange, Bound, Plan, PlanDay};
+use crate::domain::plan::{AnodeChange, Bound, JobKind, Plan, PlanDay};
 use crate::domain::plan_diff::PlanDiff;
 
 /// The plan screen's state: the plan, the hand moves, the selected day and job.
@@ -120,7 +120,7 @@ fn diff_line(d: Option<&PlanDiff>, app: &App) -> String {
     if d.is_empty() {
         return format!("no change since the plan {} approved {when}", d.by);
     }
-    let kind = |k: &str| if k == "anode_change" { "anodes" } else { "harvest" };
+    let kind = |k: JobKind| if k == JobKind::AnodeChange { "anodes" } else { "harvest" };
     let md = |x: chrono::NaiveDate| x.format("%m-%d").to_string();
     let mut items: Vec<String> = d.moved.iter().map(|m| format!("{} {} {}→{}", m.cell, kind(m.kind), md(m.from), md(m.to))).collect();
     items.extend(d.added.iter().map(|j| format!("+{} {} {}", j.cell, kind(j.kind), md(j.date))));
@@ -279,7 +279,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     if !plan.unplaced.is_empty() {
         l.push(Line::styled("Not placed:", bold().patch(fg(app, Color::Red))));
         for u in &plan.unplaced {
-            l.push(Line::styled(format!("  {} {}: {}", u.cell, u.kind.replace('_', " "), u.message), fg(app, Color::Red)));
+            l.push(Line::styled(format!("  {} {}: {}", u.cell, u.kind.name().replace('_', " "), u.message), fg(app, Color::Red)));
         }
     }
     if !plan.kept_moves.is_empty() {
