@@ -1,0 +1,110 @@
+//! A circuit's charge curve with the span a forecast needs held in memory: the
+//! valid readings from just before the earliest instant asked about to `as_of`,
+//! read in one range query, and looked up by binary search for every cell of the circuit.
+//!
+//! It answers exactly what [`StoreCurve`] answers (same points, same
+//! arithmetic); an instant before the span, or a charge reached before it, is
+//! asked of the [`StoreCurve`] it wraps. The charge never falls (amps are
+//! checked to be ≥ 0 on import), so the first reading reaching a charge is found
+//! by bisection on the cumulative charge, as the `reading_cum` index finds it.
+
+use chrono::Duration;
+use rusqlite::params;
+
+use super::readings::StoreCurve;
+use super::{Db, Result, StoreError, secs, time};
+use crate::domain::charge::{Around, Cum, Curve, Point, Projection, Time, cum_from, time_from};
+
+/// The longest span held in memory: a load set longer ago than this (a cell
+/// left idle for months) is looked up in the database instead, so the slice
+/// stays small whatever the history.
+pub const SLICE_SPAN: Duration = Duration::days(60);
+
+/// A circuit's curve as of `as_of`, with `[from, as_of]` in memory.
+pub struct SliceCurve<'c> {
+    store: StoreCurve<'c>,
+    /// Every valid reading in the span, oldest first; the first is the last
+    /// valid reading at or before the span's start (when there is one).
+    points: Vec<Point>,
+    /// Whether the first point is a reading at or before the start: instants
+    /// from it on are answered from memory.
+    covered: bool,
+}
+
+impl<'c> SliceCurve<'c> {
+    /// The curve of `circuit_id` as of `as_of`, with the readings from the last
+    /// valid one at or before `from` (no earlier than [`SLICE_SPAN`] before `as_of`) in memory.
+    pub fn new(db: Db<'c>, circuit_id: i64, as_of: Time, from: Time) -> Result<Self> {
+        let store = StoreCurve::new(db, circuit_id, as_of)?;
+        let from = from.max(as_of - SLICE_SPAN).min(as_of);
+        let mut st = db.c.prepare_cached(
+            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t <= ?3 AND t >= coalesce(
+                 (SELECT max(t) FROM reading WHERE circuit_id = ?1 AND valid = 1 AND t <= ?2), ?2) ORDER BY t",
+        )?;
+        let points: Vec<Point> = st
+            .query_map(params![circuit_id, secs(from), secs(as_of)], |r| {
+                Ok(Point { t: time(r.get(0)?)?, amps: r.get(1)?, cum_ah: r.get(2)? })
+            })?
+            .collect::<rusqlite::Result<_>>()?;
+        let covered = points.first().is_some_and(|p| p.t <= from);
+        Ok(SliceCurve { store, points, covered })
+    }
+
+    /// The last valid reading the curve uses.
+    pub fn last_reading(&self) -> Option<Point> {
+        self.store.last_reading()
+    }
+
+    pub fn projection(&self) -> &Projection {
+        self.store.projection()
+    }
+
+    /// How many readings are held (for the memory figures).
+    pub fn len(&self) -> usize {
+        self.points.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.points.is_empty()
+    }
+
+    fn outages(&self) -> &[crate::domain::charge::Span] {
+        &self.store.projection().outages
+    }
+}
+
+impl Curve for SliceCurve<'_> {
+    type Error = StoreError;
+
+    fn cum_at(&self, t: Time) -> Result<Cum> {
+        let Some(last) = self.store.last_reading() else { return self.store.cum_at(t) };
+        if !(self.covered && self.points.first().is_some_and(|p| t >= p.t) && t < last.t) {
+            return self.store.cum_at(t);
+        }
+        // t lies in [points[0].t, last.t): a point at or before it and one after it are both held
+        let i = self.points.partition_point(|p| p.t <= t);
+        match (i.checked_sub(1).and_then(|j| self.points.get(j)), self.points.get(i)) {
+            (Some(p0), Some(p1)) => Ok(cum_from(Around::Between(*p0, *p1), t, self.outages(), self.projection())),
+            _ => self.store.cum_at(t),
+        }
+    }
+
+    fn time_at(&self, total: f64) -> Result<Option<Time>> {
+        let last = self.store.last_reading();
+        // beyond the last reading's charge: the projection answers
+        if last.is_some_and(|l| total > l.cum_ah) {
+            return Ok(time_from(None, last, total, self.outages(), self.projection()));
+        }
+        match self.points.first() {
+            // the first reading reaching `total` lies after the first point held: both it and its predecessor are held
+            Some(p) if self.covered && total > p.cum_ah => {
+                let i = self.points.partition_point(|p| p.cum_ah < total);
+                match (i.checked_sub(1).and_then(|j| self.points.get(j)), self.points.get(i)) {
+                    (Some(p0), Some(p1)) => Ok(time_from(Some((Some(*p0), *p1)), last, total, self.outages(), self.projection())),
+                    _ => self.store.time_at(total),
+                }
+            }
+            _ => self.store.time_at(total),
+        }
+    }
+}

@@ -1,0 +1,122 @@
+//! Every cell's state as of a time in a few statements for the whole plant (one
+//! per table, not one per cell), each answered by index seeks that do not grow with the history.
+//!
+//! The derived records are sequential per cell (`domain::history::replay`: a
+//! load ends before the next is set, a crop before the next begins), so "the
+//! record running at `as_of`" is the latest one begun by `as_of`, if it has not
+//! ended by then: one seek back along the cell's index, never a scan of its
+//! past. What each query answers is what the per-cell queries of
+//! `store/events.rs` answer for the same `as_of` (tests compare the two).
+
+use rusqlite::params;
+use std::collections::HashMap;
+
+use super::{Db, Result, opt_time, secs, time};
+use crate::domain::charge::{OpenSpan, Time};
+
+/// One cell's state at `as_of`, as the forecast's snapshot needs it.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct CellState {
+    /// The running anode load: set time, count, mean kg at set.
+    pub load: Option<(Time, u32, f64)>,
+    /// When the running crop began.
+    pub crop_started: Option<Time>,
+    /// The last crop efficiency measured by `as_of`.
+    pub last_crop_efficiency: Option<f64>,
+    /// The latest live voltage reading by `as_of` (none if its volts are missing).
+    pub last_voltage: Option<(Time, f64)>,
+    /// Shorts found since the running crop began: total and the last time.
+    pub shorts: Option<(u32, Time)>,
+    /// The cut-outs known at `as_of` that can still change a charge counted
+    /// from the running load's set or crop's start (every cut-out ending
+    /// before both is left out: it covers no part of any charge the forecast
+    /// or the plan counts), by start; one closed after `as_of` counts as open.
+    pub cutouts: Vec<OpenSpan>,
+}
+
+impl Db<'_> {
+    /// Every active cell's [`CellState`] at `as_of`, by cell id.
+    pub fn cell_states(&self, as_of: Time) -> Result<HashMap<String, CellState>> {
+        let at = secs(as_of);
+        let mut out: HashMap<String, CellState> = HashMap::new();
+        // per cell: the latest load set and crop begun by `as_of` (running if not
+        // ended by then), the last measured efficiency (crops follow one another,
+        // so the latest started is the latest ended), the latest live voltage,
+        // and the live shorts since the latest crop began
+        let mut st = self.c.prepare_cached(
+            "WITH s AS MATERIALIZED (SELECT cell.id AS id,
+                 (SELECT x.set_event FROM anode_load x WHERE x.cell_id = cell.id AND x.set_at <= ?1 ORDER BY x.set_at DESC LIMIT 1) AS load,
+                 (SELECT y.started_at FROM crop y WHERE y.cell_id = cell.id AND y.started_at <= ?1 ORDER BY y.started_at DESC LIMIT 1) AS crop
+                 FROM cell WHERE cell.active = 1)
+             SELECT s.id, l.set_at, l.count, l.mean_kg, l.ended_at, s.crop, c.ended_at,
+                 (SELECT k.efficiency FROM crop k WHERE k.cell_id = s.id AND k.ended_at <= ?1 AND k.efficiency IS NOT NULL
+                  ORDER BY k.started_at DESC LIMIT 1),
+                 v.at, v.volts,
+                 (SELECT sum(e.count) FROM event e WHERE e.cell_id = s.id AND e.kind = 'shorts' AND e.at >= s.crop AND e.at <= ?1
+                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id)),
+                 (SELECT max(e.at) FROM event e WHERE e.cell_id = s.id AND e.kind = 'shorts' AND e.at >= s.crop AND e.at <= ?1
+                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id))
+             FROM s
+             LEFT JOIN anode_load l ON l.set_event = s.load
+             LEFT JOIN crop c ON c.cell_id = s.id AND c.started_at = s.crop
+             LEFT JOIN event v ON v.id = (SELECT e.id FROM event e WHERE e.cell_id = s.id AND e.kind = 'voltage' AND e.at <= ?1
+                 AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id) ORDER BY e.at DESC, e.id DESC LIMIT 1)",
+        )?;
+        let mut rows = st.query([at])?;
+        while let Some(r) = rows.next()? {
+            let mut s = CellState::default();
+            let (set_at, load_end): (Option<i64>, Option<i64>) = (r.get(1)?, r.get(4)?);
+            if let Some(set_at) = set_at
+                && load_end.is_none_or(|e| e > at)
+            {
+                s.load = Some((time(set_at)?, r.get(2)?, r.get(3)?));
+            }
+            let (start, crop_end): (Option<i64>, Option<i64>) = (r.get(5)?, r.get(6)?);
+            if crop_end.is_none_or(|e| e > at) {
+                s.crop_started = opt_time(start)?;
+            }
+            s.last_crop_efficiency = r.get(7)?;
+            let (vat, volts): (Option<i64>, Option<f64>) = (r.get(8)?, r.get(9)?);
+            s.last_voltage = match (opt_time(vat)?, volts) {
+                (Some(t), Some(v)) => Some((t, v)),
+                _ => None,
+            };
+            s.shorts = match (s.crop_started, r.get::<_, Option<u32>>(10)?, opt_time(r.get(11)?)?) {
+                (Some(_), Some(n), Some(t)) => Some((n, t)),
+                _ => None,
+            };
+            out.insert(r.get(0)?, s);
+        }
+        // cut-outs: every one known at `as_of` that ends at or after the first
+        // instant a charge is counted from (the running load's set or crop's
+        // start), or is still open; read for the whole plant from the earliest
+        // such instant (a cell idle for longer than the window reads its own)
+        let since = |s: &CellState| [s.load.map(|l| l.0), s.crop_started].into_iter().flatten().min().unwrap_or(as_of);
+        let window = out.values().map(since).min().unwrap_or(as_of).max(as_of - CUTOUT_WINDOW);
+        let mut st = self.c.prepare_cached(
+            "SELECT cell_id, from_at, to_at, event FROM cutout INDEXED BY cutout_end WHERE to_at >= ?2 AND from_at <= ?1
+             UNION ALL
+             SELECT cell_id, from_at, to_at, event FROM cutout INDEXED BY cutout_end WHERE to_at IS NULL AND from_at <= ?1
+             ORDER BY 1, 2, 4",
+        )?;
+        let mut rows = st.query(params![at, secs(window)])?;
+        while let Some(r) = rows.next()? {
+            let id: String = r.get(0)?;
+            let Some(s) = out.get_mut(&id) else { continue };
+            let to: Option<i64> = r.get(2)?;
+            s.cutouts.push(OpenSpan { from: time(r.get(1)?)?, to: opt_time(to.filter(|&x| x <= at))? });
+        }
+        for (id, s) in out.iter_mut() {
+            let first = since(s);
+            if first < window {
+                s.cutouts = self.cutouts(id, as_of)?;
+            }
+            s.cutouts.retain(|c| c.to.is_none_or(|to| to >= first));
+        }
+        Ok(out)
+    }
+}
+
+/// How far back the plant's cut-outs are read in one query; a cell whose
+/// running load was set earlier reads its own.
+const CUTOUT_WINDOW: chrono::Duration = chrono::Duration::days(60);
