@@ -23,16 +23,26 @@ fn a_database_from_before_the_snapshot_look_ups_upgrades_and_forecasts_the_same(
     common::downgrade_to_before(&tk.db, "007");
     {
         let c = rusqlite::Connection::open(&tk.db).unwrap();
-        let n: i64 =
-            c.query_row("SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end')", [], |r| r.get(0)).unwrap();
+        let n: i64 = c
+            .query_row(
+                "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out')",
+                [],
+                |r| r.get(0),
+            )
+            .unwrap();
         assert_eq!(n, 0);
     }
     assert_eq!(tk.json(&["forecast", "--json"]), now);
     assert_eq!(tk.json(&["forecast", "--at", "2026-03-01T12:00:00Z", "--json"]), before);
     let c = rusqlite::Connection::open(&tk.db).unwrap();
-    let n: i64 =
-        c.query_row("SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end')", [], |r| r.get(0)).unwrap();
-    assert_eq!(n, 2, "the upgrade made both look-ups");
+    let n: i64 = c
+        .query_row(
+            "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out')",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(n, 3, "the upgrade made the look-ups");
     let a01 = now["cells"].as_array().unwrap().iter().find(|c| c["cell"] == "A01").unwrap();
     assert_eq!(a01["shorts"], 2);
     let a02 = now["cells"].as_array().unwrap().iter().find(|c| c["cell"] == "A02").unwrap();

@@ -80,11 +80,11 @@ impl CircuitCurve for StoreCurve<'_> {
 }
 
 /// Each circuit's curve with the span its cells' charges are counted over in
-/// memory: from the earliest running load's set or crop's start on the circuit.
+/// memory: from the earliest instant a charge of its cells is counted from.
 pub(crate) fn slice_curves<'c>(db: Db<'c>, cells: &[(i64, CellInput)], as_of: Time) -> Result<HashMap<i64, SliceCurve<'c>>> {
     let mut from: HashMap<i64, Time> = HashMap::new();
     for (circuit, c) in cells {
-        let first = [c.load.map(|l| l.0), c.crop_started].into_iter().flatten().min().unwrap_or(as_of);
+        let first = c.charges_from().unwrap_or(as_of);
         let e = from.entry(*circuit).or_insert(first);
         *e = (*e).min(first);
     }
@@ -187,7 +187,8 @@ fn left_out_sentence(r: &LearnRow, zone: &PlantZone) -> String {
 /// every cell's state from the batched reads ([`Db::cell_states`]).
 fn snapshots_learnt_at(db: Db<'_>, as_of: Time, only_cell: Option<&str>, learnt_at: Time) -> Result<Vec<(i64, CellInput)>> {
     let Common { cells, params, mut learnt, mut left_out } = common(db, as_of, only_cell, learnt_at)?;
-    let mut states = db.cell_states(as_of)?;
+    let inert = |id: &str| params.get(id).is_some_and(|p| p.anode_kind == crate::domain::layout::AnodeKind::Inert);
+    let mut states = db.cell_states(as_of, inert)?;
     let mut out = Vec::with_capacity(cells.len());
     for c in cells {
         let Some(p) = params.get(&c.id) else { continue };

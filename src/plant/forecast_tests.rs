@@ -162,7 +162,7 @@ fn the_batched_snapshot_is_the_per_cell_one() {
     let slow = super::snapshots_by_cell(p.store.db(), as_of, None, as_of).unwrap();
     assert_eq!(fast.len(), slow.len());
     for ((_, f), (_, s)) in fast.iter().zip(&slow) {
-        let since = [s.load.map(|l| l.0), s.crop_started].into_iter().flatten().min().unwrap_or(as_of);
+        let since = s.charges_from().unwrap_or(as_of);
         let kept: Vec<_> = s.cutouts.iter().copied().filter(|c| c.to.is_none_or(|to| to >= since)).collect();
         assert_eq!(f.cutouts, kept, "{}", f.cell);
         assert_eq!(crate::domain::forecast::CellInput { cutouts: kept.clone(), ..s.clone() }, *f);

@@ -13,6 +13,7 @@ use std::collections::HashMap;
 
 use super::{Db, Result, opt_time, secs, time};
 use crate::domain::charge::{OpenSpan, Time};
+use crate::domain::forecast::charges_from;
 
 /// One cell's state at `as_of`, as the forecast's snapshot needs it.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -28,15 +29,16 @@ pub struct CellState {
     /// Shorts found since the running crop began: total and the last time.
     pub shorts: Option<(u32, Time)>,
     /// The cut-outs known at `as_of` that can still change a charge counted
-    /// from the running load's set or crop's start (every cut-out ending
-    /// before both is left out: it covers no part of any charge the forecast
-    /// or the plan counts), by start; one closed after `as_of` counts as open.
+    /// from [`charges_from`] on (every cut-out ending before it is left out: it
+    /// covers no part of any charge the forecast or the plan counts), by
+    /// start; one closed after `as_of` counts as open.
     pub cutouts: Vec<OpenSpan>,
 }
 
 impl Db<'_> {
-    /// Every active cell's [`CellState`] at `as_of`, by cell id.
-    pub fn cell_states(&self, as_of: Time) -> Result<HashMap<String, CellState>> {
+    /// Every active cell's [`CellState`] at `as_of`, by cell id; `inert` tells
+    /// the inert-anode cells (their load's charge is not counted: see [`charges_from`]).
+    pub fn cell_states(&self, as_of: Time, inert: impl Fn(&str) -> bool) -> Result<HashMap<String, CellState>> {
         let at = secs(as_of);
         let mut out: HashMap<String, CellState> = HashMap::new();
         // per cell: the latest load set and crop begun by `as_of` (running if not
@@ -45,22 +47,29 @@ impl Db<'_> {
         // and the live shorts since the latest crop began
         let mut st = self.c.prepare_cached(
             "WITH s AS MATERIALIZED (SELECT cell.id AS id,
-                 (SELECT x.set_event FROM anode_load x WHERE x.cell_id = cell.id AND x.set_at <= ?1 ORDER BY x.set_at DESC LIMIT 1) AS load,
-                 (SELECT y.started_at FROM crop y WHERE y.cell_id = cell.id AND y.started_at <= ?1 ORDER BY y.started_at DESC LIMIT 1) AS crop
+                 (SELECT x.set_at FROM anode_load x INDEXED BY anode_load_state WHERE x.cell_id = cell.id AND x.set_at <= ?1
+                  ORDER BY x.set_at DESC LIMIT 1) AS set_at,
+                 (SELECT y.started_at FROM crop y INDEXED BY crop_state WHERE y.cell_id = cell.id AND y.started_at <= ?1
+                  ORDER BY y.started_at DESC LIMIT 1) AS crop,
+                 (SELECT e.at FROM event e INDEXED BY event_cell_kind WHERE e.cell_id = cell.id AND e.kind = 'voltage' AND e.at <= ?1
+                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id) ORDER BY e.at DESC LIMIT 1) AS volt_at
                  FROM cell WHERE cell.active = 1)
-             SELECT s.id, l.set_at, l.count, l.mean_kg, l.ended_at, s.crop, c.ended_at,
-                 (SELECT k.efficiency FROM crop k WHERE k.cell_id = s.id AND k.ended_at <= ?1 AND k.efficiency IS NOT NULL
+             SELECT s.id, s.set_at,
+                 (SELECT x.count FROM anode_load x INDEXED BY anode_load_state WHERE x.cell_id = s.id AND x.set_at = s.set_at),
+                 (SELECT x.mean_kg FROM anode_load x INDEXED BY anode_load_state WHERE x.cell_id = s.id AND x.set_at = s.set_at),
+                 (SELECT x.ended_at FROM anode_load x INDEXED BY anode_load_state WHERE x.cell_id = s.id AND x.set_at = s.set_at),
+                 s.crop,
+                 (SELECT y.ended_at FROM crop y INDEXED BY crop_state WHERE y.cell_id = s.id AND y.started_at = s.crop),
+                 (SELECT k.efficiency FROM crop k INDEXED BY crop_state WHERE k.cell_id = s.id AND k.ended_at <= ?1 AND k.efficiency IS NOT NULL
                   ORDER BY k.started_at DESC LIMIT 1),
-                 v.at, v.volts,
-                 (SELECT sum(e.count) FROM event e WHERE e.cell_id = s.id AND e.kind = 'shorts' AND e.at >= s.crop AND e.at <= ?1
-                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id)),
-                 (SELECT max(e.at) FROM event e WHERE e.cell_id = s.id AND e.kind = 'shorts' AND e.at >= s.crop AND e.at <= ?1
-                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id))
-             FROM s
-             LEFT JOIN anode_load l ON l.set_event = s.load
-             LEFT JOIN crop c ON c.cell_id = s.id AND c.started_at = s.crop
-             LEFT JOIN event v ON v.id = (SELECT e.id FROM event e WHERE e.cell_id = s.id AND e.kind = 'voltage' AND e.at <= ?1
-                 AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id) ORDER BY e.at DESC, e.id DESC LIMIT 1)",
+                 s.volt_at,
+                 (SELECT e.volts FROM event e INDEXED BY event_cell_kind WHERE e.cell_id = s.id AND e.kind = 'voltage' AND e.at = s.volt_at
+                  AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id) ORDER BY e.id DESC LIMIT 1),
+                 (SELECT sum(e.count) FROM event e INDEXED BY event_cell_kind WHERE e.cell_id = s.id AND e.kind = 'shorts'
+                  AND e.at >= s.crop AND e.at <= ?1 AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id)),
+                 (SELECT max(e.at) FROM event e INDEXED BY event_cell_kind WHERE e.cell_id = s.id AND e.kind = 'shorts'
+                  AND e.at >= s.crop AND e.at <= ?1 AND NOT EXISTS (SELECT 1 FROM event w WHERE w.voids = e.id))
+             FROM s",
         )?;
         let mut rows = st.query([at])?;
         while let Some(r) = rows.next()? {
@@ -91,8 +100,8 @@ impl Db<'_> {
         // instant a charge is counted from (the running load's set or crop's
         // start), or is still open; read for the whole plant from the earliest
         // such instant (a cell idle for longer than the window reads its own)
-        let since = |s: &CellState| [s.load.map(|l| l.0), s.crop_started].into_iter().flatten().min().unwrap_or(as_of);
-        let window = out.values().map(since).min().unwrap_or(as_of).max(as_of - CUTOUT_WINDOW);
+        let since = |id: &str, s: &CellState| charges_from(s.load.map(|l| l.0), s.crop_started, inert(id)).unwrap_or(as_of);
+        let window = out.iter().map(|(id, s)| since(id, s)).min().unwrap_or(as_of).max(as_of - CUTOUT_WINDOW);
         let mut st = self.c.prepare_cached(
             "SELECT cell_id, from_at, to_at, event FROM cutout INDEXED BY cutout_end WHERE to_at >= ?2 AND from_at <= ?1
              UNION ALL
@@ -107,7 +116,7 @@ impl Db<'_> {
             s.cutouts.push(OpenSpan { from: time(r.get(1)?)?, to: opt_time(to.filter(|&x| x <= at))? });
         }
         for (id, s) in out.iter_mut() {
-            let first = since(s);
+            let first = since(id, s);
             if first < window {
                 s.cutouts = self.cutouts(id, as_of)?;
             }
