@@ -36,25 +36,31 @@ now_ns() { date +%s%N; }
 median() { sort -g | awk '{ v[NR] = $1 } END { if (NR % 2) print v[(NR + 1) / 2]; else print (v[NR / 2] + v[NR / 2 + 1]) / 2 }'; }
 ratio() { awk -v a="$1" -v b="$2" 'BEGIN { if (a > 0) printf "%.2f", b / a; else print "-" }'; }
 
-# median seconds of `forecast --json` of binary $1 on database $2; peak RSS (kB) of the last run in $dir/rss
+# median wall seconds of `forecast --json` of binary $1 on database $2; the
+# median CPU seconds (user + system: steadier on a shared machine) in $dir/cpu,
+# the last run's peak RSS (kB) in $dir/rss
 timed() {
   "$1" --db "$2" forecast --json >"$dir/out" # untimed: migrates a copy for a newer binary, warms the cache
+  : >"$dir/cpus"
   for _ in $(seq "$runs"); do
     local t0 t1
     t0=$(now_ns)
-    /usr/bin/time -f %M -o "$dir/rss" "$1" --db "$2" forecast --json >/dev/null
+    /usr/bin/time -f "%M %U %S" -o "$dir/time" "$1" --db "$2" forecast --json >/dev/null
     t1=$(now_ns)
+    awk '{ print $1 > "'"$dir/rss"'"; print $2 + $3 >> "'"$dir/cpus"'" }' "$dir/time"
     awk -v a="$t0" -v b="$t1" 'BEGIN { printf "%.3f\n", (b - a) / 1e9 }'
   done | median
+  median <"$dir/cpus" >"$dir/cpu"
 }
 
-declare -A fig rss
+declare -A fig rss cpu
 for b in base new; do
   for which in SHORT LONG; do
     cp "${!which}" "$dir/$b-$which.db"
     bin=$base; [ $b = new ] && bin=$new
     fig[$b-$which]=$(timed "$bin" "$dir/$b-$which.db")
     rss[$b-$which]=$(awk '{ printf "%.0f", $1 / 1024 }' "$dir/rss")
+    cpu[$b-$which]=$(cat "$dir/cpu")
     cp "$dir/out" "$dir/$b-$which.json"
   done
 done
@@ -63,9 +69,11 @@ for which in SHORT LONG; do
 done
 echo "$(nproc) cores, load average $(cut -d' ' -f1-3 /proc/loadavg) at the end; medians of $runs runs; the forecasts of both binaries are identical" >&2
 echo
-echo "| forecast --json | short history | long history | long / short |"
+echo "| forecast --json: wall (CPU, peak RSS) | short history | long history | long / short, wall (CPU) |"
 echo "|---|---|---|---|"
 for b in base new; do
-  echo "| $b | ${fig[$b-SHORT]} s (${rss[$b-SHORT]} MB) | ${fig[$b-LONG]} s (${rss[$b-LONG]} MB) | $(ratio "${fig[$b-SHORT]}" "${fig[$b-LONG]}")× |"
+  echo "| $b | ${fig[$b-SHORT]} s (${cpu[$b-SHORT]} s, ${rss[$b-SHORT]} MB) | ${fig[$b-LONG]} s (${cpu[$b-LONG]} s, ${rss[$b-LONG]} MB) |" \
+    "$(ratio "${fig[$b-SHORT]}" "${fig[$b-LONG]}")× ($(ratio "${cpu[$b-SHORT]}" "${cpu[$b-LONG]}")×) |"
 done
-echo "| new / base | $(ratio "${fig[base-SHORT]}" "${fig[new-SHORT]}")× | $(ratio "${fig[base-LONG]}" "${fig[new-LONG]}")× | |"
+echo "| new / base, wall (CPU) | $(ratio "${fig[base-SHORT]}" "${fig[new-SHORT]}")× ($(ratio "${cpu[base-SHORT]}" "${cpu[new-SHORT]}")×) |" \
+  "$(ratio "${fig[base-LONG]}" "${fig[new-LONG]}")× ($(ratio "${cpu[base-LONG]}" "${cpu[new-LONG]}")×) | |"

@@ -59,15 +59,6 @@ impl<'c> SliceCurve<'c> {
         self.store.projection()
     }
 
-    /// How many readings are held (for the memory figures).
-    pub fn len(&self) -> usize {
-        self.points.len()
-    }
-
-    pub fn is_empty(&self) -> bool {
-        self.points.is_empty()
-    }
-
     fn outages(&self) -> &[crate::domain::charge::Span] {
         &self.store.projection().outages
     }
