@@ -25,7 +25,7 @@ fn a_database_from_before_the_snapshot_look_ups_upgrades_and_forecasts_the_same(
         let c = rusqlite::Connection::open(&tk.db).unwrap();
         let n: i64 = c
             .query_row(
-                "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out')",
+                "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out', 'reading_flagged')",
                 [],
                 |r| r.get(0),
             )
@@ -37,12 +37,12 @@ fn a_database_from_before_the_snapshot_look_ups_upgrades_and_forecasts_the_same(
     let c = rusqlite::Connection::open(&tk.db).unwrap();
     let n: i64 = c
         .query_row(
-            "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out')",
+            "SELECT count(*) FROM sqlite_master WHERE name IN ('event_cell_kind', 'cutout_end', 'learn_weighing_left_out', 'reading_flagged')",
             [],
             |r| r.get(0),
         )
         .unwrap();
-    assert_eq!(n, 3, "the upgrade made the look-ups");
+    assert_eq!(n, 4, "the upgrade made the look-ups");
     let a01 = now["cells"].as_array().unwrap().iter().find(|c| c["cell"] == "A01").unwrap();
     assert_eq!(a01["shorts"], 2);
     let a02 = now["cells"].as_array().unwrap().iter().find(|c| c["cell"] == "A02").unwrap();

@@ -82,16 +82,24 @@ impl CircuitCurve for StoreCurve<'_> {
 /// Each circuit's curve with the span its cells' charges are counted over in
 /// memory: from the earliest instant a charge of its cells is counted from.
 pub(crate) fn slice_curves<'c>(db: Db<'c>, cells: &[(i64, CellInput)], as_of: Time) -> Result<HashMap<i64, SliceCurve<'c>>> {
-    let mut from: HashMap<i64, Time> = HashMap::new();
+    slice_curves_read(db, cells, as_of, None)
+}
+
+/// [`slice_curves`] with [`SliceCurve::read`]'s choice forced (tests).
+fn slice_curves_read<'c>(db: Db<'c>, cells: &[(i64, CellInput)], as_of: Time, whole: Option<bool>) -> Result<HashMap<i64, SliceCurve<'c>>> {
+    // per circuit: where its span starts, and every instant a charge is counted from or to
+    let mut span: HashMap<i64, (Time, Vec<Time>)> = HashMap::new();
     for (circuit, c) in cells {
         let first = c.charges_from().unwrap_or(as_of);
-        let e = from.entry(*circuit).or_insert(first);
-        *e = (*e).min(first);
+        let e = span.entry(*circuit).or_insert((first, Vec::new()));
+        e.0 = e.0.min(first);
+        e.1.extend(c.load.map(|l| l.0).into_iter().chain(c.crop_started));
+        e.1.extend(c.cutouts.iter().flat_map(|s| std::iter::once(s.from).chain(s.to)));
     }
-    let mut curves = HashMap::with_capacity(from.len());
+    let mut curves = HashMap::with_capacity(span.len());
     for c in db.circuits()? {
-        if let Some(&f) = from.get(&c.id) {
-            curves.insert(c.id, SliceCurve::new(db, c.id, as_of, f)?);
+        if let Some((from, instants)) = span.get(&c.id) {
+            curves.insert(c.id, SliceCurve::read(db, c.id, as_of, *from, instants, whole)?);
         }
     }
     Ok(curves)
@@ -250,7 +258,7 @@ fn circuit_warnings<C: CircuitCurve>(db: Db<'_>, zone: &PlantZone, name: &str, i
     let at = |t: Time| zone.local(t).format("%m-%d %H:%M").to_string();
     let since = as_of - WARNING_LOOKBACK;
     let mut v = Vec::new();
-    for g in db.reading_gaps(id, since, as_of)? {
+    for g in db.flagged_gaps(id, since, as_of)? {
         v.push(w(
             "reading_gap",
             format!(
@@ -264,7 +272,7 @@ fn circuit_warnings<C: CircuitCurve>(db: Db<'_>, zone: &PlantZone, name: &str, i
             Some(g.to),
         ));
     }
-    for (t, a) in db.live_readings_in_outages(id, since, as_of)? {
+    for (t, a) in db.flagged_live_in_outages(id, since, as_of)? {
         v.push(w(
             "reading_in_outage",
             format!("a reading of {a} A on {name} at {} ({}) falls inside a logged outage; it was ignored", at(t), relative(t, as_of)),

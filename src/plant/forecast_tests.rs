@@ -122,6 +122,14 @@ proptest! {
             let fast = p.forecast(as_of, None).unwrap();
             let by_cell = forecast_by_cell(p.store.db(), as_of).unwrap();
             prop_assert_eq!(&fast, &by_cell, "as of {}", as_of);
+            // both ways of holding the curve: the whole span, the readings around each instant
+            let db = p.store.db();
+            let cells = super::snapshots(db, as_of, None).unwrap();
+            for whole in [true, false] {
+                let curves = super::slice_curves_read(db, &cells, as_of, Some(whole)).unwrap();
+                let f = super::forecast_of(db, &cells, &curves, as_of).unwrap();
+                prop_assert_eq!(&f, &by_cell, "as of {}, whole span {}", as_of, whole);
+            }
             let full = p.store.preview(|db| -> crate::plant::Result<_> {
                 for c in CELLS {
                     rebuild(db, c, false)?;

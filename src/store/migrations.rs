@@ -89,7 +89,7 @@ mod tests {
         .unwrap();
         assert!(c.execute("INSERT INTO approved_job VALUES (1, '2026-03-03', 'repair', 'A01')", []).is_err());
         // 007: the snapshot look-ups exist and the old rows are still found through them
-        for name in ["event_cell_kind", "cutout_end", "learn_weighing_left_out"] {
+        for name in ["event_cell_kind", "cutout_end", "learn_weighing_left_out", "reading_flagged"] {
             let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
             assert_eq!(n, 1, "{name}");
         }

@@ -12,7 +12,7 @@ use rusqlite::params;
 use std::collections::HashMap;
 
 use super::{Db, Result, opt_time, secs, time};
-use crate::domain::charge::{OpenSpan, Time};
+use crate::domain::charge::{OpenSpan, Span, Time};
 use crate::domain::forecast::charges_from;
 
 /// One cell's state at `as_of`, as the forecast's snapshot needs it.
@@ -123,6 +123,37 @@ impl Db<'_> {
             s.cutouts.retain(|c| c.to.is_none_or(|to| to >= first));
         }
         Ok(out)
+    }
+}
+
+impl Db<'_> {
+    /// What `reading_gaps` answers (stretches between readings longer than the
+    /// gap limit, not covered by an outage, ending after `since` and by
+    /// `until`), from the readings flagged with a gap (migration 007's
+    /// `reading_flagged`) instead of every reading of the window.
+    pub fn flagged_gaps(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<Span>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT r.t, (SELECT p.t FROM reading p WHERE p.circuit_id = ?1 AND p.valid = 1 AND p.t < r.t ORDER BY p.t DESC LIMIT 1)
+             FROM reading r INDEXED BY reading_flagged WHERE r.circuit_id = ?1 AND r.gap_before = 1 AND r.valid = 1 AND r.t > ?2 AND r.t <= ?3 ORDER BY r.t",
+        )?;
+        let mut v = Vec::new();
+        let mut rows = st.query(params![circuit_id, secs(since), secs(until)])?;
+        while let Some(r) = rows.next()? {
+            if let Some(from) = opt_time(r.get(1)?)? {
+                v.push(Span { from, to: time(r.get(0)?)? });
+            }
+        }
+        Ok(v)
+    }
+
+    /// What `live_readings_in_outages` answers (readings inside an outage that
+    /// showed current, in `(since, until]`), from the flagged readings only.
+    pub fn flagged_live_in_outages(&self, circuit_id: i64, since: Time, until: Time) -> Result<Vec<(Time, f64)>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT t, amps FROM reading INDEXED BY reading_flagged WHERE circuit_id = ?1 AND valid = 0 AND amps > 0 AND t > ?2 AND t <= ?3 ORDER BY t",
+        )?;
+        let v = st.query_map(params![circuit_id, secs(since), secs(until)], |r| Ok((time(r.get(0)?)?, r.get(1)?)))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 }
 

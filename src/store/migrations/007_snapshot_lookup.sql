@@ -14,3 +14,6 @@ CREATE INDEX cutout_end ON cutout(to_at, cell_id, from_at);
 -- The weighings left out of learning in the warnings' window: only those rows,
 -- not every weighing of the window.
 CREATE INDEX learn_weighing_left_out ON learn_weighing(ended_at) WHERE left_out IS NOT NULL;
+-- The readings the warnings name (a gap before them, or ignored inside an
+-- outage): only those rows, so the warnings' window is not a scan of every reading in it.
+CREATE INDEX reading_flagged ON reading(circuit_id, t) WHERE gap_before = 1 OR valid = 0;
