@@ -60,10 +60,11 @@ fn op() -> impl Strategy<Value = Op> {
     ]
 }
 
-/// Hourly readings of C1 that wander between 20 and 40 kA.
+/// Hourly readings of C1 that wander between 20 and 40 kA, with two holes (a
+/// gap the warnings name, unless an outage covers it).
 fn readings() -> String {
     let mut s = String::from("time,circuit,amps\n");
-    for h in 0..=HOURS {
+    for h in (0..=HOURS).filter(|h| !(150..154).contains(h) && !(300..303).contains(h)) {
         let amps = 30_000.0 + 10_000.0 * (f64::from(h) * 0.37).sin();
         s.push_str(&format!("{},C1,{amps:.1}\n", at(h).to_rfc3339()));
     }
@@ -119,6 +120,13 @@ proptest! {
         p.import_current(readings().as_bytes(), "c1.csv", at(HOURS)).unwrap();
         play(&mut p, &ops);
         for as_of in [at(when), at(HOURS + 24)] {
+            // the warnings' readings from the flagged ones are those the whole window gives
+            let db = p.store.db();
+            let c1 = db.circuit("C1").unwrap().unwrap().id;
+            for since in [at(0), as_of - chrono::Duration::days(30), at(200)] {
+                prop_assert_eq!(db.flagged_gaps(c1, since, as_of).unwrap(), db.reading_gaps(c1, since, as_of).unwrap());
+                prop_assert_eq!(db.flagged_live_in_outages(c1, since, as_of).unwrap(), db.live_readings_in_outages(c1, since, as_of).unwrap());
+            }
             let fast = p.forecast(as_of, None).unwrap();
             let by_cell = forecast_by_cell(p.store.db(), as_of).unwrap();
             prop_assert_eq!(&fast, &by_cell, "as of {}", as_of);
