@@ -51,7 +51,23 @@ pub struct CellInput {
     pub left_out: Vec<String>,
 }
 
+/// The first instant any charge of a cell is counted from, by the forecast and
+/// the plan alike: the running load's set or the running crop's start, whichever
+/// is earlier; for an inert-anode cell with a crop, the crop's start (its
+/// load's charge is never counted). `None`: no charge is counted.
+pub fn charges_from(load_set: Option<Time>, crop_started: Option<Time>, inert: bool) -> Option<Time> {
+    match (load_set, crop_started) {
+        (_, Some(c)) if inert => Some(c),
+        (l, c) => l.into_iter().chain(c).min(),
+    }
+}
+
 impl CellInput {
+    /// [`charges_from`] for this cell.
+    pub fn charges_from(&self) -> Option<Time> {
+        charges_from(self.load.map(|l| l.0), self.crop_started, self.params.anode_kind == AnodeKind::Inert)
+    }
+
     /// The cell's cathodes at its learnt efficiency.
     pub fn cathodes(&self) -> Cathodes {
         Cathodes { count: self.params.cathodes_per_cell, anodes: self.params.anodes_per_cell, efficiency: self.learnt.cathode.value }
@@ -152,8 +168,14 @@ pub fn forecast_cell<C: Curve>(input: &CellInput, curve: &C, as_of: Time) -> Res
     let mut charge = None;
     let mut anode = None;
     if let Some((set_at, count, initial_kg)) = input.load {
-        let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
-        charge = Some(q);
+        // an inert cell's charge is its crop's when it has one (below): its load's is not counted
+        let q = if p.anode_kind == AnodeKind::Inert && input.crop_started.is_some() {
+            Cum::default()
+        } else {
+            let q = cell_charge(curve, &input.cutouts, set_at, as_of)?;
+            charge = Some(q);
+            q
+        };
         let load = input.anode_load(count, initial_kg);
         anode = Some(if p.anode_kind == AnodeKind::Inert {
             AnodeForecast {

@@ -116,12 +116,12 @@ fn hard_short(kind: AnodeKind, v: f64) -> bool {
 /// against their own median; inert-anode and refining cells never share one.
 pub fn rank(cells: &[PatrolInput]) -> Vec<PatrolCell> {
     let mut out = Vec::with_capacity(cells.len());
-    let group = |c: &PatrolInput| (c.circuit.clone(), c.section.clone(), c.anode_kind == AnodeKind::Inert);
-    let mut groups: Vec<(String, String, bool)> = cells.iter().map(group).collect();
-    groups.sort();
-    groups.dedup();
-    for g in groups {
-        let members: Vec<&PatrolInput> = cells.iter().filter(|c| group(c) == g).collect();
+    // one pass into the groups, in the groups' order (a filter per group was quadratic at 3 000 cells)
+    let mut groups: std::collections::BTreeMap<(&str, &str, bool), Vec<&PatrolInput>> = std::collections::BTreeMap::new();
+    for c in cells {
+        groups.entry((c.circuit.as_str(), c.section.as_str(), c.anode_kind == AnodeKind::Inert)).or_default().push(c);
+    }
+    for members in groups.into_values() {
         let volts: Vec<f64> = members.iter().map(|c| c.voltage.1).collect();
         let Some((median, sd)) = robust_centre(&volts) else { continue };
         let scale = sd.max(VOLT_SCALE_FLOOR);

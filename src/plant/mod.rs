@@ -356,8 +356,15 @@ fn rebuild(db: Db<'_>, cell: &str, reuse: bool) -> Result<()> {
 /// then have a different charge: recompute their figures.
 pub(crate) fn refresh_crops(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {
     refresh_crop_figures(db, circuit_id, from)?;
-    // their efficiencies and the scrap factors after `from` changed with the charge
-    learn::relearn(db, &db.cells_weighed_since(circuit_id, from)?)
+    // their efficiencies and the scrap factors after `from` changed with the
+    // charge: every cell weighed since, including those whose weighing had no
+    // charge to learn from before (an outage undone gives it one back)
+    let mut cells = db.cells_weighed_since(circuit_id, from)?;
+    cells.extend(db.crops_ended_since(circuit_id, from)?.into_iter().map(|c| c.0));
+    cells.extend(db.cells_scrapped_since(circuit_id, from)?);
+    cells.sort();
+    cells.dedup();
+    learn::relearn(db, &cells)
 }
 
 fn refresh_crop_figures(db: Db<'_>, circuit_id: i64, from: Time) -> Result<()> {

@@ -186,10 +186,20 @@ impl Db<'_> {
                  (SELECT min(valid_from) FROM cell_params q WHERE q.cell_id = p.cell_id))",
         )?;
         let mut out = HashMap::new();
+        // the cells of a section share their parameters' text: parse each text once
+        let mut parsed: HashMap<String, CellParams> = HashMap::new();
         let mut rows = st.query([secs(t)])?;
         while let Some(r) = rows.next()? {
-            let json: String = r.get(1)?;
-            out.insert(r.get(0)?, serde_json::from_str(&json).map_err(corrupt)?);
+            let json = r.get_ref(1)?.as_str().map_err(|e| corrupt(e.to_string()))?;
+            let p = match parsed.get(json) {
+                Some(p) => p.clone(),
+                None => {
+                    let p: CellParams = serde_json::from_str(json).map_err(corrupt)?;
+                    parsed.insert(json.to_string(), p.clone());
+                    p
+                }
+            };
+            out.insert(r.get(0)?, p);
         }
         Ok(out)
     }

@@ -213,6 +213,16 @@ impl Db<'_> {
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
+    /// Cells on a circuit with anodes pulled and their scrap weighed at or after `t`.
+    pub fn cells_scrapped_since(&self, circuit_id: i64, t: Time) -> Result<Vec<String>> {
+        let mut st = self.c.prepare_cached(
+            "SELECT DISTINCT l.cell_id FROM anode_load l JOIN cell ON cell.id = l.cell_id JOIN section ON section.id = cell.section_id
+             WHERE section.circuit_id = ?1 AND l.ended_at >= ?2 AND l.scrap_kg IS NOT NULL ORDER BY l.cell_id",
+        )?;
+        let v = st.query_map(params![circuit_id, secs(t)], |r| r.get(0))?;
+        Ok(v.collect::<rusqlite::Result<_>>()?)
+    }
+
     pub fn set_crop_figures(&self, cell: &str, started_at: Time, f: CropFigures) -> Result<()> {
         self.c.execute(
             "UPDATE crop SET charge_ah = ?3, estimated_ah = ?4, efficiency = ?5 WHERE cell_id = ?1 AND started_at = ?2",

@@ -13,6 +13,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
     ("005_drafts", include_str!("migrations/005_drafts.sql")),
     ("006_approved_plan", include_str!("migrations/006_approved_plan.sql")),
+    ("007_snapshot_lookup", include_str!("migrations/007_snapshot_lookup.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -87,6 +88,13 @@ mod tests {
         )
         .unwrap();
         assert!(c.execute("INSERT INTO approved_job VALUES (1, '2026-03-03', 'repair', 'A01')", []).is_err());
+        // 007: the snapshot look-ups exist and the old rows are still found through them
+        for name in ["event_cell_kind", "cutout_end", "learn_weighing_left_out", "reading_flagged"] {
+            let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
+            assert_eq!(n, 1, "{name}");
+        }
+        let crops: i64 = c.query_row("SELECT count(*) FROM crop WHERE cell_id = 'A01'", [], |r| r.get(0)).unwrap();
+        assert_eq!(crops, 1);
     }
 
     #[test]

@@ -6,6 +6,7 @@
 //! so the same query code serves both.
 
 mod cells;
+mod curve_slice;
 mod drafts;
 mod events;
 mod learnt;
@@ -14,6 +15,7 @@ mod plan_curve;
 mod plan_record;
 mod readings;
 mod report;
+mod snapshot;
 
 use rusqlite::{Connection, OpenFlags, TransactionBehavior};
 use std::path::{Path, PathBuf};
@@ -27,10 +29,12 @@ pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, WeighingKind};
 /// The tables a tankbook database has from its first migration on: a file
 /// without them is not ours.
 const OUR_TABLES: [&str; 4] = ["plant_meta", "circuit", "reading", "event"];
+pub use curve_slice::{SLICE_SPAN, SliceCurve};
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use plan_curve::PlanCurve;
 pub use readings::StoreCurve;
 pub use report::CropRow;
+pub use snapshot::CellState;
 
 use crate::domain::charge::Time;
 
@@ -192,6 +196,19 @@ impl Store {
     /// A read view.
     pub fn db(&self) -> Db<'_> {
         Db { c: &self.conn }
+    }
+
+    /// Runs `f` in one read transaction (one shared lock for all its queries,
+    /// and one consistent view), or inside the transaction already open.
+    pub fn read<T, E: From<StoreError>>(&self, f: impl FnOnce(Db<'_>) -> Result<T, E>) -> Result<T, E> {
+        if !self.conn.is_autocommit() {
+            return f(Db { c: &self.conn });
+        }
+        let tx = self.conn.unchecked_transaction().map_err(StoreError::from)?;
+        let out = f(Db { c: &tx })?;
+        // nothing was written: ending it either way releases the lock
+        tx.commit().map_err(StoreError::from)?;
+        Ok(out)
     }
 
     /// Runs `f` in one `BEGIN IMMEDIATE` transaction: committed if `f` succeeds,
