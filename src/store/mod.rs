@@ -5,6 +5,7 @@
 //! a borrowed view that both plain reads and [`Store::write`] transactions hand out,
 //! so the same query code serves both.
 
+mod append;
 mod cells;
 mod drafts;
 mod events;
@@ -18,6 +19,7 @@ use rusqlite::{Connection, OpenFlags, TransactionBehavior};
 use std::path::{Path, PathBuf};
 use std::time::Duration as StdDuration;
 
+pub use append::{OpenRecords, params_in_force};
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use drafts::DraftRow;
 pub use events::{CropFigures, LoadRow, NewEvent};
