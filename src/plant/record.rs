@@ -161,11 +161,79 @@ pub(super) struct Batch<'c> {
     params: HashMap<String, Vec<(Time, CellParams)>>,
     curves: HashMap<i64, StoreCurve<'c>>,
     zone: Option<PlantZone>,
+    /// Each cell's section (an index into `sections`).
+    section_of: HashMap<String, usize>,
+    /// A section's cells and, once read, its learn rows in the store's order
+    /// (by cell, kind, weighing time), kept up to date with the rows added.
+    sections: Vec<(Vec<String>, Option<Vec<Weighed>>)>,
 }
 
 impl<'c> Batch<'c> {
     pub(super) fn new(db: Db<'c>) -> Self {
-        Batch { db, cells: HashMap::new(), params: HashMap::new(), curves: HashMap::new(), zone: None }
+        Batch {
+            db,
+            cells: HashMap::new(),
+            params: HashMap::new(),
+            curves: HashMap::new(),
+            zone: None,
+            section_of: HashMap::new(),
+            sections: Vec::new(),
+        }
+    }
+
+    fn section(&mut self, cell: &str) -> Result<usize> {
+        if let Some(&i) = self.section_of.get(cell) {
+            return Ok(i);
+        }
+        let cells = self.db.section_cells(cell)?;
+        let i = self.sections.len();
+        for c in &cells {
+            self.section_of.insert(c.clone(), i);
+        }
+        // a cell in no section (not in the layout) gets a section of its own, with no rows
+        self.section_of.insert(cell.to_string(), i);
+        self.sections.push((cells, None));
+        Ok(i)
+    }
+
+    /// The cell's learnt values from the weighings at or before `until` (what
+    /// the section's stored rows teach), its section's rows read once per batch.
+    fn learnt_one(&mut self, cell: &str, until: Time, params: &CellParams) -> Result<crate::domain::learn::CellLearnt> {
+        let i = self.section(cell)?;
+        if self.sections[i].1.is_none() {
+            let cells = &self.sections[i].0;
+            let place: HashMap<&str, usize> = cells.iter().enumerate().map(|(k, c)| (c.as_str(), k)).collect();
+            let rows = self.db.section_learn_rows(cell, far_future())?;
+            let w = rows.iter().filter_map(|r| place.get(r.cell.as_str()).map(|&k| Weighed::of(k, r))).collect();
+            self.sections[i].1 = Some(w);
+        }
+        let (cells, rows) = &self.sections[i];
+        let mut crop = vec![Vec::new(); cells.len()];
+        let mut scrap = vec![Vec::new(); cells.len()];
+        for w in rows.iter().flatten().filter(|w| w.ended_at <= until.timestamp()) {
+            let by_cell = if w.scrap { &mut scrap } else { &mut crop };
+            by_cell[w.cell].push(w.value);
+        }
+        Ok(learn::learnt_one_of(&crop, &scrap, cells.iter().position(|c| c == cell), params))
+    }
+
+    /// A learn row was added to the store.
+    fn row_added(&mut self, row: &LearnRow) {
+        let Some(&i) = self.section_of.get(&row.cell) else { return };
+        let (cells, rows) = &mut self.sections[i];
+        let (Some(rows), Some(k)) = (rows.as_mut(), cells.iter().position(|c| *c == row.cell)) else { return };
+        // the store's order: cell (by name), kind, weighing time, start
+        let w = Weighed::of(k, row);
+        let key = |x: &Weighed| (&cells[x.cell], x.scrap, x.ended_at, x.started_at);
+        let at = rows.partition_point(|r| key(r) < key(&w));
+        rows.insert(at, w);
+    }
+
+    /// The cell's learn rows were rewritten: its section's are read again when needed.
+    fn rows_replaced(&mut self, cell: &str) {
+        if let Some(&i) = self.section_of.get(cell) {
+            self.sections[i].1 = None;
+        }
     }
 
     fn cell(&mut self, cell: &str) -> Result<CellRow> {
@@ -208,6 +276,28 @@ impl<'c> Batch<'c> {
     }
 }
 
+/// A learn row as a batch's checks need it (a section holds thousands).
+struct Weighed {
+    /// The cell's place in its section.
+    cell: usize,
+    scrap: bool,
+    ended_at: i64,
+    started_at: i64,
+    value: f64,
+}
+
+impl Weighed {
+    fn of(cell: usize, r: &LearnRow) -> Weighed {
+        Weighed {
+            cell,
+            scrap: r.kind == WeighingKind::Scrap,
+            ended_at: r.ended_at.timestamp(),
+            started_at: r.started_at.timestamp(),
+            value: r.value,
+        }
+    }
+}
+
 /// Records one entry; returns it and the cell whose learn rows it refreshed
 /// (its section is relearnt by the caller, once per write).
 fn record_in(db: Db<'_>, batch: &mut Batch<'_>, entry: &Entry, by: &str, opts: &Opts) -> Result<(Recorded, Option<String>)> {
@@ -246,7 +336,7 @@ fn check_for_cell(db: Db<'_>, batch: &mut Batch<'_>, entry: &Entry, cell: &str) 
                 let cuts = db.cutouts(cell, far_future())?;
                 let q = cell_charge(batch.curve(row.circuit_id)?, &cuts, set_at, at)?.total();
                 // what the weighings logged before this one teach of the cell
-                let learnt = learn::learnt_one(db, cell, at, &params)?.anode;
+                let learnt = batch.learnt_one(cell, at, &params)?.anode;
                 let load = AnodeLoad {
                     initial_kg: mean,
                     count,
@@ -339,12 +429,16 @@ fn apply(db: Db<'_>, batch: &mut Batch<'_>, entry: &Entry, new: &NewEvent, id: i
             rebuild_cell(db, cell)?;
             if changes_learning(entry.kind()) {
                 learn::refresh_cell(db, cell, entry.kind() == EventKind::Harvest)?;
+                batch.rows_replaced(cell);
             }
         }
         return Ok(changes_learning(entry.kind()).then(|| cell.to_string()));
     }
-    // an outage or a setpoint changes the circuit's curve
+    // an outage or a setpoint changes the circuit's curve (and an outage the crops' charges and learn rows)
     batch.curves.clear();
+    for s in &mut batch.sections {
+        s.1 = None;
+    }
     if let Entry::Outage { circuit, from, .. } = entry
         && let Some(c) = db.circuit(circuit)?
     {
@@ -446,6 +540,7 @@ fn append_to_history(db: Db<'_>, batch: &mut Batch<'_>, cell: &str, new: &NewEve
     db.replace_open_records(cell, &open, &tail, &figures)?;
     for r in &rows {
         db.add_learn_row(r)?;
+        batch.row_added(r);
     }
     Ok(true)
 }

@@ -45,8 +45,9 @@ impl Db<'_> {
 
     /// The cell's open records as stored; `None` when more than one of a kind is open (then only a full replay knows).
     pub fn open_records(&self, cell: &str) -> Result<Option<OpenRecords>> {
-        let mut st =
-            self.c.prepare_cached("SELECT set_event, set_at, count, mean_kg FROM anode_load WHERE cell_id = ?1 AND ended_at IS NULL")?;
+        let mut st = self.c.prepare_cached(
+            "SELECT set_event, set_at, count, mean_kg FROM anode_load INDEXED BY anode_load_open WHERE cell_id = ?1 AND ended_at IS NULL",
+        )?;
         let loads: Vec<LoadRec> = st
             .query_map([cell], |r| {
                 Ok(LoadRec {
@@ -60,14 +61,15 @@ impl Db<'_> {
                 })
             })?
             .collect::<rusqlite::Result<_>>()?;
-        let mut st = self.c.prepare_cached("SELECT started_at FROM crop WHERE cell_id = ?1 AND ended_at IS NULL")?;
+        let mut st = self.c.prepare_cached("SELECT started_at FROM crop INDEXED BY crop_open WHERE cell_id = ?1 AND ended_at IS NULL")?;
         // the crop's first event is not stored (nor needed to write it again)
         let crops: Vec<CropRec> = st
             .query_map([cell], |r| {
                 Ok(CropRec { start_event: 0, started_at: time(r.get(0)?)?, ended_at: None, harvest_event: None, harvest_kg: None })
             })?
             .collect::<rusqlite::Result<_>>()?;
-        let mut st = self.c.prepare_cached("SELECT event, from_at FROM cutout WHERE cell_id = ?1 AND to_at IS NULL")?;
+        let mut st =
+            self.c.prepare_cached("SELECT event, from_at FROM cutout INDEXED BY cutout_open WHERE cell_id = ?1 AND to_at IS NULL")?;
         let cuts: Vec<CutoutRec> = st
             .query_map([cell], |r| Ok(CutoutRec { event: r.get(0)?, span: OpenSpan { from: time(r.get(1)?)?, to: None } }))?
             .collect::<rusqlite::Result<_>>()?;

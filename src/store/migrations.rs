@@ -13,6 +13,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("004_damage_lookup", include_str!("migrations/004_damage_lookup.sql")),
     ("005_drafts", include_str!("migrations/005_drafts.sql")),
     ("006_approved_plan", include_str!("migrations/006_approved_plan.sql")),
+    ("008_open_records", include_str!("migrations/008_open_records.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -87,6 +88,18 @@ mod tests {
         )
         .unwrap();
         assert!(c.execute("INSERT INTO approved_job VALUES (1, '2026-03-03', 'repair', 'A01')", []).is_err());
+        // 008: the old open crop is found through its partial index
+        for name in ["anode_load_open", "crop_open", "cutout_open"] {
+            let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
+            assert_eq!(n, 1, "{name}");
+        }
+        let open = store.db().open_records("A01").unwrap().unwrap();
+        assert_eq!(open.crop.map(|c| c.started_at.timestamp()), Some(1000));
+        assert!(open.load.is_none() && open.cutout.is_none());
+        let plan: String = c
+            .query_row("EXPLAIN QUERY PLAN SELECT started_at FROM crop WHERE cell_id = 'A01' AND ended_at IS NULL", [], |r| r.get(3))
+            .unwrap();
+        assert!(plan.contains("crop_open"), "{plan}");
     }
 
     #[test]
