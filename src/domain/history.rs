@@ -326,7 +326,7 @@ mod tests {
     fn resuming_from_the_open_records_equals_the_whole_replay() {
         let mut open = ev(5, EventKind::Cutout, 400);
         open.end = None;
-        let evs = vec![
+        let evs = [
             ev(1, EventKind::Anodes, 0),
             ev(2, EventKind::Harvest, 170),
             ev(3, EventKind::Scrap, 400),
