@@ -35,8 +35,9 @@ impl Plant {
     /// one change nothing.
     pub fn record(&mut self, entry: &Entry, opts: &Opts) -> Result<Recorded> {
         let by = initials(&opts.by)?;
+        let whole = !self.damage.is_empty();
         self.store.write(|db| {
-            let (r, touched) = record_in(db, &mut Batch::new(db), entry, &by, opts)?;
+            let (r, touched) = record_in(db, &mut Batch::new(db, whole), entry, &by, opts)?;
             learn::relearn_sections(db, &touched.into_iter().collect::<Vec<_>>())?;
             Ok(r)
         })
@@ -45,10 +46,11 @@ impl Plant {
     /// Records many entries in one transaction, in order: all go in, or none
     /// (the first refused entry is reported with its position).
     pub fn record_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
+        let whole = !self.damage.is_empty();
         self.store.write(|db| {
             let mut out = Vec::with_capacity(entries.len());
             let mut touched = Vec::new();
-            let mut batch = Batch::new(db);
+            let mut batch = Batch::new(db, whole);
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
                 let (r, cell) = record_in(db, &mut batch, entry, &by, opts).map_err(|e| match e {
@@ -73,9 +75,10 @@ impl Plant {
     /// Runs the checks of a batch and rolls it back: what `record_batch` would
     /// say, without writing anything (the screens' review step).
     pub fn check_batch(&mut self, entries: &[(Entry, Opts)]) -> Result<Vec<Recorded>> {
+        let whole = !self.damage.is_empty();
         self.store.preview(|db| {
             let mut out = Vec::with_capacity(entries.len());
-            let mut batch = Batch::new(db);
+            let mut batch = Batch::new(db, whole);
             for (i, (entry, opts)) in entries.iter().enumerate() {
                 let by = initials(&opts.by).map_err(|e| e.in_batch(i))?;
                 out.push(record_in(db, &mut batch, entry, &by, opts).map_err(|e| e.in_batch(i))?.0);
@@ -161,6 +164,9 @@ pub(super) struct Batch<'c> {
     params: HashMap<String, Vec<(Time, CellParams)>>,
     curves: HashMap<i64, StoreCurve<'c>>,
     zone: Option<PlantZone>,
+    /// Replay every cell's whole history: the log holds entries this version
+    /// cannot read, and only a whole replay meets (and refuses) them.
+    whole: bool,
     /// Each cell's section (an index into `sections`).
     section_of: HashMap<String, usize>,
     /// A section's cells and, once read, its learn rows in the store's order
@@ -169,9 +175,10 @@ pub(super) struct Batch<'c> {
 }
 
 impl<'c> Batch<'c> {
-    pub(super) fn new(db: Db<'c>) -> Self {
+    pub(super) fn new(db: Db<'c>, whole: bool) -> Self {
         Batch {
             db,
+            whole,
             cells: HashMap::new(),
             params: HashMap::new(),
             curves: HashMap::new(),
@@ -457,7 +464,7 @@ fn apply(db: Db<'_>, batch: &mut Batch<'_>, entry: &Entry, new: &NewEvent, id: i
 /// event at the end closes only open ones, and a cut-out from its time on
 /// overlaps no closed crop or load), so their figures and learn rows too.
 fn append_to_history(db: Db<'_>, batch: &mut Batch<'_>, cell: &str, new: &NewEvent, id: i64) -> Result<bool> {
-    if db.replayed_event_after(cell, new.at, new.kind)? {
+    if batch.whole || db.replayed_event_after(cell, new.at, new.kind)? {
         return Ok(false);
     }
     let Some(open) = db.open_records(cell)? else { return Ok(false) };
