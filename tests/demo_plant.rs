@@ -188,3 +188,24 @@ fn entries_at_the_end_give_what_a_full_replay_gives() {
     tk.ok(&["undo", "--by", "JD"]);
     assert!(tk.ok(&["check"]).contains("ok"), "after the undos");
 }
+
+/// A database from before migration 008 (no indexes of the open records)
+/// upgrades on open, keeps its rows, and takes entries at the end again.
+#[test]
+fn a_database_from_before_008_upgrades_and_records() {
+    let tk = demo(&["--cells", "20", "--days", "21"]);
+    let before = tk.json(&["forecast", "--json"]);
+    downgrade_to_before(&tk.db, "008");
+    let cell = before["cells"][0]["cell"].as_str().unwrap().to_string();
+    tk.ok(&["log", "voltage", "--cell", &cell, "--at", "2026-11-20T05:00:00Z", "--volts", "0.3", "--by", "JD"]);
+    let c = rusqlite::Connection::open(&tk.db).unwrap();
+    let n: i64 = c
+        .query_row("SELECT count(*) FROM sqlite_master WHERE name IN ('anode_load_open', 'crop_open', 'cutout_open')", [], |r| r.get(0))
+        .unwrap();
+    assert_eq!(n, 3);
+    let after = tk.json(&["forecast", "--json"]);
+    assert_eq!(before["cells"].as_array().unwrap().len(), after["cells"].as_array().unwrap().len(), "the rows kept");
+    assert_eq!(before["cells"][0]["cathode"], after["cells"][0]["cathode"], "a voltage changes no crop");
+    tk.ok(&["log", "cutout", "--cell", &cell, "--from", "2026-11-20T05:10:00Z", "--to", "2026-11-20T05:20:00Z", "--by", "JD"]);
+    assert!(tk.ok(&["check"]).contains("ok"));
+}
