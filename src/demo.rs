@@ -340,10 +340,7 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
         if p.inert {
             last_inert = Some(cell);
         }
-        let mut push = |at: Time, rank: u8, done: Done| {
-            let seq = entries.len() as u32;
-            entries.push(Pending { at: since(at), rank, seq, cell, done });
-        };
+        let mut push = |at: Time, done: Done| entries.push(Pending { at: since(at), cell, done });
         let mut rng = Rng::new(spec.seed, 1000 + i as u64);
         let inert = p.inert;
         let shorted = !inert && rng.unit() < 0.05;
@@ -365,7 +362,8 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     if crop_start.is_none() {
                         crop_start = Some(t);
                     }
-                    Done::Anodes { count, mean_kg }
+                    // whole kilograms, tens of anodes: both fit 16 bits
+                    Done::Anodes { count: count as u16, mean_kg: mean_kg as u16 }
                 }
                 Work::Harvest => {
                     let Some(s) = crop_start else { continue };
@@ -374,18 +372,18 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     let kg = (ECE_KG_PER_AH * q * (eta * (1.0 + 0.012 * rng.normal())).min(0.985)).round();
                     // the next crop starts while anodes are in; an anode change's scrap came just before
                     crop_start = load.map(|_| t);
-                    Done::Harvest(kg)
+                    Done::Harvest(kg as i32)
                 }
                 Work::Scrap => {
                     let Some((set, count, mean)) = load.take() else { continue };
                     let q = cell_charge(curve, &p.cutouts, set, t).unwrap_or_else(|e| match e {}).total();
                     let a =
                         AnodeLoad { initial_kg: mean, count, efficiency: (eta / 0.962).min(1.01), copper_fraction: 0.995, lug_kg: 20.0 };
-                    Done::Scrap((a.remaining_kg(q) * f64::from(count) * (1.0 + 0.015 * rng.normal())).round())
+                    Done::Scrap((a.remaining_kg(q) * f64::from(count) * (1.0 + 0.015 * rng.normal())).round() as i32)
                 }
                 Work::Cutout { hours } => {
                     let to = t + Duration::minutes((hours * 60.0) as i64);
-                    Done::Cutout((to <= now).then_some(since(to)))
+                    Done::Cutout(if to <= now { since(to) } else { STILL_OUT })
                 }
                 Work::Shorts(n) => Done::Shorts(if shorted { n + 2 } else { n }),
                 Work::Voltage(v) => {
@@ -396,16 +394,16 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
                     } else {
                         v + 0.008 * rng.normal()
                     };
-                    Done::Voltage((v * 1000.0).round() / 1000.0)
+                    Done::Voltage((v * 1000.0).round() as i32)
                 }
             };
-            push(t, rank(&w), done);
+            push(t, done);
         }
         if shorted {
             // shorts found and cleared every few days in the cells that have them
             let mut t = start + Duration::hours(30 + (rng.unit() * 40.0) as i64);
             while t < now {
-                push(to_slot(t), 5, Done::Shorts(2 + (rng.unit() * 4.0) as u32));
+                push(to_slot(t), Done::FoundShorts(2 + (rng.unit() * 4.0) as u32));
                 t += Duration::hours(50 + (rng.unit() * 30.0) as i64);
             }
         }
@@ -413,11 +411,10 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
     });
     // One liberator cell's last voltage reads too low for an inert-anode cell: a short or a bad reading.
     if let Some(cell) = last_inert {
-        let seq = entries.len() as u32;
-        entries.push(Pending { at: since(now), rank: 6, seq, cell, done: Done::ForcedVoltage(0.62) });
+        entries.push(Pending { at: since(now), cell, done: Done::ForcedVoltage(620) });
     }
-    // time order; ties in the order generated
-    entries.sort_unstable_by_key(|p| (p.at, p.rank, p.seq));
+    // time order; ties in the order generated (a stable sort)
+    entries.sort_by_key(|p| (p.at, p.done.rank()));
     let n = entries.len() + circuit_entries.len();
     for chunk in entries.chunks(ENTRIES_PER_BATCH) {
         let batch: Vec<(Entry, Opts)> = chunk.iter().map(|p| p.entry(&names[p.cell as usize], start, opts)).collect();
@@ -427,31 +424,51 @@ pub fn build(plant: &mut Plant, spec: &DemoSpec, now: Time) -> Result<DemoSummar
 }
 
 /// An entry waiting for its batch: what the demo generated, without the cell's
-/// name, its times in seconds after the demo's start (32 bytes an entry: a
-/// plant-scale demo holds over a million).
+/// name, its times in seconds after the demo's start (16 bytes an entry: a
+/// plant-scale demo holds one and a half million).
 struct Pending {
     at: u32,
-    rank: u8,
-    /// The order generated, which breaks ties of time and rank.
-    seq: u32,
     cell: u32,
     done: Done,
 }
 
+/// A cut-out's end that means it is still open.
+const STILL_OUT: u32 = u32::MAX;
+
+/// What an entry records, in whole kilograms and millivolts (what the demo
+/// rounds its figures to), so each fits 32 bits.
 #[derive(Clone, Copy)]
 enum Done {
     Anodes {
-        count: u32,
-        mean_kg: f64,
+        count: u16,
+        mean_kg: u16,
     },
-    Harvest(f64),
-    Scrap(f64),
-    /// A cut-out from the entry's time to this end (none: still out).
-    Cutout(Option<u32>),
+    Harvest(i32),
+    Scrap(i32),
+    /// A cut-out from the entry's time to this end ([`STILL_OUT`]: still out).
+    Cutout(u32),
     Shorts(u32),
-    Voltage(f64),
+    /// Shorts found on a patrol of a shorted cell (after the shift's voltages).
+    FoundShorts(u32),
+    Voltage(i32),
     /// A voltage recorded although its check questions it.
-    ForcedVoltage(f64),
+    ForcedVoltage(i32),
+}
+
+impl Done {
+    /// The order of entries at the same time: [`rank`]'s, the patrols' shorts with
+    /// the voltages, the questioned voltage last.
+    fn rank(&self) -> u8 {
+        match self {
+            Done::Scrap(_) => 0,
+            Done::Harvest(_) => 1,
+            Done::Anodes { .. } => 2,
+            Done::Cutout(_) => 3,
+            Done::Shorts(_) => 4,
+            Done::FoundShorts(_) | Done::Voltage(_) => 5,
+            Done::ForcedVoltage(_) => 6,
+        }
+    }
 }
 
 impl Pending {
@@ -459,12 +476,13 @@ impl Pending {
         let time = |s: u32| start + Duration::seconds(i64::from(s));
         let (cell, at) = (cell.to_string(), time(self.at));
         let entry = match self.done {
-            Done::Anodes { count, mean_kg } => Entry::Anodes { cell, at, count, mean_kg },
-            Done::Harvest(total_kg) => Entry::Harvest { cell, at, total_kg },
-            Done::Scrap(total_kg) => Entry::Scrap { cell, at, total_kg },
-            Done::Cutout(to) => Entry::Cutout { cell, from: at, to: to.map(time) },
-            Done::Shorts(count) => Entry::Shorts { cell, at, count },
-            Done::Voltage(volts) | Done::ForcedVoltage(volts) => Entry::Voltage { cell, at, volts },
+            Done::Anodes { count, mean_kg } => Entry::Anodes { cell, at, count: u32::from(count), mean_kg: f64::from(mean_kg) },
+            Done::Harvest(kg) => Entry::Harvest { cell, at, total_kg: f64::from(kg) },
+            Done::Scrap(kg) => Entry::Scrap { cell, at, total_kg: f64::from(kg) },
+            Done::Cutout(to) => Entry::Cutout { cell, from: at, to: (to != STILL_OUT).then(|| time(to)) },
+            Done::Shorts(count) | Done::FoundShorts(count) => Entry::Shorts { cell, at, count },
+            // m / 1000 is the double nearest the rounded volts, as (v * 1000).round() / 1000 was
+            Done::Voltage(mv) | Done::ForcedVoltage(mv) => Entry::Voltage { cell, at, volts: f64::from(mv) / 1000.0 },
         };
         (entry, opts(at, matches!(self.done, Done::ForcedVoltage(_))))
     }

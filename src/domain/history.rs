@@ -140,18 +140,45 @@ pub fn replay_order(e: &Event) -> (Time, u8, i64) {
 pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHistory, Contradiction> {
     let mut ev: Vec<&Event> = events.iter().filter(|e| !e.voided && e.kind != EventKind::Void).collect();
     ev.sort_by_key(|e| replay_order(e));
-    let mut h = CellHistory::default();
-    let mut load: Option<LoadRec> = None;
-    let mut crop: Option<CropRec> = None;
-    let mut open_cut: Option<usize> = None;
-    let no = |e: &Event, message: String| Contradiction { event: e.id, message };
+    let mut r = Replay::default();
     for e in ev {
+        r.step(e, &show)?;
+    }
+    Ok(r.finish())
+}
+
+/// A replay in progress: what the events so far imply, with the load, crop and
+/// cut-out still open. [`Replay::resume`] starts from a cell's open records, so an
+/// event that sorts after all of a cell's events is replayed without the rest.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Replay {
+    h: CellHistory,
+    load: Option<LoadRec>,
+    crop: Option<CropRec>,
+    open_cut: Option<usize>,
+}
+
+impl Replay {
+    /// The state after a history whose open load, crop and cut-out are these.
+    pub fn resume(load: Option<LoadRec>, crop: Option<CropRec>, open_cut: Option<CutoutRec>) -> Replay {
+        let mut h = CellHistory::default();
+        let open_cut = open_cut.map(|c| {
+            h.cutouts.push(c);
+            0
+        });
+        Replay { h, load, crop, open_cut }
+    }
+
+    /// Applies one live event (events in [`replay_order`]).
+    pub fn step(&mut self, e: &Event, show: impl Fn(Time) -> String) -> Result<(), Contradiction> {
+        let no = |e: &Event, message: String| Contradiction { event: e.id, message };
+        let h = &mut self.h;
         match e.kind {
             EventKind::Anodes => {
-                if let Some(l) = &load {
+                if let Some(l) = &self.load {
                     return Err(no(e, format!("anodes were already set at {} and not yet scrapped: log the scrap first", show(l.set_at))));
                 }
-                load = Some(LoadRec {
+                self.load = Some(LoadRec {
                     set_event: e.id,
                     set_at: e.at,
                     count: e.count.unwrap_or(0),
@@ -160,12 +187,13 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                     scrap_event: None,
                     scrap_kg: None,
                 });
-                if crop.is_none() {
-                    crop = Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
+                if self.crop.is_none() {
+                    self.crop =
+                        Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
                 }
             }
             EventKind::Scrap => {
-                let Some(mut l) = load.take() else {
+                let Some(mut l) = self.load.take() else {
                     return Err(no(e, format!("no anodes are in the cell at {} to scrap", show(e.at))));
                 };
                 l.ended_at = Some(e.at);
@@ -174,7 +202,7 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                 h.loads.push(l);
             }
             EventKind::Harvest => {
-                let Some(mut c) = crop.take() else {
+                let Some(mut c) = self.crop.take() else {
                     return Err(no(
                         e,
                         format!("no crop is growing at {}: a crop begins with an anode set or the previous harvest", show(e.at)),
@@ -184,16 +212,17 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                 c.harvest_event = Some(e.id);
                 c.harvest_kg = e.kg;
                 h.crops.push(c);
-                if load.is_some() {
-                    crop = Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
+                if self.load.is_some() {
+                    self.crop =
+                        Some(CropRec { start_event: e.id, started_at: e.at, ended_at: None, harvest_event: None, harvest_kg: None });
                 }
             }
             EventKind::Cutout => {
-                let open_same = open_cut.filter(|&i| h.cutouts[i].span.from == e.at);
-                match (e.end, open_same, open_cut) {
+                let open_same = self.open_cut.filter(|&i| h.cutouts[i].span.from == e.at);
+                match (e.end, open_same, self.open_cut) {
                     (Some(to), Some(i), _) => {
                         h.cutouts[i].span.to = Some(to);
-                        open_cut = None;
+                        self.open_cut = None;
                     }
                     (Some(to), None, _) => h.cutouts.push(CutoutRec { event: e.id, span: OpenSpan { from: e.at, to: Some(to) } }),
                     (None, _, Some(i)) => {
@@ -203,17 +232,23 @@ pub fn replay(events: &[Event], show: impl Fn(Time) -> String) -> Result<CellHis
                         ));
                     }
                     (None, _, None) => {
-                        open_cut = Some(h.cutouts.len());
+                        self.open_cut = Some(h.cutouts.len());
                         h.cutouts.push(CutoutRec { event: e.id, span: OpenSpan { from: e.at, to: None } });
                     }
                 }
             }
             _ => {}
         }
+        Ok(())
     }
-    h.loads.extend(load);
-    h.crops.extend(crop);
-    Ok(h)
+
+    /// What the events imply, the open load and crop last.
+    pub fn finish(self) -> CellHistory {
+        let mut h = self.h;
+        h.loads.extend(self.load);
+        h.crops.extend(self.crop);
+        h
+    }
 }
 
 #[cfg(test)]
@@ -285,6 +320,38 @@ mod tests {
         let mut second = ev(2, EventKind::Anodes, 5);
         second.voided = true;
         assert!(replay(&[ev(1, EventKind::Anodes, 0), second], show).is_ok());
+    }
+
+    #[test]
+    fn resuming_from_the_open_records_equals_the_whole_replay() {
+        let mut open = ev(5, EventKind::Cutout, 400);
+        open.end = None;
+        let evs = [
+            ev(1, EventKind::Anodes, 0),
+            ev(2, EventKind::Harvest, 170),
+            ev(3, EventKind::Scrap, 400),
+            ev(4, EventKind::Harvest, 400),
+            open,
+            ev(6, EventKind::Anodes, 400),
+            ev(7, EventKind::Harvest, 570),
+        ];
+        for k in 1..evs.len() {
+            let before = replay(&evs[..k], show).unwrap();
+            let load = before.loads.last().filter(|l| l.ended_at.is_none()).cloned();
+            let crop = before.crops.last().filter(|c| c.ended_at.is_none()).cloned();
+            let cut = before.cutouts.iter().find(|c| c.span.to.is_none()).cloned();
+            let mut r = Replay::resume(load.clone(), crop.clone(), cut.clone());
+            r.step(&evs[k], show).unwrap();
+            let tail = r.finish();
+            let mut whole = before.clone();
+            whole.loads.retain(|l| Some(l) != load.as_ref());
+            whole.crops.retain(|c| Some(c) != crop.as_ref());
+            whole.cutouts.retain(|c| Some(c) != cut.as_ref());
+            whole.loads.extend(tail.loads);
+            whole.crops.extend(tail.crops);
+            whole.cutouts.extend(tail.cutouts);
+            assert_eq!(whole, replay(&evs[..=k], show).unwrap(), "after event {}", k + 1);
+        }
     }
 
     #[test]

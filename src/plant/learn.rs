@@ -224,20 +224,19 @@ pub(crate) fn learnt_until(
     Ok(out)
 }
 
-/// One cell's learnt values from the weighings at or before `until` (an entry's check).
-pub(crate) fn learnt_one(db: Db<'_>, cell: &str, until: Time, params: &CellParams) -> Result<CellLearnt> {
-    let cells = db.section_cells(cell)?;
-    let rows = db.section_learn_rows(cell, until)?;
-    let s = split(&cells, &rows);
-    let Some(i) = cells.iter().position(|c| c == cell) else { return Ok(CellLearnt::layout(params)) };
+/// One cell's learnt values from the weighings at or before `until` (an entry's
+/// check): `crop` and `scrap` hold each section cell's weighed values in the
+/// store's order (oldest first), `i` the cell's place among them.
+pub(crate) fn learnt_one_of(crop: &[Vec<f64>], scrap: &[Vec<f64>], i: Option<usize>, params: &CellParams) -> CellLearnt {
+    let Some(i) = i else { return CellLearnt::layout(params) };
     let mut l = CellLearnt {
-        cathode: learn(&s.crop, &CATHODE).estimate(i, params.cathode_efficiency, &CATHODE),
-        anode: learn(&s.scrap, &ANODE).estimate(i, params.anode_efficiency, &ANODE),
+        cathode: learn_section(crop, &CATHODE).estimate(i, params.cathode_efficiency, &CATHODE),
+        anode: learn_section(scrap, &ANODE).estimate(i, params.anode_efficiency, &ANODE),
     };
     if params.anode_kind == AnodeKind::Inert {
         l.anode = Estimate::layout(params.anode_efficiency, &ANODE);
     }
-    Ok(l)
+    l
 }
 
 /// Every cell's learnt values as of `as_of`: the stored ones when no weighing

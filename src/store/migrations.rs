@@ -14,6 +14,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("005_drafts", include_str!("migrations/005_drafts.sql")),
     ("006_approved_plan", include_str!("migrations/006_approved_plan.sql")),
     ("007_snapshot_lookup", include_str!("migrations/007_snapshot_lookup.sql")),
+    ("008_open_records", include_str!("migrations/008_open_records.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -95,6 +96,18 @@ mod tests {
         }
         let crops: i64 = c.query_row("SELECT count(*) FROM crop WHERE cell_id = 'A01'", [], |r| r.get(0)).unwrap();
         assert_eq!(crops, 1);
+        // 008: the old open crop is found through its partial index
+        for name in ["anode_load_open", "crop_open", "cutout_open"] {
+            let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
+            assert_eq!(n, 1, "{name}");
+        }
+        let open = store.db().open_records("A01").unwrap().unwrap();
+        assert_eq!(open.crop.map(|c| c.started_at.timestamp()), Some(1000));
+        assert!(open.load.is_none() && open.cutout.is_none());
+        let plan: String = c
+            .query_row("EXPLAIN QUERY PLAN SELECT started_at FROM crop WHERE cell_id = 'A01' AND ended_at IS NULL", [], |r| r.get(3))
+            .unwrap();
+        assert!(plan.contains("crop_open"), "{plan}");
     }
 
     #[test]

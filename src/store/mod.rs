@@ -5,6 +5,7 @@
 //! a borrowed view that both plain reads and [`Store::write`] transactions hand out,
 //! so the same query code serves both.
 
+mod append;
 mod cells;
 mod curve_slice;
 mod drafts;
@@ -21,6 +22,7 @@ use rusqlite::{Connection, OpenFlags, TransactionBehavior};
 use std::path::{Path, PathBuf};
 use std::time::Duration as StdDuration;
 
+pub use append::{OpenRecords, params_in_force};
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use drafts::DraftRow;
 pub use events::{CropFigures, LoadRow, NewEvent};
@@ -179,6 +181,9 @@ impl Store {
         c.busy_timeout(self.busy)?;
         // more distinct cached queries than rusqlite's default 16: re-preparing was a hot spot
         c.set_prepared_statement_cache_capacity(128);
+        // one plan per statement, whatever is bound: SQLite 3.54 otherwise re-prepares a cached
+        // statement whenever a bound value crosses its small-integer heuristics (half the time of a batch of entries)
+        c.set_db_config(rusqlite::config::DbConfig::SQLITE_DBCONFIG_ENABLE_QPSG, true)?;
         let mode: String = c.pragma_update_and_check(None, "journal_mode", "wal", |r| r.get(0))?;
         if !mode.eq_ignore_ascii_case("wal") {
             return Err(StoreError::NotWal(mode));
