@@ -141,11 +141,46 @@ impl Db<'_> {
         Ok(st.query_row(params![circuit_id, secs(t), secs(until)], point).optional()?)
     }
 
-    fn first_reaching(&self, circuit_id: i64, cum: f64, until: Time) -> Result<Option<Point>> {
-        let mut st = self.c.prepare_cached(
-            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = ?1 AND valid = 1 AND cum_ah >= ?2 AND t <= ?3 ORDER BY cum_ah, t LIMIT 1",
-        )?;
-        Ok(st.query_row(params![circuit_id, cum, secs(until)], point).optional()?)
+    /// The first valid reading whose cumulative charge reaches `cum`, between
+    /// the circuit's first and last valid readings `first` and `last` (as of the
+    /// curve's instant). The charge never falls along time on a circuit (amps are
+    /// ≥ 0; `charge_decreases` counts violations), so it is found by a search
+    /// over time on the primary key, each probe the last valid reading at or
+    /// before an instant: interpolated on the charge, halving whenever a guess
+    /// did not halve the bracket. The same row as the smallest charge ≥ `cum`
+    /// ordered by time, without an index on the charge that every import would
+    /// pay for.
+    fn first_reaching(&self, circuit_id: i64, cum: f64, first: Point, last: Point) -> Result<Option<Point>> {
+        // NaN reaches nothing, as `cum_ah >= NULL` in SQL
+        if !(last.cum_ah >= cum) {
+            return Ok(None);
+        }
+        if first.cum_ah >= cum {
+            return Ok(Some(first));
+        }
+        // every valid reading at or before `lo` is below `cum`; `hi` reaches it
+        let (mut lo, mut lo_cum, mut hi) = (secs(first.t), first.cum_ah, last);
+        let mut interpolate = true;
+        while secs(hi.t) - lo > 1 {
+            let width = secs(hi.t) - lo;
+            let guess = if interpolate {
+                let frac = (cum - lo_cum) / (hi.cum_ah - lo_cum);
+                lo + (frac * width as f64).ceil() as i64
+            } else {
+                lo + width / 2
+            };
+            let mid = guess.clamp(lo + 1, secs(hi.t) - 1);
+            let Some(p) = self.last_valid(circuit_id, time(mid)?)? else {
+                return Err(StoreError::Corrupt("no valid reading after the first one".into()));
+            };
+            if p.cum_ah >= cum {
+                hi = p;
+            } else {
+                (lo, lo_cum) = (mid, p.cum_ah);
+            }
+            interpolate = 2 * (secs(hi.t) - lo) <= width;
+        }
+        Ok(Some(hi))
     }
 
     fn valid_before(&self, circuit_id: i64, t: Time) -> Result<Option<Point>> {
@@ -226,6 +261,8 @@ pub struct StoreCurve<'c> {
     circuit_id: i64,
     as_of: Time,
     last: Option<Point>,
+    /// The first valid reading (when there is a last one): where a search for a charge starts.
+    first: Option<Point>,
     outages: Vec<Span>,
     projection: Projection,
 }
@@ -235,12 +272,19 @@ impl<'c> StoreCurve<'c> {
         let outages = db.outages(circuit_id)?;
         let setpoints = db.setpoints(circuit_id)?;
         let last = db.last_valid(circuit_id, as_of)?;
-        let mut curve =
-            StoreCurve { db, circuit_id, as_of, last, projection: Projection::new(last, None, &setpoints, outages.clone()), outages };
+        let mut curve = StoreCurve {
+            db,
+            circuit_id,
+            as_of,
+            last,
+            first: None,
+            projection: Projection::new(last, None, &setpoints, outages.clone()),
+            outages,
+        };
         if let Some(p) = last {
             let a = p.t - MEAN_WINDOW;
-            let first = db.first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?.map_or(a, |f| f.t);
-            let a = a.max(first);
+            curve.first = db.first_valid_after(circuit_id, chrono::DateTime::<chrono::Utc>::MIN_UTC, as_of)?;
+            let a = a.max(curve.first.map_or(a, |f| f.t));
             let cum_a = curve.cum_at(a)?.measured;
             let mean = mean_in_service_amps(a, cum_a, p.t, p.cum_ah, &curve.outages);
             curve.projection = Projection::new(last, mean, &setpoints, curve.outages.clone());
@@ -282,10 +326,65 @@ impl Curve for StoreCurve<'_> {
         if self.last.is_some_and(|l| total > l.cum_ah) {
             return Ok(time_from(None, self.last, total, &self.outages, &self.projection));
         }
-        let hit = match self.db.first_reaching(self.circuit_id, total, self.as_of)? {
+        let (Some(first), Some(last)) = (self.first, self.last) else {
+            return Ok(time_from(None, self.last, total, &self.outages, &self.projection));
+        };
+        let hit = match self.db.first_reaching(self.circuit_id, total, first, last)? {
             Some(p) => Some((self.db.valid_before(self.circuit_id, p.t)?, p)),
             None => None,
         };
         Ok(time_from(hit, self.last, total, &self.outages, &self.projection))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// What 002's `reading_cum` index answered: the smallest charge reaching
+    /// `cum`, the earliest of equal ones.
+    fn by_charge(db: Db<'_>, cum: f64, until: i64) -> Option<Point> {
+        db.c.query_row(
+            "SELECT t, amps, cum_ah FROM reading WHERE circuit_id = 1 AND valid = 1 AND cum_ah >= ?1 AND t <= ?2 ORDER BY cum_ah, t LIMIT 1",
+            params![cum, until],
+            point,
+        )
+        .optional()
+        .unwrap()
+    }
+
+    #[test]
+    fn the_search_over_time_finds_the_row_the_charge_order_found() {
+        let dir = tempfile::tempdir().unwrap();
+        let store = super::super::Store::open(&dir.path().join("t.db")).unwrap();
+        let db = store.db();
+        db.c.execute("INSERT INTO circuit(id, name, max_amps, position) VALUES (1, 'C1', 40000, 0)", []).unwrap();
+        // irregular times, stretches of zero current (flat charge), invalid readings (outages)
+        let (mut t, mut cum, mut seed) = (1_000_000_i64, 0.0_f64, 7_u64);
+        let mut cums = Vec::new();
+        db.c.execute_batch("BEGIN").unwrap();
+        for _ in 0..3000 {
+            seed = seed.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1_442_695_040_888_963_407);
+            let r = seed >> 33;
+            t += [60, 60, 60, 1, 2, 3600, 7][(r % 7) as usize];
+            let amps = if r % 5 == 0 { 0.0 } else { 30000.0 + (r % 300) as f64 };
+            let valid = r % 11 != 0;
+            if valid {
+                cum += amps / 60.0;
+                cums.push(cum);
+            }
+            db.c.execute("INSERT INTO reading VALUES (1, ?1, ?2, ?3, ?4, 0)", params![t, amps, cum, valid]).unwrap();
+        }
+        db.c.execute_batch("COMMIT").unwrap();
+        let all = |sql: &str| db.c.query_row(sql, [], point).unwrap();
+        let first = all("SELECT t, amps, cum_ah FROM reading WHERE valid = 1 ORDER BY t LIMIT 1");
+        let last = all("SELECT t, amps, cum_ah FROM reading WHERE valid = 1 ORDER BY t DESC LIMIT 1");
+        let mut asked = vec![-1.0, 0.0, f64::NAN, f64::INFINITY, f64::NEG_INFINITY, cum + 1.0];
+        for c in cums.iter().step_by(7) {
+            asked.extend([*c, c - 1e-9, c + 1e-9, c - 0.5, c + 0.5]);
+        }
+        for x in asked {
+            assert_eq!(db.first_reaching(1, x, first, last).unwrap(), by_charge(db, x, secs(last.t)), "charge {x}");
+        }
     }
 }
