@@ -141,22 +141,24 @@ impl Db<'_> {
         Ok(st.query_row(params![circuit_id, secs(t), secs(until)], point).optional()?)
     }
 
-    /// The first valid reading whose cumulative charge reaches `cum`, between
-    /// the circuit's first and last valid readings `first` and `last` (as of the
-    /// curve's instant). The charge never falls along time on a circuit (amps are
-    /// ≥ 0; `charge_decreases` counts violations), so it is found by a search
-    /// over time on the primary key, each probe the last valid reading at or
-    /// before an instant: interpolated on the charge, halving whenever a guess
-    /// did not halve the bracket. The same row as the smallest charge ≥ `cum`
-    /// ordered by time, without an index on the charge that every import would
-    /// pay for.
-    fn first_reaching(&self, circuit_id: i64, cum: f64, first: Point, last: Point) -> Result<Option<Point>> {
+    /// The first valid reading whose cumulative charge reaches `cum`, with the
+    /// valid reading before it, between the circuit's first and last valid
+    /// readings `first` and `last` (as of the curve's instant). The charge never
+    /// falls along time on a circuit (amps are ≥ 0; `charge_decreases` counts
+    /// violations), so it is found by a search over time on the primary key:
+    /// each probe is the last valid reading at or before an instant interpolated
+    /// on the charge (halving whenever a guess did not halve the bracket) and its
+    /// neighbour on the far side, which ends the search when the two straddle
+    /// `cum` (on a near-straight curve, the first probe). The same rows as the
+    /// smallest charge ≥ `cum` ordered by time, without an index on the charge
+    /// that every import would pay for.
+    fn first_reaching(&self, circuit_id: i64, cum: f64, first: Point, last: Point) -> Result<Option<(Option<Point>, Point)>> {
         // NaN reaches nothing, as `cum_ah >= NULL` in SQL
-        if !(last.cum_ah >= cum) {
+        if cum.is_nan() || last.cum_ah < cum {
             return Ok(None);
         }
         if first.cum_ah >= cum {
-            return Ok(Some(first));
+            return Ok(Some((None, first)));
         }
         // every valid reading at or before `lo` is below `cum`; `hi` reaches it
         let (mut lo, mut lo_cum, mut hi) = (secs(first.t), first.cum_ah, last);
@@ -171,16 +173,26 @@ impl Db<'_> {
             };
             let mid = guess.clamp(lo + 1, secs(hi.t) - 1);
             let Some(p) = self.last_valid(circuit_id, time(mid)?)? else {
-                return Err(StoreError::Corrupt("no valid reading after the first one".into()));
+                return Err(StoreError::Corrupt(format!("circuit {circuit_id}: no valid reading at or before {mid} after the first one")));
             };
             if p.cum_ah >= cum {
-                hi = p;
+                match self.valid_before(circuit_id, p.t)? {
+                    Some(b) if b.cum_ah >= cum => hi = b,
+                    before => return Ok(Some((before, p))),
+                }
             } else {
-                (lo, lo_cum) = (mid, p.cum_ah);
+                // `hi` is valid and after `mid`, so a next reading exists
+                let Some(n) = self.first_valid_after(circuit_id, p.t, hi.t)? else {
+                    return Err(StoreError::Corrupt(format!("circuit {circuit_id}: no valid reading after {mid} before the last one")));
+                };
+                if n.cum_ah >= cum {
+                    return Ok(Some((Some(p), n)));
+                }
+                (lo, lo_cum) = (secs(n.t), n.cum_ah);
             }
             interpolate = 2 * (secs(hi.t) - lo) <= width;
         }
-        Ok(Some(hi))
+        Ok(Some((self.valid_before(circuit_id, hi.t)?, hi)))
     }
 
     fn valid_before(&self, circuit_id: i64, t: Time) -> Result<Option<Point>> {
@@ -329,10 +341,7 @@ impl Curve for StoreCurve<'_> {
         let (Some(first), Some(last)) = (self.first, self.last) else {
             return Ok(time_from(None, self.last, total, &self.outages, &self.projection));
         };
-        let hit = match self.db.first_reaching(self.circuit_id, total, first, last)? {
-            Some(p) => Some((self.db.valid_before(self.circuit_id, p.t)?, p)),
-            None => None,
-        };
+        let hit = self.db.first_reaching(self.circuit_id, total, first, last)?;
         Ok(time_from(hit, self.last, total, &self.outages, &self.projection))
     }
 }
@@ -384,7 +393,8 @@ mod tests {
             asked.extend([*c, c - 1e-9, c + 1e-9, c - 0.5, c + 0.5]);
         }
         for x in asked {
-            assert_eq!(db.first_reaching(1, x, first, last).unwrap(), by_charge(db, x, secs(last.t)), "charge {x}");
+            let old = by_charge(db, x, secs(last.t)).map(|p| (db.valid_before(1, p.t).unwrap(), p));
+            assert_eq!(db.first_reaching(1, x, first, last).unwrap(), old, "charge {x}");
         }
     }
 }
