@@ -9,7 +9,7 @@
 //! arithmetic); an instant before the span, or a charge reached before it, is
 //! asked of the [`StoreCurve`] it wraps. The charge never falls (amps are
 //! checked to be ≥ 0 on import), so the first reading reaching a charge is found
-//! by bisection on the cumulative charge, as the `reading_cum` index finds it.
+//! by bisection on the cumulative charge, as `StoreCurve` finds it by time.
 
 use chrono::Duration;
 use rusqlite::params;
