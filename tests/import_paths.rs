@@ -10,6 +10,8 @@ use tankbook::domain::charge::{RawReading, Span, accumulate};
 use tankbook::domain::entry::Entry;
 use tankbook::plant::{Opts, Plant, PlantError};
 
+mod common;
+
 fn t0() -> DateTime<Utc> {
     DateTime::parse_from_rfc3339("2026-03-01T00:00:00Z").unwrap().to_utc()
 }
@@ -106,4 +108,32 @@ fn a_conflict_with_an_appended_row_names_the_file_and_changes_nothing() {
     assert!(message.contains("conflicts with 30000 A"), "{message}");
     drop(plant);
     assert!(stored(&path).is_empty());
+}
+
+/// A database from before migration 009 (with 002's `reading_cum` index on the
+/// charge) upgrades: the index goes, and the forecast and the plan, whose due
+/// times look up the first reading reaching a charge, are the same as before.
+#[test]
+fn a_database_from_before_009_upgrades_and_finds_the_same_due_times() {
+    let tk = common::Tk::new("2026-11-20T05:30:00Z");
+    tk.ok(&["demo", "--no-tui", "--cells", "20", "--days", "21"]);
+    let forecast = tk.ok(&["forecast", "--json"]);
+    let plan = tk.ok(&["plan", "--days", "28", "--json"]);
+    common::downgrade_to_before(&tk.db, "009");
+    let index = |c: &rusqlite::Connection| -> i64 {
+        c.query_row("SELECT count(*) FROM sqlite_master WHERE name = 'reading_cum'", [], |r| r.get(0)).unwrap()
+    };
+    {
+        // what 002 made and 008's databases still had
+        let c = rusqlite::Connection::open(&tk.db).unwrap();
+        c.execute_batch("CREATE INDEX reading_cum ON reading(circuit_id, cum_ah, t) WHERE valid = 1").unwrap();
+        assert_eq!(index(&c), 1);
+    }
+    assert_eq!(tk.ok(&["forecast", "--json"]), forecast);
+    let c = rusqlite::Connection::open(&tk.db).unwrap();
+    assert_eq!(index(&c), 0, "009 drops it");
+    let version: i64 = c.query_row("PRAGMA user_version", [], |r| r.get(0)).unwrap();
+    assert_eq!(version, tankbook::store::MIGRATIONS.len() as i64);
+    assert_eq!(tk.ok(&["plan", "--days", "28", "--json"]), plan);
+    assert!(tk.ok(&["check"]).contains("ok"));
 }
