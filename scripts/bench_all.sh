@@ -6,8 +6,9 @@
 # (default 5) wall-clock runs; peak RSS (`/usr/bin/time`) of the big plant's
 # last run of each command.
 #
-# Not measured here: the first frame of the screens (it needs a terminal; see
-# tests/terminal.rs for the pty harness).
+# The screens (first frame, confirm → frame) are measured by
+# benches/screens.rs in a pseudo-terminal on the same databases; their table
+# is printed after this one.
 #
 # Needs only bash, awk, coreutils and what it installs itself (sqlite3 and
 # GNU time, with apt-get, when missing). Honours CARGO_TARGET_DIR.
@@ -132,4 +133,9 @@ if [ -n "$year" ]; then
   echo "| \`forecast --json\`, year plant vs big plant | ${fc_big} s | ${fc_year} s | $(ratio "$fc_big" "$fc_year")× | ${rss_fc_year} MB |"
   echo "| \`plan --days 28 --json\`, year plant vs big plant | ${plan_big} s | ${plan_year} s | $(ratio "$plan_big" "$plan_year")× | ${rss_plan_year} MB |"
 fi
-echo "| first frame of the screens | not measured: needs a terminal | | | |"
+echo
+BASE_DB=$dir/base.db BIG_DB=$dir/big.db RUNS=$runs cargo bench -q --bench screens 2>/dev/null
+if [ -n "$year" ]; then
+  echo
+  BASE_DB=$dir/base.db BIG_DB=$dir/year.db RUNS=$runs cargo bench -q --bench screens 2>/dev/null
+fi
