@@ -17,9 +17,10 @@
 # readings) is written once (its time and peak RSS are the demo-write goal),
 # then the forecast and the plan are timed on it too: against the 30-day big
 # plant they show whether a command grows with the length of the history.
-# YEAR= (empty) skips it.
+# YEAR= (empty) skips it. The big plant has one-minute readings too by
+# default, so the two differ only in the length of their history.
 #
-#   RUNS=5 BIG="--cells 3000 --days 30" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
+#   RUNS=5 BIG="--cells 3000 --days 30 --reading-minutes 1" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -38,7 +39,7 @@ dir=$(mktemp -d)
 trap 'rm -rf "$dir"' EXIT
 export TANKBOOK_NOW=${TANKBOOK_NOW:-2026-11-20T05:30:00Z}
 runs=${RUNS:-5}
-big=${BIG:---cells 3000 --days 30}
+big=${BIG:---cells 3000 --days 30 --reading-minutes 1}
 rows=${IMPORT_ROWS:-1000000}
 year=${YEAR-"--cells 3000 --days 365 --reading-minutes 1"}
 
