@@ -19,7 +19,7 @@
 # plant they show whether a command grows with the length of the history.
 # YEAR= (empty) skips it. The big plant has one-minute readings too by
 # default, so the two differ only in the length of their history.
-#   RUNS=5 BIG="--cells 3000 --days 30 --reading-minutes 1" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
+#
 #   RUNS=5 BIG="--cells 3000 --days 30 --reading-minutes 1" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
 set -euo pipefail
 cd "$(dirname "$0")/.."
