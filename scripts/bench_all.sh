@@ -6,8 +6,9 @@
 # (default 5) wall-clock runs; peak RSS (`/usr/bin/time`) of the big plant's
 # last run of each command.
 #
-# Not measured here: the first frame of the screens (it needs a terminal; see
-# tests/terminal.rs for the pty harness).
+# The screens (first frame, confirm → frame) are measured by
+# benches/screens.rs in a pseudo-terminal on the same databases; their table
+# is printed after this one.
 #
 # Needs only bash, awk, coreutils and what it installs itself (sqlite3 and
 # GNU time, with apt-get, when missing). Honours CARGO_TARGET_DIR.
@@ -16,9 +17,10 @@
 # readings) is written once (its time and peak RSS are the demo-write goal),
 # then the forecast and the plan are timed on it too: against the 30-day big
 # plant they show whether a command grows with the length of the history.
-# YEAR= (empty) skips it.
+# YEAR= (empty) skips it. The big plant has one-minute readings too by
+# default, so the two differ only in the length of their history.
 #
-#   RUNS=5 BIG="--cells 3000 --days 30" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
+#   RUNS=5 BIG="--cells 3000 --days 30 --reading-minutes 1" IMPORT_ROWS=1000000 bash scripts/bench_all.sh
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -37,7 +39,7 @@ dir=$(mktemp -d)
 trap 'rm -rf "$dir"' EXIT
 export TANKBOOK_NOW=${TANKBOOK_NOW:-2026-11-20T05:30:00Z}
 runs=${RUNS:-5}
-big=${BIG:---cells 3000 --days 30}
+big=${BIG:---cells 3000 --days 30 --reading-minutes 1}
 rows=${IMPORT_ROWS:-1000000}
 year=${YEAR-"--cells 3000 --days 365 --reading-minutes 1"}
 
@@ -132,4 +134,9 @@ if [ -n "$year" ]; then
   echo "| \`forecast --json\`, year plant vs big plant | ${fc_big} s | ${fc_year} s | $(ratio "$fc_big" "$fc_year")× | ${rss_fc_year} MB |"
   echo "| \`plan --days 28 --json\`, year plant vs big plant | ${plan_big} s | ${plan_year} s | $(ratio "$plan_big" "$plan_year")× | ${rss_plan_year} MB |"
 fi
-echo "| first frame of the screens | not measured: needs a terminal | | | |"
+echo
+BASE_DB=$dir/base.db BIG_DB=$dir/big.db RUNS=$runs cargo bench -q --bench screens 2>/dev/null
+if [ -n "$year" ]; then
+  echo
+  BASE_DB=$dir/base.db BIG_DB=$dir/year.db RUNS=$runs cargo bench -q --bench screens 2>/dev/null
+fi

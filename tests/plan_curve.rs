@@ -1,4 +1,4 @@
-//! The plan's curve (readings over the plan's span in memory) must give exactly
+//! The plan's curve (`SliceCurve::whole`: the readings over the plan's span in memory) must give exactly
 //! the store's curve's answers, at any instant and total, inside or before its span.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
@@ -7,7 +7,7 @@ use proptest::prelude::*;
 use tankbook::domain::charge::{Curve, RawReading};
 use tankbook::domain::entry::Entry;
 use tankbook::plant::{Opts, Plant};
-use tankbook::store::{PlanCurve, Store, StoreCurve};
+use tankbook::store::{SliceCurve, Store, StoreCurve};
 
 fn t0() -> DateTime<Utc> {
     DateTime::parse_from_rfc3339("2026-03-01T00:00:00Z").unwrap().to_utc()
@@ -48,7 +48,7 @@ proptest! {
         let db = store.db();
         let cid = db.circuit("C1").unwrap().unwrap().id;
         let sc = StoreCurve::new(db, cid, as_of).unwrap();
-        let pc = PlanCurve::new(db, cid, t0() + Duration::minutes(from_min), as_of).unwrap();
+        let pc = SliceCurve::whole(db, cid, as_of, t0() + Duration::minutes(from_min)).unwrap();
         for p in &probes {
             let t = t0() + Duration::minutes(*p);
             let (a, b) = (sc.cum_at(t).unwrap(), pc.cum_at(t).unwrap());

@@ -14,8 +14,7 @@ use crate::domain::levelling::Weights;
 use crate::domain::plan::{Calendar, Crane, KeptMove, Plan, PlanError, PlanInput, Rules, plan};
 use crate::domain::plan_diff::{PlanDiff, diff, planned_jobs};
 use crate::domain::plant_time::ProductionDays;
-use crate::store::PlanCurve;
-use crate::store::{Db, NewEvent};
+use crate::store::{Db, NewEvent, SliceCurve};
 
 /// The longest plan, in production days: a year is far beyond what the
 /// forecasts can say and keeps the levelling's work bounded.
@@ -110,7 +109,7 @@ impl Plant {
                 ),
             ));
         }
-        let mut curves: HashMap<String, PlanCurve<'_>> = HashMap::new();
+        let mut curves: HashMap<String, SliceCurve<'_>> = HashMap::new();
         let mut outages = Vec::new();
         for c in db.circuits()? {
             outages.extend(db.outages(c.id)?.into_iter().map(|s| (c.name.clone(), s)));
@@ -119,7 +118,7 @@ impl Plant {
             let mine = cells.iter().filter(|x| x.circuit == c.name);
             let from = mine.flat_map(|x| [x.load.map(|l| l.0), x.crop_started]).flatten().min();
             if let Some(from) = from.or(cells.iter().any(|x| x.circuit == c.name).then_some(now)) {
-                curves.insert(c.name.clone(), PlanCurve::new(db, c.id, from, now)?);
+                curves.insert(c.name.clone(), SliceCurve::whole(db, c.id, now, from)?);
             }
         }
         let input = PlanInput {

@@ -50,6 +50,13 @@ impl<'c> SliceCurve<'c> {
         Self::read(db, circuit_id, as_of, from, instants, None)
     }
 
+    /// The curve with every valid reading of the span in memory (from the last
+    /// one at or before `from`, no earlier than [`SLICE_SPAN`] before `as_of`):
+    /// for the plan, which cannot list beforehand the instants it will ask about.
+    pub fn whole(db: Db<'c>, circuit_id: i64, as_of: Time, from: Time) -> Result<Self> {
+        Self::read(db, circuit_id, as_of, from, &[], Some(true))
+    }
+
     /// [`SliceCurve::new`], with the choice between the whole span (`Some(true)`)
     /// and the readings around the instants (`Some(false)`) forced (for tests).
     pub fn read(db: Db<'c>, circuit_id: i64, as_of: Time, from: Time, instants: &[Time], whole: Option<bool>) -> Result<Self> {
