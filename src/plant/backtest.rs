@@ -45,14 +45,43 @@ impl Plant {
         let mut known: HashMap<(String, Time), HashMap<String, CellLearnt>> = HashMap::new();
         let mut crops = Vec::new();
         let mut scrap = Vec::new();
-        for r in db.learn_rows(only_cell, from, to)? {
-            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { continue };
-            let section = db.section_cells(&r.cell)?.into_iter().next().unwrap_or_else(|| r.cell.clone());
+        let rows = db.learn_rows(only_cell, from, to)?;
+        // each row's key, and how many rows still need each key's values: a
+        // key's values are dropped after their last use, so a year of
+        // weighings holds only the few sections' values still pending
+        let mut first_cell: HashMap<&str, String> = HashMap::new();
+        let mut keys = Vec::with_capacity(rows.len());
+        let mut uses: HashMap<(String, Time), usize> = HashMap::new();
+        for r in &rows {
+            if !by_id.contains_key(r.cell.as_str()) || !params.contains_key(&r.cell) {
+                keys.push(None);
+                continue;
+            }
+            let section = match first_cell.get(r.cell.as_str()) {
+                Some(s) => s.clone(),
+                None => {
+                    let s = db.section_cells(&r.cell)?.into_iter().next().unwrap_or_else(|| r.cell.clone());
+                    first_cell.insert(r.cell.as_str(), s.clone());
+                    s
+                }
+            };
             let key = (section, r.started_at);
+            *uses.entry(key.clone()).or_default() += 1;
+            keys.push(Some(key));
+        }
+        for (r, key) in rows.iter().zip(keys) {
+            let (Some(cell), Some(p), Some(key)) = (by_id.get(r.cell.as_str()), params.get(&r.cell), key) else { continue };
             if !known.contains_key(&key) {
                 known.insert(key.clone(), learn::learnt_until(db, &r.cell, r.started_at, &params)?);
             }
             let l = known.get(&key).and_then(|m| m.get(&r.cell)).copied().unwrap_or_else(|| CellLearnt::layout(p));
+            if let Some(n) = uses.get_mut(&key) {
+                *n -= 1;
+                if *n == 0 {
+                    uses.remove(&key);
+                    known.remove(&key);
+                }
+            }
             match r.kind {
                 WeighingKind::Crop => {
                     let curve = match curves.entry(cell.circuit_id) {
