@@ -208,9 +208,12 @@ impl Db<'_> {
         )?)
     }
 
-    /// The learn tables as text, for comparing with learning afresh.
-    pub fn learn_digest(&self) -> Result<String> {
-        let mut out = String::new();
+    /// A digest of the learn tables, for comparing with learning afresh.
+    pub fn learn_digest(&self) -> Result<u64> {
+        use std::hash::{Hash, Hasher};
+        // hashed row by row, not kept as text: a year's weighings are tens of
+        // megabytes of it (DefaultHasher::new is the same in one process)
+        let mut out = std::collections::hash_map::DefaultHasher::new();
         for sql in [
             "SELECT cell_id, kind, started_at, ended_at, printf('%.9e', charge_ah), weighed_kg, count, set_kg, printf('%.9e', value), left_out,
              printf('%.6e', z) FROM learn_weighing ORDER BY cell_id, kind, started_at",
@@ -222,12 +225,11 @@ impl Db<'_> {
             let mut rows = st.query([])?;
             while let Some(r) = rows.next()? {
                 let cols: Vec<String> = (0..n).map(|i| r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default()).collect();
-                out.push_str(&cols.join("|"));
-                out.push('\n');
+                cols.join("|").hash(&mut out);
             }
-            out.push_str("--\n");
+            "--".hash(&mut out);
         }
-        Ok(out)
+        Ok(out.finish())
     }
 
     /// Every cell's stored learnt values.
