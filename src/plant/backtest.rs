@@ -45,32 +45,29 @@ impl Plant {
         let mut known: HashMap<(String, Time), HashMap<String, CellLearnt>> = HashMap::new();
         let mut crops = Vec::new();
         let mut scrap = Vec::new();
-        let rows = db.learn_rows(only_cell, from, to)?;
-        // each row's key, and how many rows still need each key's values: a
-        // key's values are dropped after their last use, so a year of
-        // weighings holds only the few sections' values still pending
-        let mut first_cell: HashMap<&str, String> = HashMap::new();
-        let mut keys = Vec::with_capacity(rows.len());
-        let mut uses: HashMap<(String, Time), usize> = HashMap::new();
-        for r in &rows {
-            if !by_id.contains_key(r.cell.as_str()) || !params.contains_key(&r.cell) {
-                keys.push(None);
-                continue;
+        // two passes over the rows as they are read: first how many rows need
+        // each key's values, then the rows, a key's values dropped after their
+        // last use, so a year of weighings holds only the few sections' values
+        // still pending (and not the rows themselves)
+        let mut first_cell: HashMap<String, String> = HashMap::new();
+        let mut section_of = |cell: &str| -> Result<String> {
+            if let Some(s) = first_cell.get(cell) {
+                return Ok(s.clone());
             }
-            let section = match first_cell.get(r.cell.as_str()) {
-                Some(s) => s.clone(),
-                None => {
-                    let s = db.section_cells(&r.cell)?.into_iter().next().unwrap_or_else(|| r.cell.clone());
-                    first_cell.insert(r.cell.as_str(), s.clone());
-                    s
-                }
-            };
-            let key = (section, r.started_at);
-            *uses.entry(key.clone()).or_default() += 1;
-            keys.push(Some(key));
-        }
-        for (r, key) in rows.iter().zip(keys) {
-            let (Some(cell), Some(p), Some(key)) = (by_id.get(r.cell.as_str()), params.get(&r.cell), key) else { continue };
+            let s = db.section_cells(cell)?.into_iter().next().unwrap_or_else(|| cell.to_string());
+            first_cell.insert(cell.to_string(), s.clone());
+            Ok(s)
+        };
+        let mut uses: HashMap<(String, Time), usize> = HashMap::new();
+        db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
+            if by_id.contains_key(r.cell.as_str()) && params.contains_key(&r.cell) {
+                *uses.entry((section_of(&r.cell)?, r.started_at)).or_default() += 1;
+            }
+            Ok(())
+        })?;
+        db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
+            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { return Ok(()) };
+            let key = (section_of(&r.cell)?, r.started_at);
             if !known.contains_key(&key) {
                 known.insert(key.clone(), learn::learnt_until(db, &r.cell, r.started_at, &params)?);
             }
@@ -102,7 +99,7 @@ impl Plant {
                     crops.push(crop_row(&c, &l.cathode, p.cathode_efficiency, reach));
                 }
                 WeighingKind::Scrap => {
-                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { continue };
+                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { return Ok(()) };
                     let load = AnodeLoad {
                         initial_kg: set_kg,
                         count,
@@ -123,7 +120,8 @@ impl Plant {
                     scrap.push(scrap_row(&s, &l.anode, p.anode_efficiency));
                 }
             }
-        }
+            Ok(())
+        })?;
         let summary = summarise(&crops, &scrap);
         Ok(Backtest { schema: 1, from, to, crops, scrap, summary })
     }

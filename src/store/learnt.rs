@@ -157,6 +157,26 @@ impl Db<'_> {
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
+    /// [`Db::learn_rows`] one at a time, each handed to `f` as it is read (a
+    /// year's weighings are not held whole).
+    pub fn each_learn_row<E: From<super::StoreError>>(
+        &self,
+        cell: Option<&str>,
+        from: Time,
+        to: Time,
+        mut f: impl FnMut(LearnRow) -> std::result::Result<(), E>,
+    ) -> std::result::Result<(), E> {
+        let sql = format!(
+            "SELECT {ROW_COLS} FROM learn_weighing w WHERE (?1 IS NULL OR w.cell_id = ?1) AND w.ended_at >= ?2 AND w.ended_at <= ?3
+             ORDER BY w.ended_at, w.cell_id, w.kind"
+        );
+        let mut st = self.c.prepare_cached(&sql).map_err(super::StoreError::from)?;
+        for r in st.query_map(params![cell, secs(from), secs(to)], learn_row).map_err(super::StoreError::from)? {
+            f(r.map_err(super::StoreError::from)?)?;
+        }
+        Ok(())
+    }
+
     /// Weighings left out of learning, weighed in `[from, to]`.
     pub fn left_out_rows(&self, from: Time, to: Time) -> Result<Vec<LearnRow>> {
         let sql = format!(
