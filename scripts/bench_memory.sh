@@ -39,13 +39,23 @@ if [[ $tui == 1 ]]; then
     pid=$(pgrep -n -f -- "$bin --db plant.db" || true)
     [[ -n "$pid" ]] || { echo "the screens did not start" >&2; tmux -S "$sock" kill-server; exit 1; }
     hwm() { awk '/VmHWM/ {printf "%.1f", $2 / 1024}' "/proc/$pid/status"; }
-    printf '%-24s %8s\n' "screen" "peak MB"
-    sleep "${TUI_WAIT:-8}"
-    printf '%-24s %8s\n' "first frame" "$(hwm)"
-    for key in p s f c; do
+    # waits until the screen no longer says it is computing (at most 600 s)
+    settle() {
+        sleep "${TUI_WAIT:-5}"
+        for _ in $(seq 600); do
+            tmux -S "$sock" capture-pane -p | grep -q -e '…' -e 'Initials' || return 0
+            sleep 1
+        done
+    }
+    printf '%-30s %8s\n' "screen" "peak MB"
+    sleep "${TUI_WAIT:-5}"
+    printf '%-30s %8s\n' "first frame" "$(hwm)"
+    # the start asks who is logging the shift
+    tmux -S "$sock" send-keys M B Enter
+    for key in p s f c e r; do
         tmux -S "$sock" send-keys "$key"
-        sleep "${TUI_WAIT:-8}"
-        printf '%-24s %8s\n' "after key $key" "$(hwm)"
+        settle
+        printf '%-30s %8s\n' "after key $key ($(tmux -S "$sock" capture-pane -p | awk -F'│' 'NR == 1 {gsub(/ /, "", $2); print $2}'))" "$(hwm)"
         tmux -S "$sock" send-keys Escape
         sleep 1
     done
@@ -91,7 +101,7 @@ run "report --shift last --out" report --shift last --out report2.html
 
 # writers, on the copy
 cell=$("$bin" --db plant.db events --json --limit 1 | awk -F'"' '/"cell": "/ {print $4; exit}')
-circuit=$("$bin" --db plant.db balance | awk 'NR == 3 {print $1}')
+circuit=$("$bin" --db plant.db balance | awk 'NR > 2 && $2 ~ /^[0-9]/ {print $1; exit}')
 run "log shorts" log shorts --cell "$cell" --at "$TANKBOOK_NOW" --count 1
 run "undo" undo
 {
