@@ -42,23 +42,27 @@ impl Plant {
         let params = db.params_at_all(to)?;
         let mut curves: HashMap<i64, StoreCurve<'_>> = HashMap::new();
         // the section's values learnt up to a time, by (a cell of the section, time)
-        let mut known: HashMap<(String, Time), HashMap<String, CellLearnt>> = HashMap::new();
+        let mut known: HashMap<(u32, Time), HashMap<String, CellLearnt>> = HashMap::new();
         let mut crops = Vec::new();
         let mut scrap = Vec::new();
         // two passes over the rows as they are read: first how many rows need
         // each key's values, then the rows, a key's values dropped after their
         // last use, so a year of weighings holds only the few sections' values
         // still pending (and not the rows themselves)
-        let mut first_cell: HashMap<String, String> = HashMap::new();
-        let mut section_of = |cell: &str| -> Result<String> {
-            if let Some(s) = first_cell.get(cell) {
-                return Ok(s.clone());
+        // a section by a number (its first cell's, numbered as met) and each cell's
+        let mut numbers: HashMap<String, u32> = HashMap::new();
+        let mut section_number: HashMap<String, u32> = HashMap::new();
+        let mut section_of = |cell: &str| -> Result<u32> {
+            if let Some(&n) = section_number.get(cell) {
+                return Ok(n);
             }
-            let s = db.section_cells(cell)?.into_iter().next().unwrap_or_else(|| cell.to_string());
-            first_cell.insert(cell.to_string(), s.clone());
-            Ok(s)
+            let first = db.section_cells(cell)?.into_iter().next().unwrap_or_else(|| cell.to_string());
+            let next = numbers.len() as u32;
+            let n = *numbers.entry(first).or_insert(next);
+            section_number.insert(cell.to_string(), n);
+            Ok(n)
         };
-        let mut uses: HashMap<(String, Time), usize> = HashMap::new();
+        let mut uses: HashMap<(u32, Time), u32> = HashMap::new();
         db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
             if by_id.contains_key(r.cell.as_str()) && params.contains_key(&r.cell) {
                 *uses.entry((section_of(&r.cell)?, r.started_at)).or_default() += 1;
@@ -69,7 +73,7 @@ impl Plant {
             let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { return Ok(()) };
             let key = (section_of(&r.cell)?, r.started_at);
             if !known.contains_key(&key) {
-                known.insert(key.clone(), learn::learnt_until(db, &r.cell, r.started_at, &params)?);
+                known.insert(key, learn::learnt_until(db, &r.cell, r.started_at, &params)?);
             }
             let l = known.get(&key).and_then(|m| m.get(&r.cell)).copied().unwrap_or_else(|| CellLearnt::layout(p));
             if let Some(n) = uses.get_mut(&key) {
