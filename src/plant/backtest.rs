@@ -72,8 +72,8 @@ impl Plant {
         db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
             let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { return Ok(()) };
             let key = (section_of(&r.cell)?, r.started_at);
-            if !known.contains_key(&key) {
-                known.insert(key, learn::learnt_until(db, &r.cell, r.started_at, &params)?);
+            if let std::collections::hash_map::Entry::Vacant(e) = known.entry(key) {
+                e.insert(learn::learnt_until(db, &r.cell, r.started_at, &params)?);
             }
             let l = known.get(&key).and_then(|m| m.get(&r.cell)).copied().unwrap_or_else(|| CellLearnt::layout(p));
             if let Some(n) = uses.get_mut(&key) {
