@@ -25,9 +25,20 @@ pub(super) fn emit(text: &str) -> anyhow::Result<()> {
     }
 }
 
-/// A command's JSON (`--json`), pretty-printed, through [`emit`].
+/// A command's JSON (`--json`), pretty-printed to stdout as it is serialised
+/// (the same bytes as `to_string_pretty`, without holding the whole text: a
+/// year's back-test is a hundred megabytes of it); a closed pipe is no error.
 pub(super) fn json(value: &impl serde::Serialize) -> anyhow::Result<()> {
-    emit(&(serde_json::to_string_pretty(value)? + "\n"))
+    use std::io::ErrorKind::BrokenPipe;
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    match serde_json::to_writer_pretty(&mut out, value) {
+        Err(e) if e.io_error_kind() == Some(BrokenPipe) => return Ok(()),
+        r => r?,
+    }
+    match out.write_all(b"\n").and_then(|()| out.flush()) {
+        Err(e) if e.kind() == BrokenPipe => Ok(()),
+        r => Ok(r?),
+    }
 }
 
 /// The forecast table. Times are on the plant clock, whose zone the first line names.
@@ -101,13 +112,11 @@ fn write_forecast(out: &mut impl Write, plant: &Plant, f: &Forecast) -> std::io:
 }
 
 pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Result<()> {
-    let ev = plant.recent_events(cell, limit)?;
     if json {
-        self::json(&serde_json::json!({ "schema": 1, "events": ev }))?;
-        return Ok(());
+        return events_json(plant, cell, limit);
     }
     println!("{:>6} {:<9} {:<8} {:<17} {:<5} what", "entry", "kind", "where", "at", "by");
-    for e in ev {
+    plant.each_recent_event(cell, limit, |e| -> Result<()> {
         let place = e.cell.clone().or(e.circuit.clone()).unwrap_or_default();
         let what = match (e.count, e.kg, e.amps, e.volts, e.end, e.voids) {
             (_, _, _, _, _, Some(v)) => format!("undoes entry {v}"),
@@ -127,8 +136,39 @@ pub fn events(plant: &Plant, cell: Option<&str>, limit: usize, json: bool) -> Re
             flags.push_str(" [forced]");
         }
         println!("{:>6} {:<9} {:<8} {:<17} {:<5} {what}{flags}", e.id, e.kind.name(), place, plant.show_time(e.at), e.by);
+        Ok(())
+    })
+}
+
+/// `events --json`, written entry by entry as the rows are read: the same bytes
+/// as pretty-printing `{"schema": 1, "events": [...]}` whole (keys sorted, as
+/// serde_json's map sorts them), without holding every entry.
+fn events_json(plant: &Plant, cell: Option<&str>, limit: usize) -> Result<()> {
+    use std::io::ErrorKind::BrokenPipe;
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    let mut first = true;
+    let r = plant.each_recent_event(cell, limit, |e| -> Result<()> {
+        let text = serde_json::to_string_pretty(&serde_json::to_value(&e)?)?;
+        out.write_all(if first { b"{\n  \"events\": [\n" } else { b",\n" })?;
+        first = false;
+        for (i, line) in text.lines().enumerate() {
+            if i > 0 {
+                out.write_all(b"\n")?;
+            }
+            out.write_all(b"    ")?;
+            out.write_all(line.as_bytes())?;
+        }
+        Ok(())
+    });
+    let r = r.and_then(|()| {
+        out.write_all(if first { b"{\n  \"events\": [],\n" } else { b"\n  ],\n" })?;
+        out.write_all(b"  \"schema\": 1\n}\n")?;
+        Ok(out.flush()?)
+    });
+    match r {
+        Err(e) if e.downcast_ref::<std::io::Error>().is_some_and(|e| e.kind() == BrokenPipe) => Ok(()),
+        r => r,
     }
-    Ok(())
 }
 
 /// What a first start on an empty database says instead of an empty screen.

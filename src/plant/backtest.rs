@@ -42,17 +42,47 @@ impl Plant {
         let params = db.params_at_all(to)?;
         let mut curves: HashMap<i64, StoreCurve<'_>> = HashMap::new();
         // the section's values learnt up to a time, by (a cell of the section, time)
-        let mut known: HashMap<(String, Time), HashMap<String, CellLearnt>> = HashMap::new();
+        let mut known: HashMap<(u32, Time), HashMap<String, CellLearnt>> = HashMap::new();
         let mut crops = Vec::new();
         let mut scrap = Vec::new();
-        for r in db.learn_rows(only_cell, from, to)? {
-            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { continue };
-            let section = db.section_cells(&r.cell)?.into_iter().next().unwrap_or_else(|| r.cell.clone());
-            let key = (section, r.started_at);
-            if !known.contains_key(&key) {
-                known.insert(key.clone(), learn::learnt_until(db, &r.cell, r.started_at, &params)?);
+        // two passes over the rows as they are read: first how many rows need
+        // each key's values, then the rows, a key's values dropped after their
+        // last use, so a year of weighings holds only the few sections' values
+        // still pending (and not the rows themselves)
+        // a section by a number (its first cell's, numbered as met) and each cell's
+        let mut numbers: HashMap<String, u32> = HashMap::new();
+        let mut section_number: HashMap<String, u32> = HashMap::new();
+        let mut section_of = |cell: &str| -> Result<u32> {
+            if let Some(&n) = section_number.get(cell) {
+                return Ok(n);
+            }
+            let first = db.section_cells(cell)?.into_iter().next().unwrap_or_else(|| cell.to_string());
+            let next = numbers.len() as u32;
+            let n = *numbers.entry(first).or_insert(next);
+            section_number.insert(cell.to_string(), n);
+            Ok(n)
+        };
+        let mut uses: HashMap<(u32, Time), u32> = HashMap::new();
+        db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
+            if by_id.contains_key(r.cell.as_str()) && params.contains_key(&r.cell) {
+                *uses.entry((section_of(&r.cell)?, r.started_at)).or_default() += 1;
+            }
+            Ok(())
+        })?;
+        db.each_learn_row(only_cell, from, to, |r| -> Result<()> {
+            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { return Ok(()) };
+            let key = (section_of(&r.cell)?, r.started_at);
+            if let std::collections::hash_map::Entry::Vacant(e) = known.entry(key) {
+                e.insert(learn::learnt_until(db, &r.cell, r.started_at, &params)?);
             }
             let l = known.get(&key).and_then(|m| m.get(&r.cell)).copied().unwrap_or_else(|| CellLearnt::layout(p));
+            if let Some(n) = uses.get_mut(&key) {
+                *n -= 1;
+                if *n == 0 {
+                    uses.remove(&key);
+                    known.remove(&key);
+                }
+            }
             match r.kind {
                 WeighingKind::Crop => {
                     let curve = match curves.entry(cell.circuit_id) {
@@ -73,7 +103,7 @@ impl Plant {
                     crops.push(crop_row(&c, &l.cathode, p.cathode_efficiency, reach));
                 }
                 WeighingKind::Scrap => {
-                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { continue };
+                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { return Ok(()) };
                     let load = AnodeLoad {
                         initial_kg: set_kg,
                         count,
@@ -94,7 +124,8 @@ impl Plant {
                     scrap.push(scrap_row(&s, &l.anode, p.anode_efficiency));
                 }
             }
-        }
+            Ok(())
+        })?;
         let summary = summarise(&crops, &scrap);
         Ok(Backtest { schema: 1, from, to, crops, scrap, summary })
     }

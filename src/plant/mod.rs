@@ -271,6 +271,17 @@ impl Plant {
         backup::backup_to(&self.store, dest)
     }
 
+    /// The newest entries first (undos included), optionally of one cell,
+    /// each handed to `f` as it is read (a long listing is not held whole).
+    pub fn each_recent_event<E: From<StoreError>>(
+        &self,
+        cell: Option<&str>,
+        limit: usize,
+        f: impl FnMut(crate::domain::history::Event) -> std::result::Result<(), E>,
+    ) -> std::result::Result<(), E> {
+        self.store.db().each_recent_event(cell, limit, f)
+    }
+
     /// Every row of the database as text (for tests that prove nothing changed).
     pub fn dump(&self) -> Result<String> {
         Ok(self.store.db().dump()?)

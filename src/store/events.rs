@@ -148,6 +148,25 @@ impl Db<'_> {
         decoded(st.query_map(params![cell, limit as i64], event)?)
     }
 
+    /// [`Db::recent_events`] one at a time, each handed to `f` as it is read,
+    /// so a long listing holds one entry, not all of them.
+    pub fn each_recent_event<E: From<StoreError>>(
+        &self,
+        cell: Option<&str>,
+        limit: usize,
+        mut f: impl FnMut(Event) -> std::result::Result<(), E>,
+    ) -> std::result::Result<(), E> {
+        let sql = format!(
+            "SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id
+             WHERE (?1 IS NULL OR e.cell_id = ?1 OR e.voids IN (SELECT id FROM event WHERE cell_id = ?1)) ORDER BY e.id DESC LIMIT ?2"
+        );
+        let mut st = self.c.prepare_cached(&sql).map_err(StoreError::from)?;
+        for r in st.query_map(params![cell, limit as i64], event).map_err(StoreError::from)? {
+            f(r.map_err(StoreError::from)?.map_err(StoreError::Damaged)?)?;
+        }
+        Ok(())
+    }
+
     /// Every event of a cell, in entry order.
     pub fn cell_events(&self, cell: &str) -> Result<Vec<Event>> {
         let sql = format!("SELECT {EVENT_COLS} FROM event e LEFT JOIN circuit c ON c.id = e.circuit_id WHERE e.cell_id = ?1 ORDER BY e.id");

@@ -157,6 +157,26 @@ impl Db<'_> {
         Ok(v.collect::<rusqlite::Result<_>>()?)
     }
 
+    /// [`Db::learn_rows`] one at a time, each handed to `f` as it is read (a
+    /// year's weighings are not held whole).
+    pub fn each_learn_row<E: From<super::StoreError>>(
+        &self,
+        cell: Option<&str>,
+        from: Time,
+        to: Time,
+        mut f: impl FnMut(LearnRow) -> std::result::Result<(), E>,
+    ) -> std::result::Result<(), E> {
+        let sql = format!(
+            "SELECT {ROW_COLS} FROM learn_weighing w WHERE (?1 IS NULL OR w.cell_id = ?1) AND w.ended_at >= ?2 AND w.ended_at <= ?3
+             ORDER BY w.ended_at, w.cell_id, w.kind"
+        );
+        let mut st = self.c.prepare_cached(&sql).map_err(super::StoreError::from)?;
+        for r in st.query_map(params![cell, secs(from), secs(to)], learn_row).map_err(super::StoreError::from)? {
+            f(r.map_err(super::StoreError::from)?)?;
+        }
+        Ok(())
+    }
+
     /// Weighings left out of learning, weighed in `[from, to]`.
     pub fn left_out_rows(&self, from: Time, to: Time) -> Result<Vec<LearnRow>> {
         let sql = format!(
@@ -208,9 +228,12 @@ impl Db<'_> {
         )?)
     }
 
-    /// The learn tables as text, for comparing with learning afresh.
-    pub fn learn_digest(&self) -> Result<String> {
-        let mut out = String::new();
+    /// A digest of the learn tables, for comparing with learning afresh.
+    pub fn learn_digest(&self) -> Result<u64> {
+        use std::hash::{Hash, Hasher};
+        // hashed row by row, not kept as text: a year's weighings are tens of
+        // megabytes of it (DefaultHasher::new is the same in one process)
+        let mut out = std::collections::hash_map::DefaultHasher::new();
         for sql in [
             "SELECT cell_id, kind, started_at, ended_at, printf('%.9e', charge_ah), weighed_kg, count, set_kg, printf('%.9e', value), left_out,
              printf('%.6e', z) FROM learn_weighing ORDER BY cell_id, kind, started_at",
@@ -222,12 +245,11 @@ impl Db<'_> {
             let mut rows = st.query([])?;
             while let Some(r) = rows.next()? {
                 let cols: Vec<String> = (0..n).map(|i| r.get_ref(i).map(|v| format!("{v:?}")).unwrap_or_default()).collect();
-                out.push_str(&cols.join("|"));
-                out.push('\n');
+                cols.join("|").hash(&mut out);
             }
-            out.push_str("--\n");
+            "--".hash(&mut out);
         }
-        Ok(out)
+        Ok(out.finish())
     }
 
     /// Every cell's stored learnt values.
