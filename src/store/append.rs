@@ -95,7 +95,7 @@ impl Db<'_> {
     }
 
     /// Inserts derived records (as `write_history` does, without deleting the cell's others).
-    fn insert_history(&self, cell: &str, h: &CellHistory, crops: &[Option<CropFigures>]) -> Result<()> {
+    pub(super) fn insert_history(&self, cell: &str, h: &CellHistory, crops: &[Option<CropFigures>]) -> Result<()> {
         let mut st = self.c.prepare_cached(
             "INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
         )?;

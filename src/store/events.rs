@@ -179,33 +179,7 @@ impl Db<'_> {
         self.c.execute("DELETE FROM anode_load WHERE cell_id = ?1", [cell])?;
         self.c.execute("DELETE FROM crop WHERE cell_id = ?1", [cell])?;
         self.c.execute("DELETE FROM cutout WHERE cell_id = ?1", [cell])?;
-        let mut st = self.c.prepare_cached(
-            "INSERT INTO anode_load(set_event, cell_id, set_at, count, mean_kg, ended_at, scrap_kg) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7)",
-        )?;
-        for l in &h.loads {
-            st.execute(params![l.set_event, cell, secs(l.set_at), l.count, l.mean_kg, l.ended_at.map(secs), l.scrap_kg])?;
-        }
-        let mut st = self.c.prepare_cached(
-            "INSERT INTO crop(cell_id, started_at, ended_at, harvest_event, harvest_kg, charge_ah, efficiency, estimated_ah) VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8)",
-        )?;
-        for (i, c) in h.crops.iter().enumerate() {
-            let f = crops.get(i).copied().flatten();
-            st.execute(params![
-                cell,
-                secs(c.started_at),
-                c.ended_at.map(secs),
-                c.harvest_event,
-                c.harvest_kg,
-                f.map(|f| f.charge_ah),
-                f.and_then(|f| f.efficiency),
-                f.map(|f| f.estimated_ah)
-            ])?;
-        }
-        let mut st = self.c.prepare_cached("INSERT INTO cutout(event, cell_id, from_at, to_at) VALUES (?1, ?2, ?3, ?4)")?;
-        for c in &h.cutouts {
-            st.execute(params![c.event, cell, secs(c.span.from), c.span.to.map(secs)])?;
-        }
-        Ok(())
+        self.insert_history(cell, h, crops)
     }
 
     /// The stored figures of a cell's closed crops, by (start, end, weighed kg).
