@@ -103,24 +103,9 @@ impl Db<'_> {
         for k in kinds {
             self.c.prepare_cached("DELETE FROM learn_weighing WHERE cell_id = ?1 AND kind = ?2")?.execute([cell, k.name()])?;
         }
-        let mut st = self.c.prepare_cached(
-            "INSERT INTO learn_weighing(cell_id, kind, started_at, ended_at, charge_ah, weighed_kg, count, set_kg, value, left_out, z)
-             VALUES (?1, ?2, ?3, ?4, ?5, ?6, ?7, ?8, ?9, ?10, ?11)",
-        )?;
+        // the rows are the cell's own (built for it by plant/learn.rs)
         for w in rows {
-            st.execute(params![
-                cell,
-                w.kind.name(),
-                secs(w.started_at),
-                secs(w.ended_at),
-                w.charge_ah,
-                w.weighed_kg,
-                w.count,
-                w.set_kg,
-                w.value,
-                w.left_out,
-                w.z
-            ])?;
+            self.add_learn_row(w)?;
         }
         Ok(())
     }
