@@ -8,7 +8,8 @@
 # temporary folder (removed at the end). Needs bash, coreutils and GNU time
 # (/usr/bin/time; `apt-get install time`); the layout reload row also needs
 # the sqlite3 shell to read the layout text back, and is skipped without it.
-# The screens are measured by scripts/bench_memory.sh --tui (needs tmux).
+# The screens are measured by scripts/bench_memory.sh --tui (needs tmux); KEYS="c"
+# picks the views opened, in order (default "p s f c e r"; the peak is cumulative).
 set -euo pipefail
 
 tui=0
@@ -52,7 +53,7 @@ if [[ $tui == 1 ]]; then
     printf '%-30s %8s\n' "first frame" "$(hwm)"
     # the start asks who is logging the shift
     tmux -S "$sock" send-keys M B Enter
-    for key in p s f c e r; do
+    for key in ${KEYS:-p s f c e r}; do
         tmux -S "$sock" send-keys "$key"
         settle
         printf '%-30s %8s\n' "after key $key ($(tmux -S "$sock" capture-pane -p | awk -F'│' 'NR == 1 {gsub(/ /, "", $2); print $2}'))" "$(hwm)"
