@@ -71,6 +71,12 @@ fn readings() -> String {
     s
 }
 
+/// Windows of the plant-wide reads, in hours: loads, crops, voltages.
+fn hours(load: i64, crop: i64, voltage: i64) -> crate::store::Windows {
+    let h = chrono::Duration::hours;
+    crate::store::Windows { load: h(load), crop: h(crop), voltage: h(voltage) }
+}
+
 /// Plays the sequence; entries the plant refuses are skipped, as a foreman's would be.
 fn play(p: &mut Plant, ops: &[Op]) {
     let mut ids = Vec::new();
@@ -126,6 +132,14 @@ proptest! {
             for since in [at(0), as_of - chrono::Duration::days(30), at(200)] {
                 prop_assert_eq!(db.flagged_gaps(c1, since, as_of).unwrap(), db.reading_gaps(c1, since, as_of).unwrap());
                 prop_assert_eq!(db.flagged_live_in_outages(c1, since, as_of).unwrap(), db.live_readings_in_outages(c1, since, as_of).unwrap());
+            }
+            // the plant-wide ranges give what the cells' own reads give, however
+            // short the windows (every record read per cell) or long
+            let params = db.params_at_all(as_of).unwrap();
+            let inert = |id: &str| params.get(id).is_some_and(|p| p.anode_kind == crate::domain::layout::AnodeKind::Inert);
+            let usual = db.cell_states(as_of, None, inert).unwrap();
+            for w in [hours(1, 1, 1), hours(60, 30, 10), hours(2000, 2000, 2000)] {
+                prop_assert_eq!(&db.cell_states_within(as_of, None, inert, w).unwrap(), &usual, "as of {}, {:?}", as_of, w);
             }
             let fast = p.forecast(as_of, None).unwrap();
             let by_cell = forecast_by_cell(p.store.db(), as_of).unwrap();

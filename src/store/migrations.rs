@@ -16,6 +16,7 @@ pub const MIGRATIONS: &[(&str, &str)] = &[
     ("007_snapshot_lookup", include_str!("migrations/007_snapshot_lookup.sql")),
     ("008_open_records", include_str!("migrations/008_open_records.sql")),
     ("009_charge_by_time", include_str!("migrations/009_charge_by_time.sql")),
+    ("010_recent_state", include_str!("migrations/010_recent_state.sql")),
 ];
 
 /// How many migrations the database has had.
@@ -116,6 +117,13 @@ mod tests {
         let curve = crate::store::readings::StoreCurve::new(store.db(), 1, crate::store::time(5000).unwrap()).unwrap();
         assert_eq!(curve.time_at(15000.0).unwrap().map(|t| t.timestamp()), Some(2800), "half-way between the two readings");
         assert_eq!(curve.time_at(30000.0).unwrap().map(|t| t.timestamp()), Some(4600));
+        // 010: the recent-state ranges exist, and the old crop is found through its range by time
+        for name in ["anode_load_recent", "crop_recent", "event_recent"] {
+            let n: i64 = c.query_row("SELECT count(*) FROM sqlite_master WHERE name = ?1", [name], |r| r.get(0)).unwrap();
+            assert_eq!(n, 1, "{name}");
+        }
+        let states = store.db().cell_states(crate::store::time(5000).unwrap(), None, |_| false).unwrap();
+        assert_eq!(states["A01"].crop_started.map(|t| t.timestamp()), Some(1000));
     }
 
     #[test]

@@ -34,7 +34,7 @@ pub use curve_slice::{SLICE_SPAN, SliceCurve};
 pub use migrations::{MIGRATIONS, migrate, schema_version};
 pub use readings::StoreCurve;
 pub use report::CropRow;
-pub use snapshot::CellState;
+pub use snapshot::{CellState, Windows};
 
 use crate::domain::charge::Time;
 
