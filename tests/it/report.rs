@@ -3,7 +3,7 @@
 //! become live HTML.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 
 use common::Tk;
 

@@ -3,7 +3,7 @@
 //! reported by `check` and refused by `forecast` and `plan`.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 use std::path::{Path, PathBuf};
 

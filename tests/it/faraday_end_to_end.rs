@@ -2,7 +2,7 @@
 //! derived from CODATA 2018 F and IUPAC M(Cu) and against a hand calculation.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 
 /// ECE of copper, g/(A·h): 3600·63.546/(2·96485.33212) (CODATA 2018, IUPAC), written out by hand.

@@ -3,7 +3,7 @@
 //! since, and smoothing against the cap-only plan on the demo.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 use serde_json::Value;
 use std::collections::BTreeMap;

@@ -2,7 +2,7 @@
 //! field (or the option), and a database left exactly as it was.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 
 fn plant() -> Tk {

@@ -16,7 +16,7 @@
 //!
 //! Every figure here is invented for the test.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
-mod common;
+use crate::common;
 
 use chrono::{DateTime, Duration, TimeZone, Utc};
 use std::collections::HashMap;

@@ -2,7 +2,7 @@
 //! the trade's typical figures (common practice, no source; DOMAIN.md, from memory).
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 
 const NOW: &str = "2026-11-20T05:30:00Z";

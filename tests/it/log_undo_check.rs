@@ -2,7 +2,7 @@
 //! order, integrity checks and backups.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 
 fn plant() -> Tk {

@@ -4,7 +4,7 @@
 //! On a plant built here through the command line (invented figures), and on the demo.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use chrono::{DateTime, Duration, Utc};
 use common::*;
 use serde_json::Value;

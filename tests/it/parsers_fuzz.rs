@@ -66,7 +66,7 @@ fn csv_text() -> impl Strategy<Value = Vec<u8>> {
     ]
 }
 
-const LAYOUT: &str = include_str!("../fixtures/plant_check.toml");
+const LAYOUT: &str = include_str!("../../fixtures/plant_check.toml");
 
 /// The plant-check layout with a few lines replaced, dropped or scrambled.
 fn layout_text() -> impl Strategy<Value = String> {

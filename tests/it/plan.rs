@@ -2,7 +2,7 @@
 //! calculation, the command's contract, and the demo plant's capacities never exceeded.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 use serde_json::Value;
 use std::collections::BTreeSet;

@@ -4,7 +4,7 @@
 //! and every backup in `backups/` is sound (a kill can land in the daily backup).
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 use common::*;
 use std::process::{Child, Command, Stdio};
 use std::time::{Duration, Instant};

@@ -3,7 +3,7 @@
 //! Faraday electrolyte gain.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 
 use common::Tk;
 use serde_json::Value;

@@ -10,7 +10,7 @@ use tankbook::domain::charge::{RawReading, Span, accumulate};
 use tankbook::domain::entry::Entry;
 use tankbook::plant::{Opts, Plant, PlantError};
 
-mod common;
+use crate::common;
 
 fn t0() -> DateTime<Utc> {
     DateTime::parse_from_rfc3339("2026-03-01T00:00:00Z").unwrap().to_utc()

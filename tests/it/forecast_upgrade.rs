@@ -2,7 +2,7 @@
 //! by their end) on a database written before them: it upgrades and forecasts the same.
 #![allow(clippy::unwrap_used, clippy::expect_used, clippy::panic)] // tests stop loudly (DEVELOPERS.md)
 
-mod common;
+use crate::common;
 
 #[test]
 fn a_database_from_before_the_snapshot_look_ups_upgrades_and_forecasts_the_same() {
