@@ -329,4 +329,13 @@ mod tests {
         assert_eq!(s.harvest_time_mae_h, Some(1.0));
         assert_eq!(s.scrap_mae_pp, None);
     }
+
+    #[test]
+    fn a_name_prints_and_serialises_as_its_string() {
+        let n = Name::from("A01");
+        assert_eq!(format!("[{n:<5}] [{n:>5}]"), "[A01  ] [  A01]");
+        assert_eq!(serde_json::to_string(&n).unwrap(), serde_json::to_string("A01").unwrap());
+        let later = Name::from("A02");
+        assert!(n == "A01" && n.clone() == n && n < later);
+    }
 }

@@ -233,3 +233,167 @@ impl Plant {
         Ok(summary.summary())
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::demo::{DemoSpec, build};
+    use crate::domain::backtest::summarise;
+    use crate::domain::learn::{CellLearnt, Source};
+    use crate::plant::learn::learnt_until;
+
+    fn now() -> Time {
+        chrono::DateTime::parse_from_rfc3339("2026-11-20T05:30:00Z").unwrap().to_utc()
+    }
+
+    /// The demo plant (two circuits, several sections, weighings of many cells interleaved in time).
+    fn demo() -> (tempfile::TempDir, Plant) {
+        let dir = tempfile::tempdir().unwrap();
+        let mut plant = Plant::open(&dir.path().join("demo.db")).unwrap();
+        build(&mut plant, &DemoSpec { cells: 102, days: 60, seed: 11, reading_minutes: 30 }, now()).unwrap();
+        (dir, plant)
+    }
+
+    /// The back-test as it was made before the section's rows were read once:
+    /// every (section, start) learnt by [`learnt_until`], which reads its rows
+    /// from the store again; the reference of the faster path.
+    fn backtest_by_learnt_until(plant: &Plant, from: Option<Time>, to: Time, only_cell: Option<&str>) -> Backtest {
+        let (from, to) = plant.backtest_period(from, to, only_cell).unwrap();
+        let db = plant.store.db();
+        let cells = db.cells().unwrap();
+        let by_id: HashMap<&str, &crate::store::CellRow> = cells.iter().map(|c| (c.id.as_str(), c)).collect();
+        let params = db.params_at_all(to).unwrap();
+        let (mut crops, mut scrap) = (Vec::new(), Vec::new());
+        for r in db.learn_rows(only_cell, from, to).unwrap() {
+            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { continue };
+            let l =
+                learnt_until(db, &r.cell, r.started_at, &params).unwrap().get(&r.cell).copied().unwrap_or_else(|| CellLearnt::layout(p));
+            let (name, circuit, section) =
+                (Name::from(r.cell.as_str()), Name::from(cell.circuit.as_str()), Name::from(cell.section.as_str()));
+            match r.kind {
+                WeighingKind::Crop => {
+                    let curve = StoreCurve::new(db, cell.circuit_id, far_future()).unwrap();
+                    let cuts = db.cutouts(&r.cell, far_future()).unwrap();
+                    let reach =
+                        cell_time_reaching(&curve, &cuts, r.started_at, charge_for_copper_ah(r.weighed_kg, l.cathode.value)).unwrap();
+                    let c = Crop {
+                        cell: &name,
+                        circuit: &circuit,
+                        section: &section,
+                        started_at: r.started_at,
+                        harvested_at: r.ended_at,
+                        charge_ah: r.charge_ah,
+                        weighed_kg: r.weighed_kg,
+                    };
+                    crops.push(crop_row(&c, &l.cathode, p.cathode_efficiency, reach));
+                }
+                WeighingKind::Scrap => {
+                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { continue };
+                    let load = AnodeLoad {
+                        initial_kg: set_kg,
+                        count,
+                        efficiency: 1.0,
+                        copper_fraction: p.anode_copper_fraction,
+                        lug_kg: p.lug_kg,
+                    };
+                    let s = Scrap {
+                        cell: &name,
+                        circuit: &circuit,
+                        section: &section,
+                        set_at: r.started_at,
+                        pulled_at: r.ended_at,
+                        charge_ah: r.charge_ah,
+                        weighed_kg: r.weighed_kg,
+                        load,
+                    };
+                    scrap.push(scrap_row(&s, &l.anode, p.anode_efficiency));
+                }
+            }
+        }
+        let summary = summarise(&crops, &scrap);
+        Backtest { schema: 1, from, to, crops, scrap, summary }
+    }
+
+    #[test]
+    fn the_sections_read_once_learn_what_learnt_until_learns_at_every_boundary() {
+        let (_dir, plant) = demo();
+        let db = plant.store.db();
+        let params = db.params_at_all(far_future()).unwrap();
+        let rows = db.learn_rows(None, db.earliest_weighing_at().unwrap().unwrap(), far_future()).unwrap();
+        let mut sections: HashMap<String, (SectionHistory, Vec<String>)> = HashMap::new();
+        let (mut checked, mut learnt_from_cells) = (0, 0);
+        // every weighing's start, its own time and the second before it: the
+        // weighings at the time count, those a second later do not
+        for r in rows.iter().step_by(3) {
+            let first = db.section_cells(&r.cell).unwrap();
+            let (history, members) = sections
+                .entry(first[0].clone())
+                .or_insert_with(|| (SectionHistory::read(db, &r.cell, far_future()).unwrap(), first.clone()));
+            for until in [r.started_at, r.ended_at, r.ended_at - chrono::Duration::seconds(1)] {
+                let old = learnt_until(db, &r.cell, until, &params).unwrap();
+                for kind in [WeighingKind::Crop, WeighingKind::Scrap] {
+                    let learnt = history.learnt_until(kind, until);
+                    for (i, c) in members.iter().enumerate() {
+                        let Some(p) = params.get(c) else { continue };
+                        let new = cell_estimate(&learnt, kind, Some(i), p);
+                        let was = match kind {
+                            WeighingKind::Crop => old[c].cathode,
+                            WeighingKind::Scrap => old[c].anode,
+                        };
+                        assert_eq!(new, was, "{c} {kind:?} as of {until}");
+                        checked += 1;
+                        learnt_from_cells += usize::from(new.source == Source::Cell);
+                    }
+                }
+            }
+        }
+        assert!(sections.len() >= 4, "{} sections", sections.len());
+        assert!(learnt_from_cells > checked / 4, "{learnt_from_cells} of {checked} learnt from the cells' own weighings");
+    }
+
+    #[test]
+    fn the_streamed_backtest_is_the_one_learnt_by_learnt_until() {
+        let (_dir, plant) = demo();
+        let whole = plant.backtest(None, now(), None).unwrap();
+        assert_eq!(whole, backtest_by_learnt_until(&plant, None, now(), None));
+        assert!(whole.crops.len() > 100 && !whole.scrap.is_empty(), "{} crops, {} scrap", whole.crops.len(), whole.scrap.len());
+        assert!(whole.crops.iter().any(|r| r.cathode_efficiency_source == Source::Cell));
+        assert_eq!(whole.summary, summarise(&whole.crops, &whole.scrap));
+        // a part of the period, one cell
+        let from = now() - chrono::Duration::days(20);
+        let to = now() - chrono::Duration::days(3);
+        assert_eq!(plant.backtest(Some(from), to, None).unwrap(), backtest_by_learnt_until(&plant, Some(from), to, None));
+        let cell = &whole.crops[whole.crops.len() / 2].cell;
+        let one = plant.backtest(None, now(), Some(cell)).unwrap();
+        assert!(!one.crops.is_empty());
+        assert_eq!(one, backtest_by_learnt_until(&plant, None, now(), Some(cell)));
+    }
+
+    /// Stops at the first crop.
+    #[derive(Default)]
+    struct First(Vec<CropRow>, Vec<ScrapRow>);
+
+    impl BacktestSink for First {
+        fn crop(&mut self, row: CropRow) -> ControlFlow<()> {
+            self.0.push(row);
+            ControlFlow::Break(())
+        }
+        fn scrap(&mut self, row: ScrapRow) -> ControlFlow<()> {
+            self.1.push(row);
+            ControlFlow::Continue(())
+        }
+    }
+
+    #[test]
+    fn a_sink_that_stops_gets_no_more_rows_and_the_summary_of_those_it_got() {
+        let (_dir, plant) = demo();
+        let (from, to) = plant.backtest_period(None, now(), None).unwrap();
+        let mut first = First::default();
+        let s = plant.backtest_each(from, to, None, &mut first).unwrap();
+        assert_eq!(first.0.len(), 1);
+        assert_eq!(s, summarise(&first.0, &first.1));
+        let whole = plant.backtest(None, now(), None).unwrap();
+        assert_eq!(first.0[0], whole.crops[0]);
+        assert!(whole.crops.len() > 1);
+    }
+}

@@ -191,3 +191,47 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         chart,
     );
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::demo::{DemoSpec, build};
+    use crate::domain::backtest::summarise;
+
+    /// The screen from the rows as they come equals the one made from the
+    /// whole back-test: each section's summary of its own rows, each crop's points.
+    #[test]
+    fn the_screen_made_as_the_rows_come_is_the_one_made_from_them_all() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut plant = Plant::open(&dir.path().join("demo.db")).unwrap();
+        let now = chrono::DateTime::parse_from_rfc3339("2026-11-20T05:30:00Z").unwrap().to_utc();
+        build(&mut plant, &DemoSpec { cells: 102, days: 45, seed: 5, reading_minutes: 30 }, now).unwrap();
+        let b = plant.backtest(None, now, None).unwrap();
+        let mut keys: Vec<(String, String)> = b
+            .crops
+            .iter()
+            .map(|r| (r.circuit.to_string(), r.section.to_string()))
+            .chain(b.scrap.iter().map(|r| (r.circuit.to_string(), r.section.to_string())))
+            .collect();
+        keys.sort();
+        keys.dedup();
+        let sections: Vec<(String, String, Summary)> = keys
+            .into_iter()
+            .map(|(circuit, section)| {
+                let crops: Vec<_> =
+                    b.crops.iter().filter(|r| r.circuit == circuit.as_str() && r.section == section.as_str()).cloned().collect();
+                let scrap: Vec<_> =
+                    b.scrap.iter().filter(|r| r.circuit == circuit.as_str() && r.section == section.as_str()).cloned().collect();
+                let s = summarise(&crops, &scrap);
+                (circuit, section, s)
+            })
+            .collect();
+        let screen = AccuracyScreen::load(&plant, now).unwrap();
+        assert!(sections.len() >= 4, "{sections:?}");
+        assert_eq!(screen.sections, sections);
+        let v = screen.backtest.unwrap();
+        assert_eq!(v.summary, b.summary);
+        assert_eq!(v.learnt, b.crops.iter().map(|r| (r.weighed_kg, r.predicted_kg)).collect::<Vec<_>>());
+        assert_eq!(v.fixed, b.crops.iter().map(|r| (r.weighed_kg, r.fixed_kg)).collect::<Vec<_>>());
+    }
+}
