@@ -4,9 +4,11 @@
 //! Learnt values are stored, not recomputed per forecast: a weighing, an undo or
 //! a back-fill refreshes the rows of the cells it touches and relearns their
 //! sections ([`relearn`]). A forecast as of now reads the stored values; one as
-//! of an earlier time (and the back-test) learns from the stored rows weighed
-//! up to that time ([`learnt_until`]): a query per section and the pure
-//! estimator, never a replay of the history.
+//! of an earlier time learns from the stored rows weighed up to that time
+//! ([`learnt_until`]): a query per section and the pure estimator, never a
+//! replay of the history. The back-test, which learns as of every crop's
+//! start, reads each section's rows once ([`SectionHistory`]) and learns over
+//! the prefix of each cell's rows weighed by then: the same values.
 
 use std::collections::{BTreeSet, HashMap};
 
