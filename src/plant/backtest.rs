@@ -25,8 +25,9 @@ use crate::domain::backtest::{Backtest, Crop, CropRow, Name, Scrap, ScrapRow, Su
 use crate::domain::charge::{Time, cell_time_reaching};
 use crate::domain::electrochem::charge_for_copper_ah;
 use crate::domain::entry::Field;
-use crate::domain::learn::SectionLearnt;
-use crate::store::{StoreCurve, WeighingKind};
+use crate::domain::layout::CellParams;
+use crate::domain::learn::{Estimate, SectionLearnt};
+use crate::store::{Db, LearnRow, StoreCurve, WeighingKind};
 
 /// Where the back-test's rows go, one at a time in the order of their
 /// weighings (then cell, then kind); `Break` stops the back-test there.
@@ -78,6 +79,59 @@ fn used<K: Eq + Hash, V>(uses: &mut HashMap<K, u32>, kept: &mut HashMap<K, V>, k
             kept.remove(k);
         }
     }
+}
+
+/// A back-test row.
+enum Row {
+    Crop(CropRow),
+    Scrap(ScrapRow),
+}
+
+/// The row of a learn row `r` of the cell at `place`, predicted at the
+/// ex-ante estimate `l` (`None`: a scrap weighing without its load's count or mass).
+fn row_of<'d>(
+    db: Db<'d>,
+    curves: &mut HashMap<i64, StoreCurve<'d>>,
+    r: &LearnRow,
+    place: &Place,
+    p: &CellParams,
+    l: &Estimate,
+) -> Result<Option<Row>> {
+    Ok(Some(match r.kind {
+        WeighingKind::Crop => {
+            let curve = match curves.entry(place.circuit_id) {
+                Entry::Occupied(e) => e.into_mut(),
+                Entry::Vacant(e) => e.insert(StoreCurve::new(db, place.circuit_id, far_future())?),
+            };
+            let cuts = db.cutouts(&r.cell, far_future())?;
+            let reach = cell_time_reaching(&*curve, &cuts, r.started_at, charge_for_copper_ah(r.weighed_kg, l.value))?;
+            let c = Crop {
+                cell: &place.cell,
+                circuit: &place.circuit,
+                section: &place.section,
+                started_at: r.started_at,
+                harvested_at: r.ended_at,
+                charge_ah: r.charge_ah,
+                weighed_kg: r.weighed_kg,
+            };
+            Row::Crop(crop_row(&c, l, p.cathode_efficiency, reach))
+        }
+        WeighingKind::Scrap => {
+            let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { return Ok(None) };
+            let load = AnodeLoad { initial_kg: set_kg, count, efficiency: 1.0, copper_fraction: p.anode_copper_fraction, lug_kg: p.lug_kg };
+            let s = Scrap {
+                cell: &place.cell,
+                circuit: &place.circuit,
+                section: &place.section,
+                set_at: r.started_at,
+                pulled_at: r.ended_at,
+                charge_ah: r.charge_ah,
+                weighed_kg: r.weighed_kg,
+                load,
+            };
+            Row::Scrap(scrap_row(&s, l, p.anode_efficiency))
+        }
+    }))
 }
 
 impl Plant {
@@ -182,50 +236,16 @@ impl Plant {
             let l = cell_estimate(learnt, r.kind, i, p);
             used(&mut key_uses, &mut known, &key);
             used(&mut section_uses, &mut histories, &n);
-            let flow = match r.kind {
-                WeighingKind::Crop => {
-                    let curve = match curves.entry(place.circuit_id) {
-                        Entry::Occupied(e) => e.into_mut(),
-                        Entry::Vacant(e) => e.insert(StoreCurve::new(db, place.circuit_id, far_future())?),
-                    };
-                    let cuts = db.cutouts(&r.cell, far_future())?;
-                    let reach = cell_time_reaching(&*curve, &cuts, r.started_at, charge_for_copper_ah(r.weighed_kg, l.value))?;
-                    let c = Crop {
-                        cell: &place.cell,
-                        circuit: &place.circuit,
-                        section: &place.section,
-                        started_at: r.started_at,
-                        harvested_at: r.ended_at,
-                        charge_ah: r.charge_ah,
-                        weighed_kg: r.weighed_kg,
-                    };
-                    let row = crop_row(&c, &l, p.cathode_efficiency, reach);
+            let flow = match row_of(db, &mut curves, &r, place, p, &l)? {
+                Some(Row::Crop(row)) => {
                     summary.crop(&row);
                     sink.crop(row)
                 }
-                WeighingKind::Scrap => {
-                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { return Ok(()) };
-                    let load = AnodeLoad {
-                        initial_kg: set_kg,
-                        count,
-                        efficiency: 1.0,
-                        copper_fraction: p.anode_copper_fraction,
-                        lug_kg: p.lug_kg,
-                    };
-                    let s = Scrap {
-                        cell: &place.cell,
-                        circuit: &place.circuit,
-                        section: &place.section,
-                        set_at: r.started_at,
-                        pulled_at: r.ended_at,
-                        charge_ah: r.charge_ah,
-                        weighed_kg: r.weighed_kg,
-                        load,
-                    };
-                    let row = scrap_row(&s, &l, p.anode_efficiency);
+                Some(Row::Scrap(row)) => {
                     summary.scrap(&row);
                     sink.scrap(row)
                 }
+                None => ControlFlow::Continue(()),
             };
             stopped = flow.is_break();
             Ok(())
@@ -261,53 +281,27 @@ mod tests {
         let (from, to) = plant.backtest_period(from, to, only_cell).unwrap();
         let db = plant.store.db();
         let cells = db.cells().unwrap();
-        let by_id: HashMap<&str, &crate::store::CellRow> = cells.iter().map(|c| (c.id.as_str(), c)).collect();
         let params = db.params_at_all(to).unwrap();
+        let mut curves = HashMap::new();
         let (mut crops, mut scrap) = (Vec::new(), Vec::new());
         for r in db.learn_rows(only_cell, from, to).unwrap() {
-            let (Some(cell), Some(p)) = (by_id.get(r.cell.as_str()), params.get(&r.cell)) else { continue };
+            let (Some(cell), Some(p)) = (cells.iter().find(|c| c.id == r.cell), params.get(&r.cell)) else { continue };
             let l =
                 learnt_until(db, &r.cell, r.started_at, &params).unwrap().get(&r.cell).copied().unwrap_or_else(|| CellLearnt::layout(p));
-            let (name, circuit, section) =
-                (Name::from(r.cell.as_str()), Name::from(cell.circuit.as_str()), Name::from(cell.section.as_str()));
-            match r.kind {
-                WeighingKind::Crop => {
-                    let curve = StoreCurve::new(db, cell.circuit_id, far_future()).unwrap();
-                    let cuts = db.cutouts(&r.cell, far_future()).unwrap();
-                    let reach =
-                        cell_time_reaching(&curve, &cuts, r.started_at, charge_for_copper_ah(r.weighed_kg, l.cathode.value)).unwrap();
-                    let c = Crop {
-                        cell: &name,
-                        circuit: &circuit,
-                        section: &section,
-                        started_at: r.started_at,
-                        harvested_at: r.ended_at,
-                        charge_ah: r.charge_ah,
-                        weighed_kg: r.weighed_kg,
-                    };
-                    crops.push(crop_row(&c, &l.cathode, p.cathode_efficiency, reach));
-                }
-                WeighingKind::Scrap => {
-                    let (Some(count), Some(set_kg)) = (r.count, r.set_kg) else { continue };
-                    let load = AnodeLoad {
-                        initial_kg: set_kg,
-                        count,
-                        efficiency: 1.0,
-                        copper_fraction: p.anode_copper_fraction,
-                        lug_kg: p.lug_kg,
-                    };
-                    let s = Scrap {
-                        cell: &name,
-                        circuit: &circuit,
-                        section: &section,
-                        set_at: r.started_at,
-                        pulled_at: r.ended_at,
-                        charge_ah: r.charge_ah,
-                        weighed_kg: r.weighed_kg,
-                        load,
-                    };
-                    scrap.push(scrap_row(&s, &l.anode, p.anode_efficiency));
-                }
+            let place = Place {
+                cell: Name::from(cell.id.as_str()),
+                circuit: Name::from(cell.circuit.as_str()),
+                section: Name::from(cell.section.as_str()),
+                circuit_id: cell.circuit_id,
+            };
+            let estimate = match r.kind {
+                WeighingKind::Crop => l.cathode,
+                WeighingKind::Scrap => l.anode,
+            };
+            match row_of(db, &mut curves, &r, &place, p, &estimate).unwrap() {
+                Some(Row::Crop(row)) => crops.push(row),
+                Some(Row::Scrap(row)) => scrap.push(row),
+                None => {}
             }
         }
         let summary = summarise(&crops, &scrap);
