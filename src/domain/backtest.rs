@@ -10,6 +10,10 @@
 //! the set mass (`scrap_mae_pp`). The charge is the crop's measured charge in
 //! every row, so the errors are those of the efficiencies alone.
 
+use std::fmt;
+use std::ops::Deref;
+use std::sync::Arc;
+
 use serde::Serialize;
 
 use super::anode::AnodeLoad;
@@ -17,12 +21,62 @@ use super::charge::Time;
 use super::electrochem::copper_kg;
 use super::learn::{Estimate, Source};
 
+/// A cell's, circuit's or section's name as the rows carry it: shared by every
+/// row that names it (a year of rows holds each name once), serialised and
+/// shown as the plain string.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub struct Name(Arc<str>);
+
+impl Name {
+    pub fn as_str(&self) -> &str {
+        &self.0
+    }
+}
+
+impl From<&str> for Name {
+    fn from(s: &str) -> Name {
+        Name(Arc::from(s))
+    }
+}
+
+impl Deref for Name {
+    type Target = str;
+    fn deref(&self) -> &str {
+        &self.0
+    }
+}
+
+impl PartialEq<str> for Name {
+    fn eq(&self, other: &str) -> bool {
+        &*self.0 == other
+    }
+}
+
+impl PartialEq<&str> for Name {
+    fn eq(&self, other: &&str) -> bool {
+        &*self.0 == *other
+    }
+}
+
+impl fmt::Display for Name {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        // str's own, so widths and alignment apply as to a String
+        fmt::Display::fmt(&*self.0, f)
+    }
+}
+
+impl Serialize for Name {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(&self.0)
+    }
+}
+
 /// One weighed crop.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CropRow {
-    pub cell: String,
-    pub circuit: String,
-    pub section: String,
+    pub cell: Name,
+    pub circuit: Name,
+    pub section: Name,
     pub started_at: Time,
     pub harvested_at: Time,
     pub charge_ah: f64,
@@ -47,9 +101,9 @@ pub struct CropRow {
 /// One weighed scrap.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ScrapRow {
-    pub cell: String,
-    pub circuit: String,
-    pub section: String,
+    pub cell: Name,
+    pub circuit: Name,
+    pub section: Name,
     pub set_at: Time,
     pub pulled_at: Time,
     pub count: u32,
@@ -94,9 +148,9 @@ pub struct Backtest {
 /// What a crop is, for its row.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Crop<'a> {
-    pub cell: &'a str,
-    pub circuit: &'a str,
-    pub section: &'a str,
+    pub cell: &'a Name,
+    pub circuit: &'a Name,
+    pub section: &'a Name,
     pub started_at: Time,
     pub harvested_at: Time,
     pub charge_ah: f64,
@@ -110,9 +164,9 @@ pub fn crop_row(c: &Crop<'_>, learnt: &Estimate, fixed: f64, reach_at: Option<Ti
     let fixed_kg = copper_kg(c.charge_ah, fixed);
     let pct = |p: f64| (p - c.weighed_kg) / c.weighed_kg * 100.0;
     CropRow {
-        cell: c.cell.to_string(),
-        circuit: c.circuit.to_string(),
-        section: c.section.to_string(),
+        cell: c.cell.clone(),
+        circuit: c.circuit.clone(),
+        section: c.section.clone(),
         started_at: c.started_at,
         harvested_at: c.harvested_at,
         charge_ah: c.charge_ah,
@@ -132,9 +186,9 @@ pub fn crop_row(c: &Crop<'_>, learnt: &Estimate, fixed: f64, reach_at: Option<Ti
 /// What a scrap weighing is, for its row.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Scrap<'a> {
-    pub cell: &'a str,
-    pub circuit: &'a str,
-    pub section: &'a str,
+    pub cell: &'a Name,
+    pub circuit: &'a Name,
+    pub section: &'a Name,
     pub set_at: Time,
     pub pulled_at: Time,
     pub charge_ah: f64,
@@ -150,9 +204,9 @@ pub fn scrap_row(s: &Scrap<'_>, learnt: &Estimate, fixed: f64) -> ScrapRow {
     let set_total = s.load.initial_kg * n;
     let (predicted_kg, fixed_kg) = (at(learnt.value), at(fixed));
     ScrapRow {
-        cell: s.cell.to_string(),
-        circuit: s.circuit.to_string(),
-        section: s.section.to_string(),
+        cell: s.cell.clone(),
+        circuit: s.circuit.clone(),
+        section: s.section.clone(),
         set_at: s.set_at,
         pulled_at: s.pulled_at,
         count: s.load.count,
@@ -170,23 +224,75 @@ pub fn scrap_row(s: &Scrap<'_>, learnt: &Estimate, fixed: f64) -> ScrapRow {
     }
 }
 
-fn mean(v: impl Iterator<Item = f64>) -> Option<f64> {
-    let (n, s) = v.fold((0usize, 0.0), |(n, s), x| (n + 1, s + x));
-    (n > 0).then(|| s / n as f64)
+/// A mean summed as the values come (in their order, from 0).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+struct Mean {
+    n: usize,
+    sum: f64,
+}
+
+impl Mean {
+    fn add(&mut self, x: f64) {
+        self.n += 1;
+        self.sum += x;
+    }
+
+    fn get(&self) -> Option<f64> {
+        (self.n > 0).then(|| self.sum / self.n as f64)
+    }
+}
+
+/// The summary of rows as they come, one at a time (the only place its figures
+/// are computed: [`summarise`] adds its rows to one, in their order).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct SummaryAcc {
+    crops: usize,
+    mape: Mean,
+    fixed_mape: Mean,
+    bias: Mean,
+    time: Mean,
+    scrap: usize,
+    scrap_mae: Mean,
+    fixed_scrap_mae: Mean,
+}
+
+impl SummaryAcc {
+    pub fn crop(&mut self, r: &CropRow) {
+        self.crops += 1;
+        self.mape.add(r.error_pct.abs());
+        self.fixed_mape.add(r.fixed_error_pct.abs());
+        self.bias.add(r.error_pct);
+        if let Some(h) = r.harvest_time_error_h {
+            self.time.add(h.abs());
+        }
+    }
+
+    pub fn scrap(&mut self, r: &ScrapRow) {
+        self.scrap += 1;
+        self.scrap_mae.add((r.predicted_fraction - r.weighed_fraction).abs() * 100.0);
+        self.fixed_scrap_mae.add((r.fixed_fraction - r.weighed_fraction).abs() * 100.0);
+    }
+
+    pub fn summary(&self) -> Summary {
+        Summary {
+            crops: self.crops,
+            mass_mape_pct: self.mape.get(),
+            fixed_mass_mape_pct: self.fixed_mape.get(),
+            mass_bias_pct: self.bias.get(),
+            harvest_time_mae_h: self.time.get(),
+            scrap: self.scrap,
+            scrap_mae_pp: self.scrap_mae.get(),
+            fixed_scrap_mae_pp: self.fixed_scrap_mae.get(),
+        }
+    }
 }
 
 /// The summary of the rows.
 pub fn summarise(crops: &[CropRow], scrap: &[ScrapRow]) -> Summary {
-    Summary {
-        crops: crops.len(),
-        mass_mape_pct: mean(crops.iter().map(|r| r.error_pct.abs())),
-        fixed_mass_mape_pct: mean(crops.iter().map(|r| r.fixed_error_pct.abs())),
-        mass_bias_pct: mean(crops.iter().map(|r| r.error_pct)),
-        harvest_time_mae_h: mean(crops.iter().filter_map(|r| r.harvest_time_error_h.map(f64::abs))),
-        scrap: scrap.len(),
-        scrap_mae_pp: mean(scrap.iter().map(|r| (r.predicted_fraction - r.weighed_fraction).abs() * 100.0)),
-        fixed_scrap_mae_pp: mean(scrap.iter().map(|r| (r.fixed_fraction - r.weighed_fraction).abs() * 100.0)),
-    }
+    let mut acc = SummaryAcc::default();
+    crops.iter().for_each(|r| acc.crop(r));
+    scrap.iter().for_each(|r| acc.scrap(r));
+    acc.summary()
 }
 
 #[cfg(test)]
@@ -201,9 +307,9 @@ mod tests {
         // 30 kA for 179.25 h at 96 % plates 6 120 kg (DOMAIN.md plant check, derived: 120 kg × 51 cathodes)
         let q = 30_000.0 * 179.25;
         let c = Crop {
-            cell: "A01",
-            circuit: "C1",
-            section: "A",
+            cell: &Name::from("A01"),
+            circuit: &Name::from("C1"),
+            section: &Name::from("A"),
             started_at: t0,
             harvested_at: t0 + Duration::hours(179),
             charge_ah: q,
@@ -222,5 +328,14 @@ mod tests {
         assert!((s.mass_mape_pct.unwrap() - mape).abs() < 1e-12);
         assert_eq!(s.harvest_time_mae_h, Some(1.0));
         assert_eq!(s.scrap_mae_pp, None);
+    }
+
+    #[test]
+    fn a_name_prints_and_serialises_as_its_string() {
+        let n = Name::from("A01");
+        assert_eq!(format!("[{n:<5}] [{n:>5}]"), "[A01  ] [  A01]");
+        assert_eq!(serde_json::to_string(&n).unwrap(), serde_json::to_string("A01").unwrap());
+        let later = Name::from("A02");
+        assert!(n == "A01" && n.clone() == n && n < later);
     }
 }

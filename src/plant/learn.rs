@@ -4,9 +4,11 @@
 //! Learnt values are stored, not recomputed per forecast: a weighing, an undo or
 //! a back-fill refreshes the rows of the cells it touches and relearns their
 //! sections ([`relearn`]). A forecast as of now reads the stored values; one as
-//! of an earlier time (and the back-test) learns from the stored rows weighed
-//! up to that time ([`learnt_until`]): a query per section and the pure
-//! estimator, never a replay of the history.
+//! of an earlier time learns from the stored rows weighed up to that time
+//! ([`learnt_until`]): a query per section and the pure estimator, never a
+//! replay of the history. The back-test, which learns as of every crop's
+//! start, reads each section's rows once ([`SectionHistory`]) and learns over
+//! the prefix of each cell's rows weighed by then: the same values.
 
 use std::collections::{BTreeSet, HashMap};
 
@@ -222,6 +224,57 @@ pub(crate) fn learnt_until(
         out.insert(c.clone(), l);
     }
     Ok(out)
+}
+
+/// A section's learn rows read once (those weighed at or before a time), each
+/// cell's of each kind as `(weighed at, value)` in the store's order (by the
+/// weighing's end, then its start): the values of the weighings at or before
+/// any earlier time are a prefix of each list, the same values in the same
+/// order as [`learnt_until`] reads, so the same learnt values (the back-test
+/// learns as of each crop's start from these, one read per section).
+pub(crate) struct SectionHistory {
+    crop: Vec<Vec<(Time, f64)>>,
+    scrap: Vec<Vec<(Time, f64)>>,
+}
+
+impl SectionHistory {
+    /// The learn rows of `cell`'s section weighed at or before `until` (each
+    /// cell's place in them is its index in [`Db::section_cells`]).
+    pub(crate) fn read(db: Db<'_>, cell: &str, until: Time) -> Result<SectionHistory> {
+        let cells = db.section_cells(cell)?;
+        let rows = db.section_learn_rows(cell, until)?;
+        let s = split(&cells, &rows);
+        let pairs = |by_cell: &[Vec<&LearnRow>]| -> Vec<Vec<(Time, f64)>> {
+            by_cell.iter().map(|rs| rs.iter().map(|r| (r.ended_at, r.value)).collect()).collect()
+        };
+        Ok(SectionHistory { crop: pairs(&s.crop), scrap: pairs(&s.scrap) })
+    }
+
+    /// The section learnt from its weighings of `kind` at or before `until`
+    /// (no later than the time it was read up to).
+    pub(crate) fn learnt_until(&self, kind: WeighingKind, until: Time) -> SectionLearnt {
+        let (rows, rule) = match kind {
+            WeighingKind::Crop => (&self.crop, &CATHODE),
+            WeighingKind::Scrap => (&self.scrap, &ANODE),
+        };
+        let values: Vec<Vec<f64>> =
+            rows.iter().map(|v| v[..v.partition_point(|(t, _)| *t <= until)].iter().map(|&(_, x)| x).collect()).collect();
+        learn_section(&values, rule)
+    }
+}
+
+/// A cell's learnt cathode efficiency (`Crop`) or anode factor (`Scrap`) from
+/// its section's `learnt` values of that kind, `i` the cell's place in the
+/// section (`None`: not in it, the layout's), as [`learnt_until`] gives it.
+pub(crate) fn cell_estimate(learnt: &SectionLearnt, kind: WeighingKind, i: Option<usize>, params: &CellParams) -> Estimate {
+    match (kind, i) {
+        (WeighingKind::Crop, Some(i)) => learnt.estimate(i, params.cathode_efficiency, &CATHODE),
+        (WeighingKind::Crop, None) => Estimate::layout(params.cathode_efficiency, &CATHODE),
+        // inert anodes do not dissolve: there is no factor to learn
+        (WeighingKind::Scrap, _) if params.anode_kind == AnodeKind::Inert => Estimate::layout(params.anode_efficiency, &ANODE),
+        (WeighingKind::Scrap, Some(i)) => learnt.estimate(i, params.anode_efficiency, &ANODE),
+        (WeighingKind::Scrap, None) => Estimate::layout(params.anode_efficiency, &ANODE),
+    }
 }
 
 /// One cell's learnt values from the weighings at or before `until` (an entry's

@@ -21,6 +21,7 @@ mod report;
 use chrono::{DateTime, Utc};
 use std::path::{Path, PathBuf};
 
+pub use backtest::BacktestSink;
 pub use backup::{BACKUP_FOLDER, BackupFile, BackupKind, Restored, backup_folder, backup_if_due, list_backups, restore};
 pub use detail::{CellDetail, CircuitTrend};
 pub use drafts::Draft;

@@ -8,34 +8,76 @@ use ratatui::symbols::Marker;
 use ratatui::text::Line;
 use ratatui::widgets::{Axis, Block, Borders, Chart, Dataset, GraphType, Paragraph, Wrap};
 
+use std::collections::BTreeMap;
+use std::ops::ControlFlow;
+
 use super::app::App;
 use super::draw::{bold, fg};
-use crate::domain::backtest::{Backtest, Summary, summarise};
+use crate::domain::backtest::{CropRow, Name, ScrapRow, Summary, SummaryAcc};
+use crate::domain::charge::Time;
+use crate::plant::{BacktestSink, Plant, PlantError};
 
-/// The accuracy screen's state: the back-test and its summary per section.
+/// The accuracy screen's state: what it draws of the back-test and its summary per section.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct AccuracyScreen {
-    pub backtest: Option<Backtest>,
+    pub backtest: Option<AccuracyView>,
     /// (circuit, section, the summary of its rows), in plant order.
     pub sections: Vec<(String, String, Summary)>,
 }
 
+/// What the chart and the figures draw of the plant's back-test (not its rows).
+#[derive(Debug, Clone, PartialEq)]
+pub struct AccuracyView {
+    pub summary: Summary,
+    /// Each crop's weighed kg against its learnt prediction, in the rows' order.
+    pub learnt: Vec<(f64, f64)>,
+    /// Each crop's weighed kg against the fixed-efficiency prediction.
+    pub fixed: Vec<(f64, f64)>,
+}
+
+/// The back-test's rows made into the screen as they come: each section's
+/// summary accumulated, each crop's points kept.
+#[derive(Debug, Default)]
+struct Rows {
+    sections: BTreeMap<(Name, Name), SummaryAcc>,
+    learnt: Vec<(f64, f64)>,
+    fixed: Vec<(f64, f64)>,
+}
+
+impl Rows {
+    fn section(&mut self, circuit: &Name, section: &Name) -> &mut SummaryAcc {
+        self.sections.entry((circuit.clone(), section.clone())).or_default()
+    }
+}
+
+impl BacktestSink for Rows {
+    fn crop(&mut self, r: CropRow) -> ControlFlow<()> {
+        self.section(&r.circuit, &r.section).crop(&r);
+        self.learnt.push((r.weighed_kg, r.predicted_kg));
+        self.fixed.push((r.weighed_kg, r.fixed_kg));
+        ControlFlow::Continue(())
+    }
+
+    fn scrap(&mut self, r: ScrapRow) -> ControlFlow<()> {
+        self.section(&r.circuit, &r.section).scrap(&r);
+        ControlFlow::Continue(())
+    }
+}
+
 impl AccuracyScreen {
-    pub fn loaded(&mut self, b: Backtest) {
-        let mut keys: Vec<(String, String)> = b.crops.iter().map(|r| (r.circuit.clone(), r.section.clone())).collect();
-        keys.extend(b.scrap.iter().map(|r| (r.circuit.clone(), r.section.clone())));
-        keys.sort();
-        keys.dedup();
-        self.sections = keys
-            .into_iter()
-            .map(|(circuit, section)| {
-                let crops: Vec<_> = b.crops.iter().filter(|r| r.circuit == circuit && r.section == section).cloned().collect();
-                let scrap: Vec<_> = b.scrap.iter().filter(|r| r.circuit == circuit && r.section == section).cloned().collect();
-                let s = summarise(&crops, &scrap);
-                (circuit, section, s)
-            })
-            .collect();
-        self.backtest = Some(b);
+    /// The plant's back-test up to `at`, as the screen shows it (the rows are not kept).
+    pub fn load(plant: &Plant, at: Time) -> Result<AccuracyScreen, PlantError> {
+        let (from, to) = plant.backtest_period(None, at, None)?;
+        let mut rows = Rows::default();
+        let summary = plant.backtest_each(from, to, None, &mut rows)?;
+        let sections =
+            rows.sections.into_iter().map(|((circuit, section), s)| (circuit.to_string(), section.to_string(), s.summary())).collect();
+        let view = AccuracyView { summary, learnt: rows.learnt, fixed: rows.fixed };
+        Ok(AccuracyScreen { backtest: Some(view), sections })
+    }
+
+    pub fn loaded(&mut self, loaded: AccuracyScreen) {
+        *self = loaded;
     }
 }
 
@@ -113,13 +155,12 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
     );
     let [chart, text] = Layout::horizontal([Constraint::Min(30), Constraint::Length(if wide { 72 } else { 38 })]).areas(rest);
     f.render_widget(Paragraph::new(figures(app, &bt.summary, &app.accuracy.sections, wide)), text);
-    if bt.crops.is_empty() {
+    if bt.learnt.is_empty() {
         f.render_widget(Paragraph::new("no weighed crop to chart yet").block(Block::default().borders(Borders::ALL)), chart);
         return;
     }
-    let learnt: Vec<(f64, f64)> = bt.crops.iter().map(|r| (r.weighed_kg, r.predicted_kg)).collect();
-    let fixed: Vec<(f64, f64)> = bt.crops.iter().map(|r| (r.weighed_kg, r.fixed_kg)).collect();
-    let all = learnt.iter().chain(&fixed).flat_map(|p| [p.0, p.1]);
+    let (learnt, fixed) = (&bt.learnt, &bt.fixed);
+    let all = learnt.iter().chain(fixed).flat_map(|p| [p.0, p.1]);
     let (lo, hi) = all.fold((f64::MAX, f64::MIN), |(a, b), v| (a.min(v), b.max(v)));
     let pad = ((hi - lo) * 0.03).max(1.0);
     let (lo, hi) = ((lo - pad).floor(), (hi + pad).ceil());
@@ -131,8 +172,8 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             .graph_type(GraphType::Line)
             .style(fg(app, Color::DarkGray))
             .data(&diagonal),
-        Dataset::default().name("fixed η").marker(Marker::Braille).graph_type(GraphType::Scatter).style(fg(app, Color::Gray)).data(&fixed),
-        Dataset::default().name("learnt").marker(Marker::Dot).graph_type(GraphType::Scatter).style(fg(app, Color::Green)).data(&learnt),
+        Dataset::default().name("fixed η").marker(Marker::Braille).graph_type(GraphType::Scatter).style(fg(app, Color::Gray)).data(fixed),
+        Dataset::default().name("learnt").marker(Marker::Dot).graph_type(GraphType::Scatter).style(fg(app, Color::Green)).data(learnt),
     ];
     let axis = |title: &str| {
         Axis::default().title(title.to_string()).bounds([lo, hi]).labels(vec![Line::raw(format!("{lo:.0}")), Line::raw(format!("{hi:.0}"))])
@@ -141,7 +182,7 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
         Chart::new(ds)
             .legend_position(None)
             .block(Block::default().borders(Borders::ALL).title(if wide {
-                format!(" predicted against weighed, kg per cell · {} crops · • learnt  ⠂ fixed η ", bt.crops.len())
+                format!(" predicted against weighed, kg per cell · {} crops · • learnt  ⠂ fixed η ", bt.learnt.len())
             } else {
                 " kg per cell · • learnt  ⠂ fixed η ".to_string()
             }))
@@ -149,4 +190,48 @@ pub fn draw(f: &mut Frame, app: &App, area: Rect) {
             .y_axis(axis("predicted")),
         chart,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::demo::{DemoSpec, build};
+    use crate::domain::backtest::summarise;
+
+    /// The screen from the rows as they come equals the one made from the
+    /// whole back-test: each section's summary of its own rows, each crop's points.
+    #[test]
+    fn the_screen_made_as_the_rows_come_is_the_one_made_from_them_all() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut plant = Plant::open(&dir.path().join("demo.db")).unwrap();
+        let now = chrono::DateTime::parse_from_rfc3339("2026-11-20T05:30:00Z").unwrap().to_utc();
+        build(&mut plant, &DemoSpec { cells: 102, days: 45, seed: 5, reading_minutes: 30 }, now).unwrap();
+        let b = plant.backtest(None, now, None).unwrap();
+        let mut keys: Vec<(String, String)> = b
+            .crops
+            .iter()
+            .map(|r| (r.circuit.to_string(), r.section.to_string()))
+            .chain(b.scrap.iter().map(|r| (r.circuit.to_string(), r.section.to_string())))
+            .collect();
+        keys.sort();
+        keys.dedup();
+        let sections: Vec<(String, String, Summary)> = keys
+            .into_iter()
+            .map(|(circuit, section)| {
+                let crops: Vec<_> =
+                    b.crops.iter().filter(|r| r.circuit == circuit.as_str() && r.section == section.as_str()).cloned().collect();
+                let scrap: Vec<_> =
+                    b.scrap.iter().filter(|r| r.circuit == circuit.as_str() && r.section == section.as_str()).cloned().collect();
+                let s = summarise(&crops, &scrap);
+                (circuit, section, s)
+            })
+            .collect();
+        let screen = AccuracyScreen::load(&plant, now).unwrap();
+        assert!(sections.len() >= 4, "{sections:?}");
+        assert_eq!(screen.sections, sections);
+        let v = screen.backtest.unwrap();
+        assert_eq!(v.summary, b.summary);
+        assert_eq!(v.learnt, b.crops.iter().map(|r| (r.weighed_kg, r.predicted_kg)).collect::<Vec<_>>());
+        assert_eq!(v.fixed, b.crops.iter().map(|r| (r.weighed_kg, r.fixed_kg)).collect::<Vec<_>>());
+    }
 }

@@ -697,7 +697,7 @@ impl App {
         self.patrol.loaded(p);
     }
 
-    pub fn loaded_accuracy(&mut self, b: crate::domain::backtest::Backtest) {
+    pub fn loaded_accuracy(&mut self, b: AccuracyScreen) {
         self.accuracy.loaded(b);
     }
 

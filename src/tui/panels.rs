@@ -8,6 +8,7 @@
 use std::path::PathBuf;
 use std::sync::mpsc;
 
+use super::accuracy::AccuracyScreen;
 use super::app::{App, Effect};
 use crate::domain::backtest::Backtest;
 use crate::domain::balance::Balance;
@@ -31,7 +32,8 @@ pub(super) enum Job {
 pub(super) enum Found {
     Plan(Result<Plan, String>),
     Patrol(Result<Patrol, String>),
-    Accuracy(Result<Backtest, String>),
+    /// What the accuracy screen draws (made here, so its rows are never held).
+    Accuracy(Result<AccuracyScreen, String>),
     Balance(Result<Balance, String>),
     CellBacktest(String, Result<Backtest, String>),
 }
@@ -53,7 +55,7 @@ pub(super) fn run(plant: &Plant, job: Job) -> Found {
     match job {
         Job::Plan(opts, at) => Found::Plan(plant.plan(&opts, at).map_err(text)),
         Job::Patrol(at) => Found::Patrol(plant.patrol(at).map_err(text)),
-        Job::Accuracy(at) => Found::Accuracy(plant.backtest(None, at, None).map_err(text)),
+        Job::Accuracy(at) => Found::Accuracy(AccuracyScreen::load(plant, at).map_err(text)),
         Job::Balance(now) => Found::Balance(plant.month_so_far(now).and_then(|(from, to)| plant.balance(from, to)).map_err(text)),
         Job::CellBacktest(cell, at) => {
             let b = plant.backtest(None, at, Some(&cell)).map_err(text);
