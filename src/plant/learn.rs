@@ -16,26 +16,14 @@ use super::{Result, far_future};
 use crate::domain::charge::{Time, cell_charge};
 use crate::domain::layout::{AnodeKind, CellParams};
 use crate::domain::learn::{ANODE, CATHODE, CellLearnt, Estimate, Rule, SectionLearnt, anode_factor, learn_section};
-use crate::store::{Db, LearnRow, StoreCurve, StoredEstimate, StoredLearnt, WeighingKind};
+use crate::store::{Db, LearnRow, StoreCurve, StoredEstimate, StoredLearnt, Weighing, WeighingKind};
 
 /// Rebuilds a cell's learn rows from its crops and, with `loads`, its anode loads as stored.
 fn refresh_rows(db: Db<'_>, cell: &str, loads: bool) -> Result<()> {
     let mut rows = Vec::new();
     for ((start, end, kg), f) in db.crop_figures(cell)? {
         if let Some(e) = f.efficiency {
-            rows.push(LearnRow {
-                cell: cell.to_string(),
-                kind: WeighingKind::Crop,
-                started_at: start,
-                ended_at: end,
-                charge_ah: f.charge_ah,
-                weighed_kg: kg,
-                count: None,
-                set_kg: None,
-                value: e,
-                left_out: None,
-                z: None,
-            });
+            rows.push(LearnRow::crop(cell, Weighing { started_at: start, ended_at: end, charge_ah: f.charge_ah, weighed_kg: kg }, e));
         }
     }
     if !loads {
@@ -54,19 +42,8 @@ fn refresh_rows(db: Db<'_>, cell: &str, loads: bool) -> Result<()> {
                 let (Some(end), Some(scrap)) = (l.ended_at, l.scrap_kg) else { continue };
                 let q = cell_charge(&curve, &cuts, l.set_at, end)?.total();
                 let Some(value) = anode_factor(l.mean_kg, scrap, l.count, q, params.anode_copper_fraction) else { continue };
-                rows.push(LearnRow {
-                    cell: cell.to_string(),
-                    kind: WeighingKind::Scrap,
-                    started_at: l.set_at,
-                    ended_at: end,
-                    charge_ah: q,
-                    weighed_kg: scrap,
-                    count: Some(l.count),
-                    set_kg: Some(l.mean_kg),
-                    value,
-                    left_out: None,
-                    z: None,
-                });
+                let w = Weighing { started_at: l.set_at, ended_at: end, charge_ah: q, weighed_kg: scrap };
+                rows.push(LearnRow::scrap(cell, w, l.count, l.mean_kg, value));
             }
         }
     }

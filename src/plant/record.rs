@@ -13,7 +13,7 @@ use crate::domain::history::{Event, EventKind, Replay};
 use crate::domain::layout::{AnodeKind, CellParams};
 use crate::domain::learn::{Source, anode_factor};
 use crate::domain::plant_time::PlantZone;
-use crate::store::{CellRow, CropFigures, Db, LearnRow, NewEvent, StoreCurve, WeighingKind, params_in_force};
+use crate::store::{CellRow, CropFigures, Db, LearnRow, NewEvent, StoreCurve, Weighing, WeighingKind, params_in_force};
 
 /// What was recorded: the event's id, and the questions accepted with `--force`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -506,19 +506,11 @@ fn append_to_history(db: Db<'_>, batch: &mut Batch<'_>, cell: &str, new: &NewEve
         let sheets = batch.params_at(cell, c.started_at)?.starter_sheets_kg();
         let f = CropFigures { charge_ah: q.total(), estimated_ah: q.estimated, efficiency: measured_efficiency(kg - sheets, q.total()) };
         if let Some(value) = f.efficiency {
-            rows.push(LearnRow {
-                cell: cell.to_string(),
-                kind: WeighingKind::Crop,
-                started_at: c.started_at,
-                ended_at: end,
-                charge_ah: f.charge_ah,
-                weighed_kg: kg,
-                count: None,
-                set_kg: None,
+            rows.push(LearnRow::crop(
+                cell,
+                Weighing { started_at: c.started_at, ended_at: end, charge_ah: f.charge_ah, weighed_kg: kg },
                 value,
-                left_out: None,
-                z: None,
-            });
+            ));
         }
         figures.push(Some(f));
     }
@@ -530,19 +522,13 @@ fn append_to_history(db: Db<'_>, batch: &mut Batch<'_>, cell: &str, new: &NewEve
         }
         let q = cell_charge(batch.curve(row.circuit_id)?, &cuts, l.set_at, end)?.total();
         let Some(value) = anode_factor(l.mean_kg, scrap, l.count, q, params.anode_copper_fraction) else { continue };
-        rows.push(LearnRow {
-            cell: cell.to_string(),
-            kind: WeighingKind::Scrap,
-            started_at: l.set_at,
-            ended_at: end,
-            charge_ah: q,
-            weighed_kg: scrap,
-            count: Some(l.count),
-            set_kg: Some(l.mean_kg),
+        rows.push(LearnRow::scrap(
+            cell,
+            Weighing { started_at: l.set_at, ended_at: end, charge_ah: q, weighed_kg: scrap },
+            l.count,
+            l.mean_kg,
             value,
-            left_out: None,
-            z: None,
-        });
+        ));
     }
     db.replace_open_records(cell, &open, &tail, &figures)?;
     for r in &rows {

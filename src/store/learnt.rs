@@ -13,7 +13,7 @@ use crate::domain::learn::Source;
 pub enum WeighingKind {
     /// A weighed crop: the value is the cathode current efficiency.
     Crop,
-    /// Weighed scrap: the value is the anode factor.
+    /// Weighing scrap: the value is the anode factor.
     Scrap,
 }
 
@@ -47,6 +47,46 @@ pub struct LearnRow {
     /// Why it is not learnt from (`None`: learnt).
     pub left_out: Option<String>,
     pub z: Option<f64>,
+}
+
+/// A weighing's span and figures, as both kinds of [`LearnRow`] carry them.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Weighing {
+    /// Crop start, or the anode load's set time.
+    pub started_at: Time,
+    /// The harvest or the pull.
+    pub ended_at: Time,
+    pub charge_ah: f64,
+    /// Cell total, kg.
+    pub weighed_kg: f64,
+}
+
+impl LearnRow {
+    /// A weighed crop's row, learnt from (nothing left out yet).
+    pub fn crop(cell: &str, w: Weighing, efficiency: f64) -> LearnRow {
+        LearnRow::new(cell, WeighingKind::Crop, w, None, None, efficiency)
+    }
+
+    /// A weighed scrap's row: the load's anode `count` and mean kg at set, its anode factor.
+    pub fn scrap(cell: &str, w: Weighing, count: u32, set_kg: f64, factor: f64) -> LearnRow {
+        LearnRow::new(cell, WeighingKind::Scrap, w, Some(count), Some(set_kg), factor)
+    }
+
+    fn new(cell: &str, kind: WeighingKind, w: Weighing, count: Option<u32>, set_kg: Option<f64>, value: f64) -> LearnRow {
+        LearnRow {
+            cell: cell.to_string(),
+            kind,
+            started_at: w.started_at,
+            ended_at: w.ended_at,
+            charge_ah: w.charge_ah,
+            weighed_kg: w.weighed_kg,
+            count,
+            set_kg,
+            value,
+            left_out: None,
+            z: None,
+        }
+    }
 }
 
 /// One learnt value as stored; `value` is `None` when the source is the layout.

@@ -25,7 +25,7 @@ pub use append::{OpenRecords, params_in_force};
 pub use cells::{CellRow, CircuitRow, LayoutSummary, PlantInfo};
 pub use drafts::DraftRow;
 pub use events::{CropFigures, LoadRow, NewEvent};
-pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, WeighingKind};
+pub use learnt::{LearnRow, StoredEstimate, StoredLearnt, Weighing, WeighingKind};
 
 /// The tables a tankbook database has from its first migration on: a file
 /// without them is not ours.
