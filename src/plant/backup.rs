@@ -241,7 +241,7 @@ fn stage(file: &Path, staging: &Path) -> Result<()> {
         let src = rusqlite::Connection::open_with_flags(file, rusqlite::OpenFlags::SQLITE_OPEN_READ_ONLY).map_err(StoreError::from)?;
         let mut dst = rusqlite::Connection::open(staging).map_err(StoreError::from)?;
         let b = rusqlite::backup::Backup::new(&src, &mut dst).map_err(StoreError::from)?;
-        b.run_to_completion(1024, StdDuration::from_millis(10), None).map_err(StoreError::from)?;
+        b.run_to_completion(crate::store::BACKUP_PAGES_PER_STEP, StdDuration::from_millis(10), None).map_err(StoreError::from)?;
     }
     let mut plant = Plant::open(staging)?;
     let report = plant.check()?;

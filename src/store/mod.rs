@@ -311,7 +311,7 @@ impl Store {
         let mut out = Connection::open(dest)?;
         {
             let b = rusqlite::backup::Backup::new(&self.conn, &mut out)?;
-            b.run_to_completion(256, StdDuration::from_millis(20), None)?;
+            b.run_to_completion(BACKUP_PAGES_PER_STEP, StdDuration::from_millis(10), None)?;
         }
         let ok: String = out.query_row("PRAGMA integrity_check", [], |r| r.get(0))?;
         if ok != "ok" {
@@ -320,6 +320,12 @@ impl Store {
         Ok(())
     }
 }
+
+/// Pages a backup copies per step (64 MB of 4 KiB pages). The pause between
+/// steps lets other connections in, but a write by another connection
+/// restarts the copy, and at 256 pages a step a year-long plant (545 MB) spent
+/// 10 s pausing: a few large steps are quicker and less often restarted.
+pub const BACKUP_PAGES_PER_STEP: std::ffi::c_int = 16_384;
 
 impl Db<'_> {
     /// SQLite's own integrity and foreign-key checks; empty when both pass.
